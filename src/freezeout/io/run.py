@@ -1,0 +1,76 @@
+"""The in-memory form of a temperature run, whatever file it came from."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class RunData:
+    """A reduced temperature run in canonical units, ready for fitting.
+
+    Attributes
+    ----------
+    source
+        Path of the file the run was read from, as given.
+    sha256
+        SHA-256 of that file's bytes (hex).
+    temperature
+        Temperatures, ascending. [K]
+    density
+        Hall carrier density of the majority carrier, r_H already applied. [cm^-3]
+    density_err
+        Standard uncertainty of ``density`` per point, or None when the file gave none. [cm^-3]
+    carrier
+        Majority carrier of the run, ``"n"`` or ``"p"``.
+    point_carrier
+        Carrier type per point (``"n"`` or ``"p"``); differs from ``carrier`` where the Hall
+        coefficient changed sign (mixed conduction).
+    resistivity, resistivity_err
+        Resistivity and its uncertainty per point, or None. [ohm cm]
+    mobility, mobility_err
+        Hall mobility and its uncertainty per point, or None. [cm^2/(V s)]
+    hall_coefficient, hall_coefficient_err
+        Hall coefficient (signed) per point, or None. [cm^3/C]
+    flags
+        Data-quality finding codes per point (empty string when clean).
+    severe
+        True for points that failed a severe data-quality check.
+    metadata
+        ``key: value`` pairs from the file's comment lines, as provenance.
+    notes
+        Plain-language remarks the importer made (e.g. mixed conduction found).
+    findings
+        Data-quality findings (objects with ``to_dict()``) from a reduction, if any.
+    """
+
+    source: str
+    sha256: str
+    temperature: np.ndarray
+    density: np.ndarray
+    density_err: np.ndarray | None
+    carrier: str
+    point_carrier: tuple[str, ...]
+    resistivity: np.ndarray | None = None
+    resistivity_err: np.ndarray | None = None
+    mobility: np.ndarray | None = None
+    mobility_err: np.ndarray | None = None
+    hall_coefficient: np.ndarray | None = None
+    hall_coefficient_err: np.ndarray | None = None
+    flags: tuple[str, ...] = ()
+    severe: np.ndarray | None = None
+    metadata: dict[str, str] = field(default_factory=dict)
+    notes: tuple[str, ...] = ()
+    findings: tuple = ()
+
+    @property
+    def n_points(self) -> int:
+        """Number of temperature points in the run."""
+        return int(self.temperature.size)
+
+    @property
+    def mixed(self) -> np.ndarray:
+        """True where the point's carrier type differs from the run's majority carrier."""
+        return np.array([c != self.carrier for c in self.point_carrier], dtype=bool)
