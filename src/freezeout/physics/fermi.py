@@ -1,0 +1,229 @@
+"""Complete Fermi-Dirac integrals of order 1/2 and -1/2, normalized, vectorized.
+
+The normalized integral is
+
+    F_j(eta) = 1/Gamma(j+1) * integral_0^inf t^j / (1 + exp(t - eta)) dt,
+
+so that n = N_c F_1/2(eta_c) and the Boltzmann limit is F_j(eta) -> exp(eta).
+F_j = -Li_{j+1}(-e^eta) (polylogarithm) and dF_1/2/deta = F_-1/2.
+
+Three regions, each accurate to about 1e-14 relative:
+
+* eta < -2: the alternating series sum_k (-1)^(k+1) e^(k eta) / k^(j+1) [1], evaluated as
+  exp(eta) times a sum near 1 so that the logarithm never underflows;
+* -2 <= eta < 26: Chebyshev expansions of ln F_j on unit intervals, generated from mpmath
+  polylogarithm values by ``scripts/make_fd_tables.py`` (stored in ``data/``);
+* eta >= 26: the Sommerfeld asymptotic expansion [2]
+  F_j(eta) = eta^(j+1)/Gamma(j+2) [1 + sum_k 2 (1 - 2^(1-2k)) zeta(2k) Gamma(j+2)/Gamma(j+2-2k)
+  eta^(-2k)], whose cos(pi j) F_j(-eta) correction vanishes for half-integer j.
+
+References
+----------
+.. [1] DLMF 25.12(iii), Fermi-Dirac and Bose-Einstein integrals. https://dlmf.nist.gov/25.12
+.. [2] J. S. Blakemore, *Semiconductor Statistics* (Pergamon, 1962), App. C; R. B. Dingle,
+   Appl. Sci. Res. B 6, 225 (1957). doi:10.1007/BF02920379
+"""
+
+from __future__ import annotations
+
+import json
+from functools import cache
+from importlib import resources
+
+import numpy as np
+from scipy import special
+
+_SERIES_MAX = -2.0
+_ASYMPTOTIC_MIN = 26.0
+_N_CHEB = 16
+_N_ASYMPTOTIC = 12
+
+
+@cache
+def _tables() -> dict:
+    text = resources.files("freezeout.data").joinpath("fermi_dirac_chebyshev.json").read_text()
+    raw = json.loads(text)
+    lower, upper, width = raw["lower"], raw["upper"], raw["width"]
+    if (lower, upper) != (_SERIES_MAX, _ASYMPTOTIC_MIN):
+        raise RuntimeError("Fermi-Dirac table domain does not match the code")  # pragma: no cover
+    out = {"lower": float(lower), "width": float(width)}
+    for name, table in raw["orders"].items():
+        # stored transposed, one contiguous row per Chebyshev order, for fast gathers
+        out[name] = np.ascontiguousarray(np.asarray(table, dtype=float)[:, :_N_CHEB].T)
+    return out
+
+
+@cache
+def _asymptotic_coefficients(j: float) -> np.ndarray:
+    k = np.arange(1, _N_ASYMPTOTIC + 1)
+    # Gamma(j+2)/Gamma(j+2-2k) as a running product, sign included
+    falling = np.empty(k.size)
+    acc = 1.0
+    for i, kk in enumerate(k):
+        acc *= (j + 2 - 2 * kk + 1) * (j + 2 - 2 * kk)
+        falling[i] = acc
+    return 2.0 * (1.0 - 2.0 ** (1.0 - 2.0 * k)) * special.zeta(2.0 * k) * falling
+
+
+def _log_series(eta: np.ndarray, *orders: float) -> list[np.ndarray]:
+    """ln F_j for eta < -2, one array per order j.
+
+    ln F_j = eta + ln(sum_k (-1)^(k+1) e^((k-1) eta) / k^(j+1)); the sum is near 1, so the
+    result never underflows.
+    """
+    if eta.size == 0:
+        return [eta.copy() for _ in orders]
+    worst = float(np.max(eta))
+    # terms kept so that the first one left out, e^(K worst), is below 1e-17
+    n_terms = int(min(max(np.ceil(39.2 / max(-worst, 1e-300)), 1), 24))
+    if n_terms == 1:
+        return [eta.copy() for _ in orders]
+    x = np.exp(eta)
+    totals = [np.ones_like(eta) for _ in orders]
+    power = np.ones_like(eta)
+    for k in range(2, n_terms + 1):
+        power = power * x
+        sign = -1.0 if k % 2 == 0 else 1.0
+        for total, j in zip(totals, orders, strict=True):
+            total += (sign / k ** (j + 1.0)) * power
+    return [eta + np.log(total) for total in totals]
+
+
+def _log_chebyshev(name: str, eta: np.ndarray) -> np.ndarray:
+    tables = _tables()
+    coefs = tables[name]
+    pos = (eta - tables["lower"]) / tables["width"]
+    idx = np.minimum(pos.astype(np.intp), coefs.shape[1] - 1)
+    x = 2.0 * (pos - idx) - 1.0
+    # Clenshaw recurrence, vectorized over points with their own coefficient rows
+    two_x = 2.0 * x
+    b1 = coefs[_N_CHEB - 1].take(idx)
+    b2 = np.zeros_like(x)
+    for m in range(_N_CHEB - 2, 0, -1):
+        b1, b2 = two_x * b1 - b2 + coefs[m].take(idx), b1
+    return x * b1 - b2 + coefs[0].take(idx)
+
+
+def _log_asymptotic(j: float, eta: np.ndarray) -> np.ndarray:
+    a = _asymptotic_coefficients(j)
+    inv2 = 1.0 / (eta * eta)
+    total = np.zeros_like(eta)
+    for coef in a[::-1]:
+        total = (total + coef) * inv2
+    return (j + 1.0) * np.log(eta) - special.gammaln(j + 2.0) + np.log1p(total)
+
+
+def _log_fd(name: str, j: float, eta) -> np.ndarray:
+    eta = np.asarray(eta, dtype=float)
+    shape = eta.shape
+    flat = eta.ravel()
+    if np.isnan(flat).any():
+        raise ValueError("Fermi-Dirac integral: eta contains NaN")
+    out = np.empty_like(flat)
+    low = flat < _SERIES_MAX
+    high = flat >= _ASYMPTOTIC_MIN
+    mid = ~(low | high)
+    if low.all():
+        (out,) = _log_series(flat, j)
+    elif mid.all():
+        out = _log_chebyshev(name, flat)
+    else:
+        if low.any():
+            (out[low],) = _log_series(flat[low], j)
+        if mid.any():
+            out[mid] = _log_chebyshev(name, flat[mid])
+        if high.any():
+            out[high] = _log_asymptotic(j, flat[high])
+    return out.reshape(shape)
+
+
+def log_fermi_dirac_pair(eta) -> tuple[np.ndarray, np.ndarray]:
+    """ln F_1/2 and ln F_-1/2 together, sharing the work (used by the neutrality solver).
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level, scalar or array. [1]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        (ln F_1/2(eta), ln F_-1/2(eta)), each of the shape of ``eta``. [1]
+    """
+    eta = np.asarray(eta, dtype=float)
+    if eta.size and float(np.max(eta)) < _SERIES_MAX:
+        # the common non-degenerate case: one pass of the series for both orders
+        lhalf, lminus = _log_series(eta, 0.5, -0.5)
+        return lhalf, lminus
+    return _log_fd("1/2", 0.5, eta), _log_fd("-1/2", -0.5, eta)
+
+
+def log_fermi_dirac_half(eta):
+    """Natural logarithm of the normalized Fermi-Dirac integral F_1/2.
+
+    Finite for every finite eta (no underflow for very negative eta, where it tends to eta).
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level (E_F - E_c)/kT, scalar or array. [1]
+
+    Returns
+    -------
+    numpy.ndarray
+        ln F_1/2(eta), same shape as ``eta``. [1]
+    """
+    return _log_fd("1/2", 0.5, eta)
+
+
+def log_fermi_dirac_minus_half(eta):
+    """Natural logarithm of the normalized Fermi-Dirac integral F_-1/2 (= dF_1/2/deta).
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level, scalar or array. [1]
+
+    Returns
+    -------
+    numpy.ndarray
+        ln F_-1/2(eta), same shape as ``eta``. [1]
+    """
+    return _log_fd("-1/2", -0.5, eta)
+
+
+def fermi_dirac_half(eta):
+    """Normalized complete Fermi-Dirac integral of order 1/2 (2/sqrt(pi) prefactor).
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level (E_F - E_c)/kT, scalar or array. [1]
+
+    Returns
+    -------
+    numpy.ndarray
+        F_1/2(eta); underflows to 0 only below eta of about -745. [1]
+
+    Notes
+    -----
+    Relative error below 1e-13 on [-100, 200] against mpmath's polylogarithm
+    (tests/test_fermi.py).
+    """
+    return np.exp(log_fermi_dirac_half(eta))
+
+
+def fermi_dirac_minus_half(eta):
+    """Normalized complete Fermi-Dirac integral of order -1/2 (1/sqrt(pi) prefactor).
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level, scalar or array. [1]
+
+    Returns
+    -------
+    numpy.ndarray
+        F_-1/2(eta). [1]
+    """
+    return np.exp(log_fermi_dirac_minus_half(eta))
