@@ -1,0 +1,473 @@
+"""Fitting a run to the carrier model: starting values, a global stage, a local lmfit fit.
+
+Residuals are ln(model density) - ln(measured density), divided by the uncertainty of
+ln(density) (= density_err/density) when the run gives per-point uncertainties. Concentrations
+are fitted as log10. The global stage evaluates a grid of starts around the data-driven guess
+in one vectorized solve and refines the best few locally; the lowest chi^2 wins.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+
+import lmfit
+import numpy as np
+from scipy import stats
+
+from freezeout.errors import FitError, InputError
+from freezeout.fitting.model import CarrierModel
+from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
+from freezeout.io.run import RunData
+from freezeout.physics.bands import thermal_energy
+from freezeout.physics.materials import Material
+from freezeout.physics.neutrality import BandState
+
+LOG10_CONCENTRATION_BOUNDS = (8.0, 22.0)
+_LN10 = math.log(10.0)
+
+
+def guess(temperature: np.ndarray, density: np.ndarray, material: Material) -> dict:
+    """Starting values from the data: saturation plateau and freeze-out slope.
+
+    Parameters
+    ----------
+    temperature
+        Temperatures, ascending. [K]
+    density
+        Majority-carrier density. [cm^-3]
+    material
+        Host, for the intrinsic density that marks points to leave out of the plateau.
+
+    Returns
+    -------
+    dict
+        ``net_doping`` [cm^-3], ``energy`` [eV] (from -2 k d ln(n T^-3/4)/d(1/T) on the
+        freeze-out points, the uncompensated slope rule), ``has_freezeout`` (bool).
+    """
+    ni = material.intrinsic_density(temperature)
+    extrinsic = ni < 0.05 * density
+    plateau_pool = density[extrinsic] if extrinsic.any() else density
+    net = float(np.max(plateau_pool))
+    frozen = (density < 0.5 * net) & extrinsic
+    # only the low-temperature side of the plateau
+    t_peak = temperature[extrinsic][np.argmax(plateau_pool)] if extrinsic.any() else np.inf
+    frozen &= temperature < t_peak
+    energy = 0.05
+    has_freezeout = int(frozen.sum()) >= 2
+    if has_freezeout:
+        x = 1.0 / temperature[frozen]
+        y = np.log(density[frozen] * temperature[frozen] ** -0.75)
+        slope = np.polyfit(x, y, 1)[0]  # [K]
+        energy = float(np.clip(-2.0 * slope * thermal_energy(1.0), 1e-3,
+                               0.45 * material.band_gap(300.0)))
+    return {"net_doping": net, "energy": energy, "has_freezeout": has_freezeout}
+
+
+def _start_grid(model: CarrierModel, g: dict, fixed: Mapping[str, float]) -> list[dict]:
+    """Candidate starting points (internal parameter values) around the guess."""
+    k_levels = model.n_levels
+    e0 = g["energy"]
+    if k_levels == 1:
+        energy_sets = [(e0 * f,) for f in (0.5, 1.0, 2.0)]
+        split_sets = [(1.0,)]
+    else:
+        spread = np.geomspace(0.5, 2.5, k_levels)
+        energy_sets = [tuple(e0 * spread * f) for f in (0.6, 1.0, 1.6)]
+        split_sets = [tuple(np.full(k_levels, 1.0 / k_levels))]
+        w = np.geomspace(3.0, 1.0, k_levels)
+        split_sets.append(tuple(w / w.sum()))
+        split_sets.append(tuple(w[::-1] / w.sum()))
+    ratios = (1e-4, 1e-2, 0.2, 0.6) if model.compensated else (0.0,)
+    ms = "D" if model.carrier == "n" else "A"
+    mn = "A" if model.carrier == "n" else "D"
+    out = []
+    for es in energy_sets:
+        for split in split_sets:
+            for r in ratios:
+                major_total = g["net_doping"] / (1.0 - r)
+                v = {}
+                for i in range(k_levels):
+                    v[f"log10_N_{ms}{i + 1}"] = math.log10(major_total * split[i])
+                    v[f"E_{ms}{i + 1}"] = es[i]
+                if model.compensated:
+                    v[f"log10_N_{mn}"] = math.log10(max(r * major_total, 1e8))
+                out.append(v)
+    for v in out:
+        v.update(fixed)
+    return out
+
+
+class _Problem:
+    """Residuals and bookkeeping for one fit."""
+
+    def __init__(self, model: CarrierModel, y: np.ndarray, sigma: np.ndarray) -> None:
+        self.model = model
+        self.y = y
+        self.sigma = sigma
+
+    def residual(self, params: lmfit.Parameters) -> np.ndarray:
+        values = params.valuesdict()
+        try:
+            ln_model = self.model.log_density(values)
+        except (RuntimeError, ValueError, FloatingPointError):
+            return np.full(self.y.shape, 1e6)
+        r = (ln_model - self.y) / self.sigma
+        return np.where(np.isfinite(r), r, 1e6)
+
+    def batch_cost(self, starts: list[dict]) -> np.ndarray:
+        """Sum of squared residuals for many starts in one vectorized solve."""
+        names = starts[0].keys()
+        batch = {k: np.array([s[k] for s in starts])[:, None] for k in names}
+        t = self.model.temperature
+        bands = self.model.bands
+        bb = BandState(t[None, :], bands.kt[None, :], bands.band_gap[None, :],
+                       bands.log_nc[None, :], bands.log_nv[None, :])
+        res = self.model.solve(batch, bands=bb, warm=False)
+        ln_model = res.log_n if self.model.carrier == "n" else res.log_p
+        r = (ln_model - self.y[None, :]) / self.sigma[None, :]
+        cost = np.sum(r * r, axis=1)
+        return np.where(np.isfinite(cost), cost, np.inf)
+
+
+def _parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float],
+                bounds: Mapping[str, tuple[float, float]]) -> lmfit.Parameters:
+    params = lmfit.Parameters()
+    gap = float(model.material.band_gap(float(np.min(model.temperature))))
+    for spec in model.specs:
+        if spec.quantity == "concentration":
+            lo, hi = LOG10_CONCENTRATION_BOUNDS
+        else:
+            lo, hi = 1e-4, 0.9 * gap
+        if spec.internal in bounds:
+            lo, hi = bounds[spec.internal]
+        value = float(np.clip(start[spec.internal], lo + 1e-9 * abs(lo or 1),
+                              hi - 1e-9 * abs(hi or 1)))
+        if spec.internal in fixed:
+            params.add(spec.internal, value=float(fixed[spec.internal]), vary=False)
+        else:
+            params.add(spec.internal, value=value, min=lo, max=hi)
+    return params
+
+
+def to_internal(name: str, value: float) -> tuple[str, float]:
+    """Map a public parameter value (N in cm^-3, E in eV) to its internal name and value."""
+    if name.startswith("N_"):
+        if not value > 0:
+            raise InputError(f"{name} must be > 0 cm^-3, got {value!r}")
+        return f"log10_{name}", math.log10(value)
+    if name.startswith("E_"):
+        if not value > 0:
+            raise InputError(f"{name} must be > 0 eV, got {value!r}")
+        return name, float(value)
+    raise InputError(f"unknown parameter {name!r}")
+
+
+def fit_run(
+    run: RunData,
+    material: Material,
+    *,
+    donors: int = 1,
+    acceptors: int = 1,
+    statistics: str = "fermi-dirac",
+    degeneracy: float | None = None,
+    fix: Mapping[str, float] | None = None,
+    bounds: Mapping[str, tuple[float, float]] | None = None,
+    include_flagged: bool = False,
+    provenance: dict | None = None,
+) -> FitResult:
+    """Fit a run's majority-carrier density versus temperature.
+
+    Parameters
+    ----------
+    run
+        The run (densities already corrected by the Hall factor).
+    material
+        Host material.
+    donors, acceptors
+        Level counts. For an n-type run ``donors`` is the number of partially ionized donor
+        levels and ``acceptors`` (0 or 1) says whether a fully ionized compensating acceptor
+        is included; for a p-type run the roles swap.
+    statistics
+        ``"fermi-dirac"`` (default) or ``"boltzmann"``.
+    degeneracy
+        Ground-state degeneracy of the majority levels (default 2 donors, 4 acceptors). [1]
+    fix
+        Parameters to hold, public names (``N_D1`` in cm^-3, ``E_D1`` in eV, ``N_A``).
+    bounds
+        Bounds of parameters, public names, (low, high) in the same units.
+    include_flagged
+        Keep points that failed a severe data-quality check.
+    provenance
+        Provenance dict to carry into the result.
+
+    Raises
+    ------
+    InputError
+        Bad counts, unknown parameter names, too few usable points.
+    FitError
+        When no start gives a finite fit.
+    """
+    if run.carrier == "n":
+        n_levels, n_comp = donors, acceptors
+    else:
+        n_levels, n_comp = acceptors, donors
+    major_word = "donors" if run.carrier == "n" else "acceptors"
+    minor_word = "acceptors" if run.carrier == "n" else "donors"
+    if n_levels < 1:
+        raise InputError(f"an {run.carrier}-type run needs at least one level of {major_word}"
+                         f" (--{major_word} 1 or more)")
+    if n_levels > 4:
+        raise InputError(f"--{major_word} {n_levels}: at most 4 levels can be fitted")
+    if n_comp not in (0, 1):
+        raise InputError(f"--{minor_word} {n_comp}: for an {run.carrier}-type run the minority "
+                         "species is one fully ionized compensating concentration (0 or 1); "
+                         "several of them cannot be told apart by the data")
+    model = CarrierModel(material, run.temperature, run.carrier, n_levels, bool(n_comp),
+                         statistics, degeneracy)
+    used = ~run.mixed
+    if run.severe is not None and not include_flagged:
+        used &= ~np.asarray(run.severe, dtype=bool)
+    n_used = int(used.sum())
+    internal_fix = dict(to_internal(k, v) for k, v in (fix or {}).items())
+    internal_bounds = {}
+    for k, (lo, hi) in (bounds or {}).items():
+        ik, ilo = to_internal(k, lo)
+        _, ihi = to_internal(k, hi)
+        if not ilo < ihi:
+            raise InputError(f"bound of {k}: low {lo!r} is not below high {hi!r}")
+        internal_bounds[ik] = (ilo, ihi)
+    known = {s.internal for s in model.specs}
+    for ik in (*internal_fix, *internal_bounds):
+        if ik not in known:
+            public = ik.removeprefix("log10_")
+            raise InputError(f"unknown parameter {public!r}; this model has "
+                             f"{', '.join(model.names)}")
+    n_free = len(model.specs) - len(internal_fix)
+    if n_used < n_free + 1:
+        raise InputError(f"too few usable points: {n_used} for {n_free} free parameters "
+                         f"(need at least {n_free + 1})", file=run.source)
+
+    t_used = run.temperature[used]
+    model_used = CarrierModel(material, t_used, run.carrier, n_levels, bool(n_comp), statistics,
+                              degeneracy)
+    y = np.log(run.density[used])
+    weighted = run.density_err is not None
+    sigma = (run.density_err[used] / run.density[used]) if weighted else np.ones(n_used)
+    problem = _Problem(model_used, y, sigma)
+
+    g = guess(t_used, run.density[used], material)
+    starts = _start_grid(model_used, g, internal_fix)
+    for s in starts:
+        for k, (lo, hi) in internal_bounds.items():
+            s[k] = float(np.clip(s[k], lo, hi))
+    costs = problem.batch_cost(starts)
+    order = np.argsort(costs)
+    best = None
+    tried = 0
+    for idx in order[: 3 if n_levels > 1 else 2]:
+        if not np.isfinite(costs[idx]):
+            continue
+        params = _parameters(model_used, starts[idx], internal_fix, internal_bounds)
+        model_used._last_fermi = None
+        out = lmfit.minimize(problem.residual, params, method="leastsq",
+                             scale_covar=not weighted)
+        tried += 1
+        if best is None or out.chisqr < best.chisqr:
+            best = out
+    if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
+        raise FitError("no starting point gave a finite fit",
+                       optimizer_message=None if best is None else best.message)
+    return _build_result(run, material, model, model_used, best, used, weighted, statistics,
+                         internal_fix, g, provenance or {})
+
+
+def _estimate_log10(value_log10: float, se_log10: float, tq: float) -> Estimate:
+    v = 10.0 ** value_log10
+    se = v * _LN10 * se_log10 if np.isfinite(se_log10) else math.nan
+    if np.isfinite(se_log10) and np.isfinite(tq):
+        ci = (10.0 ** (value_log10 - tq * se_log10), 10.0 ** (value_log10 + tq * se_log10))
+    else:
+        ci = (math.nan, math.nan)
+    return Estimate(v, se, ci)
+
+
+def _estimate_linear(value: float, se: float, tq: float) -> Estimate:
+    ok = np.isfinite(se) and np.isfinite(tq)
+    return Estimate(value, se if np.isfinite(se) else math.nan,
+                    (value - tq * se, value + tq * se) if ok else (math.nan, math.nan))
+
+
+def _build_result(run, material, model_all, model_used, out, used, weighted, statistics,
+                  internal_fix, g, provenance) -> FitResult:
+    params = out.params
+    free = [n for n in out.var_names]
+    covar = out.covar if out.covar is not None else None
+    dof = out.nfree
+    tq = float(stats.t.ppf(0.975, dof)) if dof > 0 else math.nan
+    se = {n: (params[n].stderr if params[n].stderr is not None else math.nan) for n in params}
+    for n in internal_fix:
+        se[n] = 0.0
+    ms = "D" if run.carrier == "n" else "A"
+    mn = "A" if run.carrier == "n" else "D"
+    major_kind = "donor" if run.carrier == "n" else "acceptor"
+    minor_kind = "acceptor" if run.carrier == "n" else "donor"
+    levels = []
+    for i in range(1, model_used.n_levels + 1):
+        cname, ename = f"log10_N_{ms}{i}", f"E_{ms}{i}"
+        levels.append(LevelEstimate(
+            major_kind, _estimate_log10(params[cname].value, se[cname], tq),
+            _estimate_linear(params[ename].value, se[ename], tq), model_used.degeneracy,
+            f"{ms}{i}"))
+    if model_used.compensated:
+        cname = f"log10_N_{mn}"
+        levels.append(LevelEstimate(minor_kind,
+                                    _estimate_log10(params[cname].value, se[cname], tq),
+                                    None, None, mn))
+
+    # derived quantities with first-order propagation through the covariance (internal space)
+    maj = np.array([10.0 ** params[f"log10_N_{ms}{i}"].value
+                    for i in range(1, model_used.n_levels + 1)])
+    n_maj = float(maj.sum())
+    n_min = 10.0 ** params[f"log10_N_{mn}"].value if model_used.compensated else 0.0
+    grad_net = {}
+    grad_lnk = {}
+    for i in range(1, model_used.n_levels + 1):
+        name = f"log10_N_{ms}{i}"
+        grad_net[name] = _LN10 * maj[i - 1]
+        grad_lnk[name] = -_LN10 * maj[i - 1] / n_maj
+    if model_used.compensated:
+        grad_net[f"log10_N_{mn}"] = -_LN10 * n_min
+        grad_lnk[f"log10_N_{mn}"] = _LN10
+
+    def propagate(grad: dict) -> float:
+        if covar is None:
+            return math.nan
+        vec = np.array([grad.get(n, 0.0) for n in free])
+        return float(math.sqrt(max(vec @ covar @ vec, 0.0)))
+
+    net = n_maj - n_min
+    net_est = _estimate_linear(net, propagate(grad_net), tq)
+    if model_used.compensated:
+        k = n_min / n_maj
+        se_lnk = propagate(grad_lnk)
+        ci = ((k * math.exp(-tq * se_lnk), k * math.exp(tq * se_lnk))
+              if np.isfinite(se_lnk) and np.isfinite(tq) else (math.nan, math.nan))
+        comp = Estimate(k, k * se_lnk if np.isfinite(se_lnk) else math.nan, ci)
+    else:
+        comp = Estimate(0.0, 0.0, (0.0, 0.0))
+
+    if covar is not None:
+        sd = np.sqrt(np.clip(np.diag(covar), 0, None))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            corr = covar / np.outer(sd, sd)
+    else:
+        corr = np.full((len(free), len(free)), math.nan)
+    public = [n.removeprefix("log10_") for n in free]
+
+    # model at every point of the run (used or not)
+    values = params.valuesdict()
+    res_all = model_all.solve(values, warm=False)
+    ln_all = res_all.log_n if run.carrier == "n" else res_all.log_p
+
+    warnings = list(run.notes)
+    warnings += _warnings(run, model_used, out, params, se, free, corr, public, values, g, tq,
+                          weighted)
+    data = {
+        "temperature_K": run.temperature.tolist(),
+        "density_cm3": run.density.tolist(),
+        "density_err_cm3": None if run.density_err is None else run.density_err.tolist(),
+        "model_density_cm3": np.exp(ln_all).tolist(),
+        "used": used.tolist(),
+        "point_carrier": list(run.point_carrier),
+        "flags": list(run.flags) if run.flags else [""] * run.n_points,
+        "resistivity_ohm_cm": _list_or_none(run.resistivity),
+        "resistivity_err_ohm_cm": _list_or_none(run.resistivity_err),
+        "mobility_cm2_per_Vs": _list_or_none(run.mobility),
+        "mobility_err_cm2_per_Vs": _list_or_none(run.mobility_err),
+        "hall_coefficient_cm3_per_C": _list_or_none(run.hall_coefficient),
+        "findings": [f.to_dict() for f in run.findings],
+    }
+    return FitResult(
+        carrier=run.carrier,
+        levels=tuple(levels),
+        compensation_ratio=comp,
+        net_doping=net_est,
+        chi2=float(out.chisqr),
+        reduced_chi2=float(out.redchi),
+        aic=float(out.aic),
+        bic=float(out.bic),
+        n_points=int(out.ndata),
+        n_parameters=int(out.nvarys),
+        weighted=weighted,
+        parameter_names=tuple(public),
+        correlation=corr,
+        warnings=tuple(warnings),
+        hall_factor=float(provenance.get("hall_factor", 1.0)),
+        statistics_model=statistics,
+        material=material.to_dict(),
+        provenance=provenance,
+        data=data,
+        fixed={k.removeprefix("log10_"): (10.0 ** v if k.startswith("log10_") else v)
+               for k, v in internal_fix.items()},
+        optimizer_message=str(out.message),
+        raw=out,
+    )
+
+
+def _list_or_none(a):
+    if a is None:
+        return None
+    return [None if not np.isfinite(x) else float(x) for x in a]
+
+
+def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, weighted):
+    w = []
+    res = model.solve(values, warm=False)
+    major_ion = res.donor_ionized if run.carrier == "n" else res.acceptor_ionized
+    ms = "D" if run.carrier == "n" else "A"
+    mn = "A" if run.carrier == "n" else "D"
+    tmin = float(np.min(model.temperature))
+    for i in range(model.n_levels):
+        ename = f"E_{ms}{i + 1}"
+        frac = float(major_ion[i][np.argmin(model.temperature)])
+        if frac > 0.9:
+            w.append(f"no freeze-out: level {ms}{i + 1} is {100 * frac:.0f} % ionized even at "
+                     f"the lowest temperature used ({tmin:g} K), so the data do not constrain "
+                     f"its ionization energy {ename}; measure to lower temperature or fix it "
+                     f"(--fix {ename}=...)")
+        elif ename in free and (not np.isfinite(se[ename])
+                                or se[ename] > 0.5 * abs(params[ename].value)):
+            w.append(f"{ename} is poorly determined (standard error "
+                     f"{se[ename]:.2g} eV on {params[ename].value:.3g} eV)")
+    cname = f"log10_N_{mn}"
+    if model.compensated and cname in free:
+        s = se[cname]
+        upper = 10.0 ** (params[cname].value + (tq if np.isfinite(tq) else 2.0) *
+                         (s if np.isfinite(s) else 0.0))
+        if not np.isfinite(s) or s > 0.5 or params[cname].value <= params[cname].min + 0.05:
+            w.append(f"compensation only bounded: the data fix N_{mn} only to below about "
+                     f"{upper:.2g} cm^-3 (95 %); the compensation ratio is an upper limit. "
+                     "Points deeper in freeze-out, where n falls below N_" + mn + ", would "
+                     "pin it")
+    for name in free:
+        p = params[name]
+        span = (p.max - p.min) if np.isfinite(p.max - p.min) else 1.0
+        if abs(p.value - p.min) < 1e-4 * span or abs(p.max - p.value) < 1e-4 * span:
+            w.append(f"fit at a bound: {name.removeprefix('log10_')} sits at its limit, so its "
+                     "value and uncertainty reflect the bound, not the data")
+    if out.covar is None:
+        w.append("the uncertainties could not be estimated (singular covariance): some "
+                 "parameters are not determined by these data")
+    else:
+        for a in range(len(public)):
+            for b in range(a + 1, len(public)):
+                if np.isfinite(corr[a, b]) and abs(corr[a, b]) > 0.95:
+                    w.append(f"{public[a]} and {public[b]} are strongly correlated "
+                             f"(r = {corr[a, b]:+.3f}): the data constrain a combination of "
+                             "them better than each one")
+    if weighted and out.nfree > 0 and out.redchi > 4.0:
+        w.append(f"reduced chi^2 = {out.redchi:.3g}: the model does not describe the data "
+                 "within their stated uncertainties (or those are underestimated); the "
+                 "standard errors are not rescaled")
+    return w

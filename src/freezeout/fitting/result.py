@@ -1,0 +1,167 @@
+"""Fit results as documented, frozen objects that serialize to the JSON the CLI prints."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+SCHEMA_VERSION = 1
+
+
+def _f(x) -> float | None:
+    """Float for JSON, None for NaN/inf."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """A fitted or derived quantity.
+
+    Attributes
+    ----------
+    value
+        Best estimate (unit of the quantity).
+    stderr
+        Standard error, or NaN when the data do not determine it.
+    ci95
+        95 % interval (lower, upper); asymmetric for quantities fitted in log space.
+    """
+
+    value: float
+    stderr: float
+    ci95: tuple[float, float]
+
+    def to_dict(self) -> dict:
+        """JSON form: ``{"value", "stderr", "ci95": [lo, hi]}`` (None where undetermined)."""
+        return {"value": _f(self.value), "stderr": _f(self.stderr),
+                "ci95": [_f(self.ci95[0]), _f(self.ci95[1])]}
+
+
+@dataclass(frozen=True)
+class LevelEstimate:
+    """One fitted dopant level.
+
+    Attributes
+    ----------
+    kind
+        ``"donor"`` or ``"acceptor"``.
+    concentration
+        Concentration. [cm^-3]
+    energy
+        Ionization energy from its band edge, or None for a fully ionized species. [eV]
+    degeneracy
+        Ground-state degeneracy used (None for a fully ionized species). [1]
+    name
+        Parameter name stem, e.g. ``"D1"`` or ``"A"``.
+    """
+
+    kind: str
+    concentration: Estimate
+    energy: Estimate | None
+    degeneracy: float | None
+    name: str
+
+    def to_dict(self) -> dict:
+        """JSON form."""
+        return {"kind": self.kind, "name": self.name,
+                "concentration_cm3": self.concentration.to_dict(),
+                "energy_eV": None if self.energy is None else self.energy.to_dict(),
+                "degeneracy": self.degeneracy}
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """Outcome of fitting a run to the carrier model.
+
+    Attributes
+    ----------
+    carrier
+        Majority carrier, ``"n"`` or ``"p"``.
+    levels
+        Fitted levels, majority-type levels first, then the compensating species.
+    compensation_ratio
+        N_minority / N_majority (N_A/N_D for an n-type run). [1]
+    net_doping
+        |N_D - N_A| (majority minus minority). [cm^-3]
+    chi2, reduced_chi2, aic, bic
+        Fit statistics of the residuals in ln(density) (weighted by ln-uncertainties when
+        the run gives them).
+    n_points, n_parameters
+        Points used and free parameters.
+    weighted
+        True when per-point uncertainties weighted the fit (errors then not rescaled).
+    parameter_names
+        Public names of the free parameters, order of ``correlation``.
+    correlation
+        Correlation matrix of the free parameters (NaN when not estimated).
+    warnings
+        Plain-language statements of what the data cannot pin.
+    hall_factor
+        Hall scattering factor used. [1]
+    statistics_model
+        ``"fermi-dirac"`` or ``"boltzmann"``.
+    material
+        The material's parameters and sources (dict).
+    provenance
+        Input name, sha256, metadata, tool version, date, options.
+    data
+        Points of the run and the model at them (lists, canonical units).
+    fixed
+        Parameters held fixed, public name -> value.
+    optimizer_message
+        Message of the local optimizer for the retained start.
+    raw
+        The lmfit MinimizerResult of the retained start (not serialized).
+    """
+
+    carrier: str
+    levels: tuple[LevelEstimate, ...]
+    compensation_ratio: Estimate
+    net_doping: Estimate
+    chi2: float
+    reduced_chi2: float
+    aic: float
+    bic: float
+    n_points: int
+    n_parameters: int
+    weighted: bool
+    parameter_names: tuple[str, ...]
+    correlation: np.ndarray
+    warnings: tuple[str, ...]
+    hall_factor: float
+    statistics_model: str
+    material: dict
+    provenance: dict
+    data: dict
+    fixed: dict = field(default_factory=dict)
+    optimizer_message: str = ""
+    raw: Any = field(default=None, repr=False, compare=False)
+
+    def to_dict(self) -> dict:
+        """The JSON document printed by ``freezeout fit --json``."""
+        corr = [[_f(x) for x in row] for row in np.asarray(self.correlation)]
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "carrier": self.carrier,
+            "levels": [lv.to_dict() for lv in self.levels],
+            "compensation_ratio": self.compensation_ratio.to_dict(),
+            "net_doping_cm3": self.net_doping.to_dict(),
+            "statistics": {"chi2": _f(self.chi2), "reduced_chi2": _f(self.reduced_chi2),
+                           "aic": _f(self.aic), "bic": _f(self.bic),
+                           "n_points": self.n_points, "n_parameters": self.n_parameters,
+                           "weighted": self.weighted, "model": self.statistics_model},
+            "correlation": {"parameters": list(self.parameter_names), "matrix": corr},
+            "fixed": {k: _f(v) for k, v in self.fixed.items()},
+            "warnings": list(self.warnings),
+            "hall_factor": self.hall_factor,
+            "material": self.material,
+            "provenance": self.provenance,
+            "data": self.data,
+            "optimizer_message": self.optimizer_message,
+        }
