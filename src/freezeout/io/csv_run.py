@@ -47,7 +47,8 @@ _NAMES = {
 _ERR_SUFFIXES = ("err", "error", "unc", "uncertainty", "sigma", "std", "stderr")
 _RANGES = {
     "temperature": (0.0, 5000.0),
-    "density": (1e-30, 1e24),
+    "density": (0.0, 1e24),
+    "density_p": (0.0, 1e24),
     "hall_coefficient": (1e-8, 1e30),
     "mobility": (0.0, 1e8),
     "resistivity": (0.0, 1e16),
@@ -174,6 +175,8 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                 ignored.append(h)
             continue
         quantity, is_err, unit, key = c
+        if quantity == "density" and key in ("p", "ph"):
+            quantity = "density_p"  # a hole column may stand beside an electron column
         if (quantity, is_err) in cols:
             prev = header[cols[(quantity, is_err)][0]]
             raise InputError(f"two columns give the {quantity.replace('_', ' ')}: {prev!r} "
@@ -183,12 +186,19 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                 raise InputError(f"column {h!r} has no unit; write it like 'T [K]', "
                                  "'n [cm^-3]'", file=fname, line=hidx + 1, column=h)
         try:
-            u = parse_unit(unit, quantity) if unit is not None else None
+            dim = "density" if quantity == "density_p" else quantity
+            u = parse_unit(unit, dim) if unit is not None else None
         except ValueError as exc:
             raise InputError(str(exc), file=fname, line=hidx + 1, column=h) from None
         cols[(quantity, is_err)] = (j, u, h)
         if not is_err:
             base_names[quantity] = key
+    if ("density_p", False) in cols and ("density", False) not in cols:
+        # only a hole column: it is the density column
+        for e in (False, True):
+            if ("density_p", e) in cols:
+                cols[("density", e)] = cols.pop(("density_p", e))
+        base_names["density"] = base_names.pop("density_p")
     if ("temperature", False) not in cols:
         raise InputError("no temperature column (expected e.g. 'T [K]')", file=fname,
                          line=hidx + 1)
@@ -206,7 +216,8 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
     values: dict[tuple[str, bool], list[float]] = {k: [] for k in cols}
     flags: list[str] = []
     line_nos: list[int] = []
-    required = {("temperature", False), ("density", False), ("hall_coefficient", False)}
+    required = {("temperature", False), ("density", False), ("hall_coefficient", False),
+                ("density_p", False)}
     reader = csv.reader(io.StringIO("\n".join(lines[hidx + 1:])), delimiter=delim)
     for offset, row in enumerate(reader):
         lineno = hidx + 2 + offset
@@ -287,12 +298,29 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
 
     rh = arr.get(("hall_coefficient", False))
     rh_err = arr.get(("hall_coefficient", True))
+    if ("density_p", False) in arr:
+        # electron and hole columns side by side (e.g. simulate output): per point the
+        # larger one is the majority carrier and the one the Hall effect measures
+        n_col, p_col = arr[("density", False)], arr[("density_p", False)]
+        take_p = p_col > n_col
+        arr[("density", False)] = np.where(take_p, p_col, n_col)
+        if ("density", True) in arr and ("density_p", True) in arr:
+            arr[("density", True)] = np.where(take_p, arr[("density_p", True)],
+                                              arr[("density", True)])
+        else:
+            arr.pop(("density", True), None)
+        base_names["density"] = "np"
+        point_hint = ["p" if x else "n" for x in take_p]
+    else:
+        point_hint = None
     if ("density", False) in arr:
         dens = arr[("density", False)]
         dens_err = arr.get(("density", True))
         key = base_names["density"]
         named = {"n": "n", "nh": "n", "p": "p", "ph": "p"}.get(key)
-        if named is not None:
+        if point_hint is not None:
+            point_type = point_hint
+        elif named is not None:
             bad = np.nonzero(dens <= 0)[0]
             if bad.size:
                 raise InputError(f"{key} must be > 0 (the column name gives the type)",
@@ -340,8 +368,6 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                      f"are {what} the single-carrier fit")
         if include_mixed:
             point_type = [carrier] * t.size
-    if ignored:
-        notes.append("columns not used: " + ", ".join(ignored))
 
     return RunData(
         source=fname,
@@ -361,4 +387,5 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         severe=None,
         metadata=meta,
         notes=tuple(notes),
+        ignored_columns=tuple(ignored),
     )

@@ -44,6 +44,8 @@ class RunData:
         Plain-language remarks the importer made (e.g. mixed conduction found).
     findings
         Data-quality findings (objects with ``to_dict()``) from a reduction, if any.
+    ignored_columns
+        Header names of columns the reader did not use.
     """
 
     source: str
@@ -64,6 +66,7 @@ class RunData:
     metadata: dict[str, str] = field(default_factory=dict)
     notes: tuple[str, ...] = ()
     findings: tuple = ()
+    ignored_columns: tuple[str, ...] = ()
 
     @property
     def n_points(self) -> int:
