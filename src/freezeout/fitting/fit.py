@@ -275,6 +275,10 @@ def fit_run(
         tried += 1
         if best is None or out.chisqr < best.chisqr:
             best = out
+        if weighted and best.nfree > 0 and best.redchi < 2.0:
+            # consistent with the stated uncertainties: further starts cannot do better
+            # than the noise, so stop here
+            break
     if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
         raise FitError("no starting point gave a finite fit",
                        optimizer_message=None if best is None else best.message)
