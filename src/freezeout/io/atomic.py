@@ -17,6 +17,9 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     p.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
     try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

@@ -1,0 +1,84 @@
+"""The ``freezeout`` command line: a thin layer over :mod:`freezeout.api`.
+
+Heavy modules (numpy, scipy, lmfit, matplotlib) are imported inside the commands so that
+``freezeout --help`` answers at once. Exit codes: 0 success, 1 fit failure, 2 bad input;
+``qualify`` adds 3 (lot rejected) and 4 (indeterminate).
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+
+import typer
+
+from freezeout.cli import fit_cmd, materials_cmd, simulate_cmd
+
+app = typer.Typer(
+    name="freezeout",
+    help="Fit temperature-dependent Hall runs to an equilibrium carrier model, reduce raw "
+    "van der Pauw readings, and qualify incoming wafer lots.",
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+
+app.command("fit", help=fit_cmd.HELP)(fit_cmd.fit_command)
+app.command("simulate", help=simulate_cmd.HELP)(simulate_cmd.simulate_command)
+app.command("materials", help=materials_cmd.HELP)(materials_cmd.materials_command)
+
+
+def _register_optional() -> None:
+    """Commands whose modules live beside this one (reduction, qualification, history)."""
+    import importlib.util
+
+    for module, name, func in (("freezeout.cli.reduce", "reduce", "reduce_command"),
+                               ("freezeout.cli.qualify", "qualify", "qualify_command"),
+                               ("freezeout.cli.history", "history", "history_command")):
+        if importlib.util.find_spec(module) is None:  # pragma: no cover
+            continue
+        mod = importlib.import_module(module)
+        fn = getattr(mod, func)
+        app.command(name, help=getattr(mod, "HELP", None) or fn.__doc__)(fn)
+
+
+_register_optional()
+
+
+def main() -> None:
+    """Console-script entry point: run the app, turning errors into messages and exit codes."""
+    import click
+
+    from freezeout.errors import FitError, InputError
+
+    try:
+        rv = app(standalone_mode=False)
+    except click.exceptions.Exit as exc:
+        sys.exit(exc.exit_code)
+    except click.exceptions.Abort:
+        sys.stderr.write("aborted\n")
+        sys.exit(130)
+    except click.ClickException as exc:
+        exc.show()
+        sys.exit(2)
+    except InputError as exc:
+        sys.stderr.write(f"freezeout: error: {exc}\n")
+        sys.exit(2)
+    except FitError as exc:
+        sys.stderr.write(f"freezeout: fit failed: {exc}\n")
+        sys.exit(1)
+    except KeyboardInterrupt:
+        sys.stderr.write("interrupted\n")
+        sys.exit(130)
+    except Exception as exc:  # a bug: say so plainly; FREEZEOUT_DEBUG=1 shows the traceback
+        if os.environ.get("FREEZEOUT_DEBUG"):
+            raise
+        sys.stderr.write(f"freezeout: internal error: {type(exc).__name__}: {exc}\n"
+                         "(set FREEZEOUT_DEBUG=1 for the traceback, and please report it)\n")
+        sys.exit(1)
+    sys.exit(rv if isinstance(rv, int) else 0)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

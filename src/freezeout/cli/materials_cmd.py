@@ -1,0 +1,53 @@
+"""``freezeout materials``: the materials library."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+from freezeout.cli.common import JsonOpt, print_json
+
+HELP = "List the materials library, or show one material with the source of each parameter."
+
+
+def materials_command(
+    name: Annotated[str | None, typer.Argument(help="Material to show.")] = None,
+    json_output: JsonOpt = False,
+) -> int:
+    from rich.console import Console
+    from rich.table import Table
+
+    from freezeout.physics.materials import get_material, library
+
+    con = Console()
+    if name is None:
+        lib = library()
+        if json_output:
+            print_json({k: m.to_dict() for k, m in lib.items()})
+            return 0
+        table = Table(title="freezeout materials", title_justify="left")
+        for col in ("name", "description", "Eg(0 K) [eV]", "Eg(300 K) [eV]", "m_e,dos", "m_h,dos",
+                    "eps_r"):
+            table.add_column(col)
+        for m in lib.values():
+            table.add_row(m.name, m.description, f"{m.band_gap_0k:.4g}",
+                          f"{float(m.band_gap(300.0)):.4g}", f"{m.electron_dos_mass:g}",
+                          f"{m.hole_dos_mass:g}", f"{m.relative_permittivity or '—'}")
+        con.print(table)
+        return 0
+    m = get_material(name)
+    if json_output:
+        print_json(m.to_dict())
+        return 0
+    table = Table(title=f"{m.name} ({m.description})", title_justify="left")
+    table.add_column("parameter")
+    table.add_column("value", justify="right")
+    table.add_column("source")
+    d = m.to_dict()
+    for key, src in m.sources.items():
+        table.add_row(key, f"{d[key]:g}", src)
+    con.print(table)
+    con.print(f"Nc(300 K) = {float(m.nc(300.0)):.3e} cm^-3, Nv(300 K) = {float(m.nv(300.0)):.3e}"
+              f" cm^-3, n_i(300 K) = {float(m.intrinsic_density(300.0)):.3e} cm^-3")
+    return 0

@@ -1,0 +1,219 @@
+"""Figures of a fit. Each function draws on a given or new Axes and returns it."""
+
+from __future__ import annotations
+
+import io
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+
+from freezeout.fitting.curves import ModelCurves  # noqa: E402
+from freezeout.fitting.result import FitResult  # noqa: E402
+
+# our own palette: ink, slate, and one accent per level
+INK = "#1d2a3a"
+MUTED = "#8a94a3"
+FLAG = "#c0392b"
+LEVEL_COLOURS = ("#2a7f62", "#b5651d", "#6a4c93", "#1f77b4", "#8c564b", "#d4a017")
+STYLE = {
+    "font.size": 10,
+    "axes.titlesize": 11,
+    "axes.labelsize": 10,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "grid.alpha": 0.25,
+    "legend.fontsize": 8,
+    "legend.frameon": False,
+}
+
+
+def _new_axes(ax, size=(7.0, 4.6)):
+    if ax is not None:
+        return ax
+    fig = Figure(figsize=size, layout="constrained")
+    return fig.add_subplot()
+
+
+def _points(result: FitResult):
+    d = result.data
+    t = np.asarray(d["temperature_K"], dtype=float)
+    y = np.asarray(d["density_cm3"], dtype=float)
+    err = d.get("density_err_cm3")
+    err = None if err is None else np.asarray(err, dtype=float)
+    used = np.asarray(d["used"], dtype=bool)
+    mixed = np.array([c != result.carrier for c in d["point_carrier"]], dtype=bool)
+    flagged = ~used & ~mixed
+    return t, y, err, used, mixed, flagged
+
+
+def _add_temperature_axis(ax):
+    """Secondary top axis in kelvin for a 1000/T bottom axis."""
+    def fwd(x):
+        with np.errstate(divide="ignore"):
+            return 1000.0 / np.asarray(x, dtype=float)
+
+    sec = ax.secondary_xaxis("top", functions=(fwd, fwd))
+    lo, hi = sorted(ax.get_xlim())
+    candidates = [2, 3, 5, 10, 15, 20, 30, 50, 75, 100, 150, 200, 300, 500, 700, 1000, 1500]
+    ticks, last = [], None
+    for t in sorted(candidates, reverse=True):  # left to right on a 1000/T axis
+        x = 1000.0 / t
+        if lo <= x <= hi and (last is None or x - last >= 0.07 * (hi - lo)):
+            ticks.append(t)
+            last = x
+    sec.set_xticks(ticks, [f"{t:g}" for t in ticks])
+    sec.set_xlabel("temperature [K]")
+    return sec
+
+
+def density_axes(result: FitResult, curves: ModelCurves, ax=None):
+    """Carrier density versus 1000/T (log axis): data, fit and each contribution."""
+    with plt.rc_context(STYLE):
+        ax = _new_axes(ax)
+        t, y, err, used, mixed, flagged = _points(result)
+        x = 1000.0 / t
+        carrier = "electron" if result.carrier == "n" else "hole"
+        minority = "holes" if result.carrier == "n" else "electrons"
+        xc = 1000.0 / curves.temperature
+        ax.plot(xc, curves.majority, color=INK, lw=2.0, label=f"fit: {carrier} density", zorder=3)
+        for i, name in enumerate(curves.level_names):
+            col = LEVEL_COLOURS[i % len(LEVEL_COLOURS)]
+            if np.all(curves.ionized_fraction[i] == 1.0):
+                ax.plot(xc, curves.ionized_density[i], color=col, lw=1.2, ls=":",
+                        label=f"N_{name} (compensating, fully ionized)")
+            else:
+                sign = "+" if curves.level_kinds[i] == "donor" else "−"
+                ax.plot(xc, curves.ionized_density[i], color=col, lw=1.2, ls="--",
+                        label=f"ionized N_{name}{sign}")
+        ax.plot(xc, curves.minority, color=MUTED, lw=1.2, ls="-.",
+                label=f"intrinsic generation ({minority})")
+        ax.plot(xc, curves.intrinsic, color=MUTED, lw=0.8, ls=":", label="n_i")
+        yerr = None if err is None else err
+        ax.errorbar(x[used], y[used], yerr=None if yerr is None else yerr[used], fmt="o",
+                    ms=4.5, color=INK, mfc="white", mew=1.2, elinewidth=0.8,
+                    label="measured (fitted)", zorder=4)
+        if mixed.any():
+            ax.plot(x[mixed], y[mixed], "^", ms=5, color=MUTED, mfc="none",
+                    label="opposite Hall sign (not fitted)", zorder=4)
+        if flagged.any():
+            ax.plot(x[flagged], y[flagged], "X", ms=6, color=FLAG,
+                    label="failed a severe quality check (not fitted)", zorder=5)
+        lo = max(np.min(y) / 30.0, 1e-300)
+        hi = max(np.max(y), np.max(curves.majority[np.isfinite(curves.majority)])) * 3.0
+        ax.set_yscale("log")
+        ax.set_ylim(lo, hi)
+        ax.set_xlim(xc.min() * 0.97, xc.max() * 1.03)
+        ax.set_xlabel("1000 / T [1/K]")
+        ax.set_ylabel("density [cm$^{-3}$]")
+        _add_temperature_axis(ax)
+        ax.legend(loc="lower left", ncols=2)
+        return ax
+
+
+def residual_axes(result: FitResult, ax=None):
+    """Relative residual (measured/fitted - 1, in %) versus temperature."""
+    with plt.rc_context(STYLE):
+        ax = _new_axes(ax, (7.0, 3.0))
+        t, y, err, used, mixed, flagged = _points(result)
+        model = np.asarray(result.data["model_density_cm3"], dtype=float)
+        r = 100.0 * (y / model - 1.0)
+        e = None if err is None else 100.0 * err / model
+        ax.axhline(0.0, color=MUTED, lw=1)
+        ax.errorbar(t[used], r[used], yerr=None if e is None else e[used], fmt="o", ms=4,
+                    color=INK, mfc="white", elinewidth=0.8, label="fitted points")
+        if (~used).any():
+            ax.plot(t[~used], r[~used], "X", ms=5, color=FLAG, label="not fitted")
+            ax.legend(loc="best")
+        ax.set_xscale("log")
+        ax.set_xlabel("temperature [K]")
+        ax.set_ylabel("measured / fit − 1 [%]")
+        return ax
+
+
+def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
+    """Fermi level in the gap versus temperature, with band edges and level energies."""
+    with plt.rc_context(STYLE):
+        ax = _new_axes(ax)
+        t = curves.temperature
+        ax.plot(t, curves.band_gap, color=INK, lw=1.6, label="E_c")
+        ax.plot(t, np.zeros_like(t), color=INK, lw=1.6, ls="-", alpha=0.6, label="E_v")
+        for i, name in enumerate(curves.level_names):
+            e = curves.level_energy[i]
+            if np.all(np.isnan(e)):
+                continue
+            ax.plot(t, e, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)], lw=1.1, ls="--",
+                    label=f"E_{name}")
+        ax.plot(t, curves.fermi_level, color=FLAG, lw=2.0, label="E_F")
+        ax.set_xlabel("temperature [K]")
+        ax.set_ylabel("energy above E_v [eV]")
+        ax.set_ylim(-0.05 * curves.band_gap.max(), 1.08 * curves.band_gap.max())
+        ax.legend(loc="center left", bbox_to_anchor=(1.0, 0.5))
+        return ax
+
+
+def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):
+    """Ionized fraction of each level versus temperature."""
+    with plt.rc_context(STYLE):
+        ax = _new_axes(ax, (7.0, 3.6))
+        for i, name in enumerate(curves.level_names):
+            f = curves.ionized_fraction[i]
+            style = ":" if np.all(f == 1.0) else "-"
+            suffix = " (fully ionized by assumption)" if style == ":" else ""
+            ax.plot(curves.temperature, f, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)],
+                    lw=1.6, ls=style, label=f"{name}{suffix}")
+        tmin = min(result.data["temperature_K"])
+        ax.axvline(tmin, color=MUTED, lw=0.8, ls="--")
+        ax.annotate("lowest measured T", (tmin, 0.04), xytext=(4, 0), textcoords="offset points",
+                    fontsize=8, color=MUTED)
+        ax.set_ylim(-0.03, 1.05)
+        ax.set_xlabel("temperature [K]")
+        ax.set_ylabel("ionized fraction")
+        ax.legend(loc="lower right")
+        return ax
+
+
+def transport_figure(result: FitResult):
+    """Resistivity and Hall mobility versus temperature, or None if the run has neither."""
+    d = result.data
+    rho = d.get("resistivity_ohm_cm")
+    mu = d.get("mobility_cm2_per_Vs")
+    if rho is None and mu is None:
+        return None
+    with plt.rc_context(STYLE):
+        fig = Figure(figsize=(7.0, 3.4), layout="constrained")
+        axes = fig.subplots(1, 2)
+        t, _, _, used, _, _ = _points(result)
+        for ax, vals, errs, label in (
+            (axes[0], rho, d.get("resistivity_err_ohm_cm"), "resistivity [Ω cm]"),
+            (axes[1], mu, d.get("mobility_err_cm2_per_Vs"), "Hall mobility [cm$^2$/(V s)]"),
+        ):
+            if vals is None:
+                ax.set_visible(False)
+                continue
+            v = np.array([np.nan if x is None else x for x in vals], dtype=float)
+            e = None if errs is None else np.array([np.nan if x is None else x for x in errs],
+                                                   dtype=float)
+            ok = np.isfinite(v) & (v > 0)
+            ax.errorbar(t[ok & used], v[ok & used], yerr=None if e is None else e[ok & used],
+                        fmt="o", ms=4, color=INK, mfc="white", elinewidth=0.8)
+            bad = ok & ~used
+            if bad.any():
+                ax.plot(t[bad], v[bad], "X", ms=6, color=FLAG)
+            ax.set_xscale("log")
+            ax.set_yscale("log")
+            ax.set_xlabel("temperature [K]")
+            ax.set_ylabel(label)
+        return fig
+
+
+def png_bytes(fig_or_ax) -> bytes:
+    """Render a Figure (or the Figure of an Axes) to PNG bytes."""
+    fig = fig_or_ax if isinstance(fig_or_ax, Figure) else fig_or_ax.figure
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=130)
+    return buf.getvalue()

@@ -1,0 +1,155 @@
+"""The fit report: fit.json, PNG figures and a self-contained report.html."""
+
+from __future__ import annotations
+
+import base64
+import html
+import json
+from pathlib import Path
+
+from freezeout.fitting.curves import model_curves
+from freezeout.fitting.result import FitResult
+from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
+
+CSS = """
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;max-width:980px;
+color:#1d2a3a;line-height:1.45;padding:0 1rem}
+h1{font-size:1.5rem;margin-bottom:.2rem}h2{font-size:1.15rem;margin-top:2rem;
+border-bottom:2px solid #dfe4ea;padding-bottom:.2rem}
+.sub{color:#5b6675;margin-top:0}
+table{border-collapse:collapse;margin:.6rem 0;font-size:.92rem}
+th,td{padding:.3rem .7rem;border-bottom:1px solid #e6e9ee;text-align:left}
+th{background:#f3f5f8;font-weight:600}td.num{text-align:right;font-variant-numeric:tabular-nums}
+.warn{background:#fff6e5;border-left:4px solid #d4a017;padding:.5rem .8rem;margin:.4rem 0}
+.ok{background:#eaf6f0;border-left:4px solid #2a7f62;padding:.5rem .8rem}
+.sev-severe{color:#c0392b;font-weight:600}.sev-warning{color:#b5651d}
+figure{margin:1rem 0}figcaption{color:#5b6675;font-size:.88rem}
+img{max-width:100%}code{background:#f3f5f8;padding:0 .25rem;border-radius:3px}
+"""
+
+
+def _fmt(x, unit="", digits=4):
+    if x is None:
+        return "—"
+    return f"{x:.{digits}g}{(' ' + unit) if unit else ''}"
+
+
+def _estimate_cells(est: dict | None, unit: str) -> str:
+    if est is None:
+        return "<td colspan=3>fully ionized (no level energy)</td>"
+    lo, hi = est["ci95"]
+    ci = f"{_fmt(lo)} … {_fmt(hi)}" if lo is not None else "not determined"
+    return (f"<td class=num>{_fmt(est['value'], unit)}</td><td class=num>"
+            f"{_fmt(est['stderr'], unit, 2)}</td><td class=num>{ci}</td>")
+
+
+def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
+    from freezeout.reporting import figures as fg
+
+    curves = model_curves(result)
+    out = {
+        "density.png": (fg.png_bytes(fg.density_axes(result, curves)),
+                        "Carrier density versus 1000/T: measured points, the fit, and the "
+                        "contribution of each level and of intrinsic generation."),
+        "residuals.png": (fg.png_bytes(fg.residual_axes(result)),
+                          "Residuals of the fit, measured/fitted − 1."),
+        "fermi_level.png": (fg.png_bytes(fg.fermi_axes(result, curves)),
+                            "Fermi level in the gap, with the band edges and level energies."),
+        "ionization.png": (fg.png_bytes(fg.ionization_axes(result, curves)),
+                           "Ionized fraction of each level."),
+    }
+    tr = fg.transport_figure(result)
+    if tr is not None:
+        out["transport.png"] = (fg.png_bytes(tr), "Resistivity and Hall mobility versus "
+                                "temperature (crosses: points left out of the fit).")
+    return out
+
+
+def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str:
+    """The report page with figures embedded as data URIs."""
+    d = result.to_dict()
+    prov = d["provenance"]
+    esc = html.escape
+    rows = []
+    for lv in d["levels"]:
+        label = f"{lv['kind']} {lv['name']}"
+        rows.append(f"<tr><th>N_{esc(lv['name'])}</th><td>{esc(label)} concentration</td>"
+                    f"{_estimate_cells(lv['concentration_cm3'], 'cm⁻³')}</tr>")
+        if lv["energy_eV"] is not None:
+            g = lv["degeneracy"]
+            rows.append(f"<tr><th>E_{esc(lv['name'])}</th><td>ionization energy "
+                        f"(g = {g:g})</td>{_estimate_cells(lv['energy_eV'], 'eV')}</tr>")
+    rows.append("<tr><th>N_net</th><td>net doping |N_D − N_A|</td>"
+                f"{_estimate_cells(d['net_doping_cm3'], 'cm⁻³')}</tr>")
+    rows.append("<tr><th>K</th><td>compensation ratio</td>"
+                f"{_estimate_cells(d['compensation_ratio'], '')}</tr>")
+    st = d["statistics"]
+    warn_html = ("".join(f"<div class=warn>{esc(w)}</div>" for w in d["warnings"])
+                 or "<div class=ok>No warnings: every free parameter is constrained by the "
+                 "data.</div>")
+    figs = []
+    for name, (png, caption) in figures.items():
+        b64 = base64.b64encode(png).decode("ascii")
+        figs.append(f"<figure><img alt='{esc(caption)}' src='data:image/png;base64,{b64}'>"
+                    f"<figcaption>{esc(caption)} ({esc(name)})</figcaption></figure>")
+    findings = d["data"].get("findings") or []
+    if findings:
+        frows = "".join(
+            f"<tr><td class=num>{_fmt(f.get('temperature'), 'K')}</td>"
+            f"<td class='sev-{esc(str(f.get('severity')))}'>{esc(str(f.get('severity')))}</td>"
+            f"<td><code>{esc(str(f.get('code')))}</code></td><td>{esc(str(f.get('message')))}"
+            "</td></tr>" for f in findings)
+        quality = ("<h2>Data quality</h2><p>Findings of the reduction, per temperature. Points "
+                   "with a severe finding are left out of the fit unless "
+                   "<code>--include-flagged</code> is given, and drawn as red crosses.</p>"
+                   "<table><tr><th>T</th><th>severity</th><th>code</th><th>finding</th></tr>"
+                   f"{frows}</table>")
+    elif any(d["data"].get("flags") or []):
+        quality = "<h2>Data quality</h2><p>Flags per point are in fit.json.</p>"
+    else:
+        quality = ""
+    meta = "".join(f"<tr><th>{esc(str(k))}</th><td>{esc(str(v))}</td></tr>"
+                   for k, v in prov.get("metadata", {}).items())
+    opts = esc(json.dumps(prov.get("options", {}), sort_keys=True))
+    carrier = "n-type (electrons)" if d["carrier"] == "n" else "p-type (holes)"
+    weighting = ("weighted by the stated per-point uncertainties" if st["weighted"]
+                 else "unweighted (no per-point uncertainties; errors scaled by χ²)")
+    return f"""<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><title>freezeout fit — {esc(prov['input'])}</title>
+<style>{CSS}</style></head><body>
+<h1>Carrier-statistics fit of {esc(prov['input'])}</h1>
+<p class=sub>{carrier} · host {esc(d['material']['name'])} · {esc(st['model'])} statistics ·
+Hall factor r_H = {d['hall_factor']:g} · {st['n_points']} points, {st['n_parameters']} free
+parameters</p>
+<h2>Parameters</h2>
+<table><tr><th>symbol</th><th>quantity</th><th>value</th><th>std. error</th>
+<th>95 % interval</th></tr>{''.join(rows)}</table>
+<p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
+BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.</p>
+<h2>Warnings</h2>{warn_html}
+<h2>Figures</h2>{''.join(figs)}
+{quality}
+<h2>Provenance</h2>
+<table><tr><th>input file</th><td>{esc(prov['input'])}</td></tr>
+<tr><th>sha256</th><td><code>{esc(prov['sha256'])}</code></td></tr>
+<tr><th>tool</th><td>freezeout {esc(prov['tool_version'])}</td></tr>
+<tr><th>date (UTC)</th><td>{esc(prov['date'])}</td></tr>
+<tr><th>options</th><td><code>{opts}</code></td></tr>{meta}</table>
+<p class=sub>Model: charge neutrality with {esc(st['model'])} statistics, effective densities
+of states from the density-of-states masses, Varshni band gap, partially ionized majority
+levels with degeneracy factors, fully ionized compensation. Material parameters and their
+sources are in fit.json.</p>
+</body></html>
+"""
+
+
+def write_fit_report(result: FitResult, out_dir: str | Path) -> dict[str, Path]:
+    """Write fit.json, the figures and report.html into ``out_dir`` (each atomically)."""
+    out = Path(out_dir)
+    figures = _figure_files(result)
+    paths = {"fit.json": atomic_write_text(out / "fit.json",
+                                           json.dumps(result.to_dict(), indent=2) + "\n")}
+    for name, (png, _) in figures.items():
+        paths[name] = atomic_write_bytes(out / name, png)
+    paths["report.html"] = atomic_write_text(out / "report.html", render_html(result, figures))
+    return paths
