@@ -124,7 +124,7 @@ def fit_file(
         "metadata": dict(run.metadata),
         "tool": "freezeout",
         "tool_version": __version__,
-        "date": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+        "date": _dt.datetime.now(_dt.UTC).date().isoformat(),
         "options": options,
         "hall_factor": hall_factor,
     }

@@ -153,6 +153,51 @@ class NeutralityResult:
         return np.exp(self.log_p)
 
 
+def donor_ionized_fraction(fermi_level, donor_level, kt, degeneracy=DEFAULT_DONOR_DEGENERACY):
+    """N_D+/N_D = 1 / (1 + g exp((E_F - E_D)/kT)).
+
+    Parameters
+    ----------
+    fermi_level
+        E_F, on any energy scale. [eV]
+    donor_level
+        E_D, on the same scale. [eV]
+    kt
+        Thermal energy. [eV]
+    degeneracy
+        Ground-state degeneracy g. [1]
+
+    References
+    ----------
+    [2], Eq. (1.30).
+    """
+    x = np.log(degeneracy) + (np.asarray(fermi_level) - donor_level) / kt
+    return expit(-x)
+
+
+def acceptor_ionized_fraction(fermi_level, acceptor_level, kt,
+                              degeneracy=DEFAULT_ACCEPTOR_DEGENERACY):
+    """N_A-/N_A = 1 / (1 + g exp((E_A - E_F)/kT)).
+
+    Parameters
+    ----------
+    fermi_level
+        E_F, on any energy scale. [eV]
+    acceptor_level
+        E_A, on the same scale. [eV]
+    kt
+        Thermal energy. [eV]
+    degeneracy
+        Ground-state degeneracy g. [1]
+
+    References
+    ----------
+    [2], Eq. (1.31).
+    """
+    x = np.log(degeneracy) + (acceptor_level - np.asarray(fermi_level)) / kt
+    return expit(-x)
+
+
 def _log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray]:
     """ln F_1/2(eta) and d ln F_1/2 / d eta = F_-1/2/F_1/2."""
     if not fermi_dirac:
@@ -280,7 +325,10 @@ def solve_levels(
         h, slope, lp, ln_ = residual(u)
         with np.errstate(divide="ignore", invalid="ignore"):
             newton = np.where(slope < 0, -h / slope, np.inf)
-        done = (np.abs(h) <= 1e-13) | (np.abs(newton) <= tolerance)
+        # converged: balance exact to rounding, or the step below the tolerance or below the
+        # floating-point resolution of u itself
+        done = ((np.abs(h) <= 1e-13)
+                | (np.abs(newton) <= np.maximum(tolerance, 8.0 * np.spacing(np.abs(u)))))
         if done.all():
             break
         if not np.all(np.isfinite(h)):
