@@ -177,8 +177,8 @@ def simulate(
     statistics
         ``"fermi-dirac"`` or ``"boltzmann"``.
     """
-    from freezeout.simulate import simulate as _simulate
-    from freezeout.simulate import temperature_grid
+    from freezeout.forward import simulate as _simulate
+    from freezeout.forward import temperature_grid
 
     mat = load_material(material, material_file)
     if isinstance(temperatures, tuple) and len(temperatures) == 3:

@@ -282,28 +282,88 @@ def fit_run(
     if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
         raise FitError("no starting point gave a finite fit",
                        optimizer_message=None if best is None else best.message)
+    profile_upper = None
+    mn = "A" if run.carrier == "n" else "D"
+    cname = f"log10_N_{mn}"
+    if model_used.compensated and cname not in internal_fix:
+        se_c = best.params[cname].stderr
+        at_floor = best.params[cname].value <= best.params[cname].min + 0.05
+        if se_c is None or not np.isfinite(se_c) or se_c > 0.5 or at_floor:
+            profile_upper = _profile_upper(problem, best, cname, weighted)
+            model_used._last_fermi = None
     return _build_result(run, material, model, model_used, best, used, weighted, statistics,
-                         internal_fix, g, provenance or {})
+                         internal_fix, g, provenance or {}, profile_upper)
 
 
-def _estimate_log10(value_log10: float, se_log10: float, tq: float) -> Estimate:
-    v = 10.0 ** value_log10
+def _profile_upper(problem: _Problem, best, name: str, weighted: bool) -> float:
+    """Upper 95 % limit of one log10 concentration by profiling chi^2.
+
+    The parameter is held at trial values above its best fit while the others are refitted;
+    the limit is where chi^2 rises by 3.84 (chi^2 with one degree of freedom at 95 %; the
+    rise is taken relative to the reduced chi^2 when the fit is unweighted). Returns the
+    upper bound of the parameter when the data never exclude larger values.
+    """
+    base = best.params
+    scale = 1.0 if weighted else max(best.redchi, 1e-300)
+    threshold = best.chisqr + 3.84 * scale
+    hi_bound = base[name].max
+
+    def chi2_at(x: float) -> float:
+        params = base.copy()
+        params[name].set(value=x, vary=False)
+        problem.model._last_fermi = None
+        out = lmfit.minimize(problem.residual, params, method="leastsq")
+        return float(out.chisqr)
+
+    lo = base[name].value
+    x = lo
+    while True:
+        x = min(x + 0.5, hi_bound)
+        if chi2_at(x) > threshold:
+            hi = x
+            break
+        lo = x
+        if x >= hi_bound:
+            return hi_bound
+    for _ in range(7):
+        mid = 0.5 * (lo + hi)
+        if chi2_at(mid) > threshold:
+            hi = mid
+        else:
+            lo = mid
+    return 0.5 * (lo + hi)
+
+
+def _pow10(x: float) -> float:
+    return 10.0 ** float(np.clip(x, -300.0, 300.0))
+
+
+def _estimate_log10(value_log10: float, se_log10: float, tq: float,
+                    bounds: tuple[float, float] = LOG10_CONCENTRATION_BOUNDS) -> Estimate:
+    """Estimate of a concentration fitted as log10; the interval is clipped to the bounds
+    (beyond them the data say nothing)."""
+    v = _pow10(value_log10)
     se = v * _LN10 * se_log10 if np.isfinite(se_log10) else math.nan
     if np.isfinite(se_log10) and np.isfinite(tq):
-        ci = (10.0 ** (value_log10 - tq * se_log10), 10.0 ** (value_log10 + tq * se_log10))
+        lo = max(value_log10 - tq * se_log10, bounds[0])
+        hi = min(value_log10 + tq * se_log10, bounds[1])
+        ci = (_pow10(lo), _pow10(hi))
     else:
         ci = (math.nan, math.nan)
     return Estimate(v, se, ci)
 
 
-def _estimate_linear(value: float, se: float, tq: float) -> Estimate:
+def _estimate_linear(value: float, se: float, tq: float, lower: float | None = None
+                     ) -> Estimate:
     ok = np.isfinite(se) and np.isfinite(tq)
-    return Estimate(value, se if np.isfinite(se) else math.nan,
-                    (value - tq * se, value + tq * se) if ok else (math.nan, math.nan))
+    ci = (value - tq * se, value + tq * se) if ok else (math.nan, math.nan)
+    if lower is not None and ok:
+        ci = (max(ci[0], lower), ci[1])
+    return Estimate(value, se if np.isfinite(se) else math.nan, ci)
 
 
 def _build_result(run, material, model_all, model_used, out, used, weighted, statistics,
-                  internal_fix, g, provenance) -> FitResult:
+                  internal_fix, g, provenance, profile_upper=None) -> FitResult:
     params = out.params
     free = [n for n in out.var_names]
     covar = out.covar if out.covar is not None else None
@@ -321,13 +381,17 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         cname, ename = f"log10_N_{ms}{i}", f"E_{ms}{i}"
         levels.append(LevelEstimate(
             major_kind, _estimate_log10(params[cname].value, se[cname], tq),
-            _estimate_linear(params[ename].value, se[ename], tq), model_used.degeneracy,
+            _estimate_linear(params[ename].value, se[ename], tq, lower=0.0),
+            model_used.degeneracy,
             f"{ms}{i}"))
     if model_used.compensated:
         cname = f"log10_N_{mn}"
-        levels.append(LevelEstimate(minor_kind,
-                                    _estimate_log10(params[cname].value, se[cname], tq),
-                                    None, None, mn))
+        est = _estimate_log10(params[cname].value, se[cname], tq)
+        if profile_upper is not None:
+            # only bounded: the interval runs from the floor to the profile limit
+            est = Estimate(est.value, est.stderr,
+                           (_pow10(LOG10_CONCENTRATION_BOUNDS[0]), _pow10(profile_upper)))
+        levels.append(LevelEstimate(minor_kind, est, None, None, mn))
 
     # derived quantities with first-order propagation through the covariance (internal space)
     maj = np.array([10.0 ** params[f"log10_N_{ms}{i}"].value
@@ -355,8 +419,13 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     if model_used.compensated:
         k = n_min / n_maj
         se_lnk = propagate(grad_lnk)
-        ci = ((k * math.exp(-tq * se_lnk), k * math.exp(tq * se_lnk))
-              if np.isfinite(se_lnk) and np.isfinite(tq) else (math.nan, math.nan))
+        if profile_upper is not None:
+            ci = (0.0, min(_pow10(profile_upper) / n_maj, 1.0))
+        elif np.isfinite(se_lnk) and np.isfinite(tq):
+            half = min(tq * se_lnk, 700.0)
+            ci = (k * math.exp(-half), min(k * math.exp(half), 1.0))
+        else:
+            ci = (math.nan, math.nan)
         comp = Estimate(k, k * se_lnk if np.isfinite(se_lnk) else math.nan, ci)
     else:
         comp = Estimate(0.0, 0.0, (0.0, 0.0))
@@ -376,7 +445,7 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
 
     warnings = list(run.notes)
     warnings += _warnings(run, model_used, out, params, se, free, corr, public, values, g, tq,
-                          weighted)
+                          weighted, profile_upper, n_maj)
     data = {
         "temperature_K": run.temperature.tolist(),
         "density_cm3": run.density.tolist(),
@@ -425,7 +494,8 @@ def _list_or_none(a):
     return [None if not np.isfinite(x) else float(x) for x in a]
 
 
-def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, weighted):
+def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, weighted,
+              profile_upper, n_maj):
     w = []
     res = model.solve(values, warm=False)
     major_ion = res.donor_ionized if run.carrier == "n" else res.acceptor_ionized
@@ -444,16 +514,16 @@ def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, we
                                 or se[ename] > 0.5 * abs(params[ename].value)):
             w.append(f"{ename} is poorly determined (standard error "
                      f"{se[ename]:.2g} eV on {params[ename].value:.3g} eV)")
-    cname = f"log10_N_{mn}"
-    if model.compensated and cname in free:
-        s = se[cname]
-        upper = 10.0 ** (params[cname].value + (tq if np.isfinite(tq) else 2.0) *
-                         (s if np.isfinite(s) else 0.0))
-        if not np.isfinite(s) or s > 0.5 or params[cname].value <= params[cname].min + 0.05:
-            w.append(f"compensation only bounded: the data fix N_{mn} only to below about "
-                     f"{upper:.2g} cm^-3 (95 %); the compensation ratio is an upper limit. "
-                     "Points deeper in freeze-out, where n falls below N_" + mn + ", would "
-                     "pin it")
+    if profile_upper is not None:
+        upper = _pow10(profile_upper)
+        if profile_upper >= params[f"log10_N_{mn}"].max - 1e-9:
+            w.append(f"compensation not constrained: the data do not bound N_{mn} from above "
+                     "within the allowed range; measure deeper into freeze-out")
+        else:
+            w.append(f"compensation only bounded: the data give N_{mn} < {upper:.2g} cm^-3 "
+                     f"(95 %, profile of chi^2), so the compensation ratio is below "
+                     f"{upper / n_maj:.2g}; points deeper in freeze-out, where the carrier "
+                     f"density falls below N_{mn}, would pin it")
     for name in free:
         p = params[name]
         span = (p.max - p.min) if np.isfinite(p.max - p.min) else 1.0

@@ -1,0 +1,161 @@
+"""simulate -> fit round trips from automatic starting values, and the fit's warnings."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import freezeout
+from freezeout.errors import InputError
+from freezeout.fitting.fit import fit_run, guess
+from freezeout.io.run import RunData
+from freezeout.physics.materials import get_material
+
+
+def _run(material, donors, acceptors, tmin, tmax, n=40, noise=0.02, seed=1):
+    """Synthetic run with log-normal noise of the stated relative size (seeded)."""
+    sim = freezeout.simulate(material, donors=donors, acceptors=acceptors,
+                             temperatures=(tmin, tmax, n))
+    mid = n // 2
+    carrier = "n" if sim.n[mid] > sim.p[mid] else "p"
+    d = sim.n if carrier == "n" else sim.p
+    rng = np.random.default_rng(seed)
+    d = d * np.exp(rng.normal(0.0, noise, d.size)) if noise else d
+    err = noise * d if noise else None
+    return RunData("synthetic.csv", "0" * 64, sim.temperature, d, err, carrier,
+                   (carrier,) * d.size)
+
+
+def _within(est, truth, nsigma=4.0, rel=None):
+    if rel is not None:
+        return abs(est.value / truth - 1) < rel
+    return abs(est.value - truth) <= nsigma * est.stderr
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_one_level_round_trip(seed):
+    """Si:P-like donor, light compensation, 20-600 K: parameters recovered within 4 standard
+    errors from automatic starting values (recovery of known parameters; common practice)."""
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, seed=seed)
+    res = fit_run(run, get_material("Si"))
+    donor, acc = res.levels
+    assert _within(donor.concentration, 1e16) and _within(donor.energy, 0.045)
+    assert _within(acc.concentration, 1e13)
+    assert res.compensation_ratio.value == pytest.approx(1e-3, rel=0.1)
+    lo, hi = res.net_doping.ci95
+    assert lo < 1e16 - 1e13 < hi or _within(res.net_doping, 1e16 - 1e13)
+
+
+def test_exact_round_trip_without_noise():
+    run = _run("Si", [(3e15, 0.045)], [(2e13, None)], 15, 500, noise=0.0)
+    res = fit_run(run, get_material("Si"))
+    assert res.levels[0].concentration.value == pytest.approx(3e15, rel=1e-6)
+    assert res.levels[0].energy.value == pytest.approx(0.045, rel=1e-6)
+    assert res.levels[1].concentration.value == pytest.approx(2e13, rel=1e-5)
+
+
+def test_compensated_round_trip():
+    run = _run("Si", [(5e16, 0.054)], [(2e16, None)], 25, 500)
+    res = fit_run(run, get_material("Si"))
+    assert _within(res.levels[0].concentration, 5e16)
+    assert _within(res.levels[0].energy, 0.054)
+    assert _within(res.levels[1].concentration, 2e16)
+    assert _within(res.compensation_ratio, 0.4)
+
+
+def test_two_level_round_trip_sic():
+    """4H-SiC-like nitrogen on two inequivalent sites (about 52 and 92 meV from Hall fits,
+    W. Gotz et al., J. Appl. Phys. 73, 3332 (1993); from memory)."""
+    run = _run("4H-SiC", [(4e15, 0.052), (6e15, 0.092)], [(3e14, None)], 40, 800)
+    res = fit_run(run, get_material("4H-SiC"), donors=2)
+    d1, d2, acc = res.levels
+    assert _within(d1.energy, 0.052) and _within(d2.energy, 0.092)
+    assert _within(d1.concentration, 4e15) and _within(d2.concentration, 6e15)
+    assert _within(acc.concentration, 3e14)
+
+
+def test_deep_acceptor_round_trip_gan():
+    """p-type GaN:Mg-like deep acceptor, 170 meV (R. Y. Korotkov et al., Appl. Phys. Lett. 78,
+    222 (2001)), compensated by donors, 150-800 K, degeneracy 4."""
+    run = _run("GaN", [(5e16, None)], [(3e19, 0.17)], 150, 800)
+    assert run.carrier == "p"
+    res = fit_run(run, get_material("GaN"), donors=1, acceptors=1)
+    acc, don = res.levels
+    assert acc.kind == "acceptor" and don.kind == "donor" and acc.degeneracy == 4.0
+    assert _within(acc.energy, 0.17) and _within(acc.concentration, 3e19)
+    assert _within(don.concentration, 5e16)
+
+
+def test_boltzmann_statistics_option():
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600)
+    res = fit_run(run, get_material("Si"), statistics="boltzmann")
+    assert res.statistics_model == "boltzmann"
+    assert _within(res.levels[0].energy, 0.045, rel=0.02)
+
+
+def test_guess_from_plateau_and_slope():
+    run = _run("Si", [(1e16, 0.045)], [(1e12, None)], 20, 400, noise=0.0)
+    g = guess(run.temperature, run.density, get_material("Si"))
+    assert g["net_doping"] == pytest.approx(1e16, rel=0.05)
+    assert g["energy"] == pytest.approx(0.045, rel=0.2) and g["has_freezeout"]
+
+
+def test_warning_no_freeze_out():
+    """Data only in saturation: the energy is not constrained and the fit says so."""
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 150, 400, n=20)
+    res = fit_run(run, get_material("Si"))
+    text = " ".join(res.warnings)
+    assert "no freeze-out" in text and "E_D1" in text
+
+
+def test_warning_compensation_only_bounded():
+    """Tiny compensation never reached by n in the measured range: only an upper limit."""
+    run = _run("Si", [(1e16, 0.045)], [(1e11, None)], 30, 500, n=30)
+    res = fit_run(run, get_material("Si"))
+    assert any("compensation only bounded" in w for w in res.warnings)
+
+
+def test_warning_high_correlation_and_fix_option():
+    run = _run("4H-SiC", [(4e15, 0.052), (6e15, 0.092)], [(3e14, None)], 40, 800)
+    res = fit_run(run, get_material("4H-SiC"), donors=2)
+    assert any("strongly correlated" in w for w in res.warnings)
+    fixed = fit_run(run, get_material("4H-SiC"), donors=2, fix={"E_D1": 0.052})
+    assert fixed.levels[0].energy.value == 0.052 and fixed.n_parameters == 4
+    assert "E_D1" not in fixed.parameter_names
+
+
+def test_bounds_option_and_at_bound_warning():
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600)
+    res = fit_run(run, get_material("Si"), bounds={"E_D1": (0.05, 0.08)})
+    assert res.levels[0].energy.value == pytest.approx(0.05, abs=1e-4)
+    assert any("fit at a bound" in w for w in res.warnings)
+
+
+def test_bad_fit_requests():
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, n=5)
+    si = get_material("Si")
+    with pytest.raises(InputError, match="unknown parameter"):
+        fit_run(run, si, fix={"E_X9": 0.1})
+    with pytest.raises(InputError, match="at least one level"):
+        fit_run(run, si, donors=0)
+    with pytest.raises(InputError, match="cannot be told apart"):
+        fit_run(run, si, acceptors=2)
+    short = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, n=3)
+    with pytest.raises(InputError, match="too few usable points"):
+        fit_run(short, si)
+
+
+def test_result_dict_is_json_and_complete():
+    import json
+
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600)
+    d = fit_run(run, get_material("Si")).to_dict()
+    json.dumps(d, allow_nan=False)
+    for key in ("carrier", "levels", "compensation_ratio", "net_doping_cm3", "statistics",
+                "warnings", "hall_factor", "material", "provenance", "schema_version"):
+        assert key in d
+    lv = d["levels"][0]
+    assert lv["kind"] == "donor" and lv["degeneracy"] == 2.0
+    assert set(lv["energy_eV"]) == {"value", "stderr", "ci95"}
+    assert d["levels"][1]["energy_eV"] is None
+    assert set(d["statistics"]) >= {"chi2", "reduced_chi2", "aic", "bic", "n_points"}
