@@ -114,7 +114,7 @@ def _print_summary(result, written) -> None:
         if lv["energy_eV"] is not None:
             row(f"E_{lv['name']}", lv["energy_eV"], "eV")
     row("net doping", d["net_doping_cm3"], "cm^-3")
-    row("compensation N_min/N_maj", d["compensation_ratio"], "")
+    row("compensation ratio", d["compensation_ratio"], "")
     con.print(table)
     con.print(f"chi^2 = {st['chi2']:.4g}, reduced chi^2 = {st['reduced_chi2']:.4g}, "
               f"AIC = {st['aic']:.4g}, BIC = {st['bic']:.4g}")

@@ -2,14 +2,18 @@
 
 from __future__ import annotations
 
-import importlib.util
-
 
 def store_fit(result, db_url: str | None, path) -> None:
-    """Record a fit (idempotent for the same input and options)."""
-    if importlib.util.find_spec("freezeout.storage.db") is None:  # pragma: no cover
-        return
+    """Record a fit; the same input and options are stored once."""
     from freezeout.storage.db import open_store
 
+    d = result.to_dict()
+    prov = d["provenance"]
     store = open_store(db_url)
-    store.save_fit(result.to_dict())
+    try:
+        store.save_fit(d, input_name=prov["input"], input_sha256=prov["sha256"],
+                       options=prov["options"], tool_version=prov["tool_version"])
+    finally:
+        close = getattr(store, "close", None)
+        if close is not None:
+            close()
