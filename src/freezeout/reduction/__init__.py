@@ -70,6 +70,7 @@ __all__ = [
     "Finding",
     "QualityThresholds",
     "RawReadings",
+    "SEVERE_MARK",
     "ReducedRun",
     "carrier_type",
     "classify_configurations",
@@ -104,6 +105,9 @@ ZERO_FIELD = 1.0e-3
 
 #: Currents whose magnitudes differ by less than this fraction are the same current. [1]
 CURRENT_LEVEL_TOLERANCE = 0.02
+
+#: Mark appended to the code of a severe finding in the reduced-CSV ``flags`` column.
+SEVERE_MARK = "!"
 
 #: Default column names used in error messages for readings built from arrays.
 DEFAULT_COLUMNS: dict[str, str] = {
@@ -334,9 +338,17 @@ def reduced_columns(run: ReducedRun) -> dict[str, list]:
         Column header -> list of values, in the order ``T [K]``, ``rho [ohm cm]``,
         ``rho_err [ohm cm]``, ``R_H [cm^3/C]``, ``R_H_err [cm^3/C]``, ``n [cm^-3]`` or
         ``p [cm^-3]`` (the run's majority carrier; unsigned), its ``_err``, ``mu_H
-        [cm^2/(V s)]``, ``mu_H_err [cm^2/(V s)]``, ``flags``.
+        [cm^2/(V s)]``, ``mu_H_err [cm^2/(V s)]``, ``flags`` (codes joined by ``;``, the
+        codes of severe findings followed by :data:`SEVERE_MARK`).
     """
     c = run.majority_carrier
+    flags = []
+    for i in range(run.n_points):
+        codes = {}
+        for f in run.findings_at(i):
+            mark = SEVERE_MARK if f.severity == "severe" else ""
+            codes[f.code] = codes.get(f.code, "") or mark
+        flags.append(";".join(code + mark for code, mark in codes.items()))
     return {
         "T [K]": run.temperature.tolist(),
         "rho [ohm cm]": run.resistivity.tolist(),
@@ -347,7 +359,7 @@ def reduced_columns(run: ReducedRun) -> dict[str, list]:
         f"{c}_err [cm^-3]": run.density_err.tolist(),
         "mu_H [cm^2/(V s)]": run.mobility.tolist(),
         "mu_H_err [cm^2/(V s)]": run.mobility_err.tolist(),
-        "flags": list(run.flags),
+        "flags": flags,
     }
 
 
@@ -466,8 +478,9 @@ def readings_from_arrays(
     ------
     InputError
         Naming file, line and column: non-finite values, non-positive temperature, zero
-        current, unknown contact labels, contacts that form no configuration, duplicate
-        readings, missing configurations, a single current or field direction.
+        current, unknown contact labels, contacts that form no configuration, missing
+        configurations, a single current or field direction. (Duplicate rows are a
+        property of files and are caught by the file reader.)
     """
     arrays = {
         "temperature": np.asarray(temperature, dtype=float).ravel(),
@@ -523,7 +536,8 @@ def readings_from_arrays(
             except (TypeError, ValueError):
                 ok = False
             if not ok:
-                raise _fail(provisional, f"unknown contact label {v!r}: contacts are numbered "
+                shown = repr(str(v)) if isinstance(v, str) else repr(v)
+                raise _fail(provisional, f"unknown contact label {shown}: contacts are numbered "
                             f"1 to {n_contacts} for {geometry} geometry", i, role)
             out[i] = int(fv)
         labels[role] = out
@@ -532,7 +546,6 @@ def readings_from_arrays(
         columns=cols, **arrays, **labels,
     )
     _check_contacts(geom, geometry)
-    _check_duplicates(geom)
     for name, value, err in (("thickness", thickness, thickness_err),
                              ("width", width, width_err), ("spacing", spacing, spacing_err)):
         if name != "thickness" and geometry != "hall-bar":
@@ -572,18 +585,6 @@ def _check_contacts(r: RawReadings, geometry: str) -> None:
         raise _fail(r, f"contacts I+ {r.i_plus[i]}, I- {r.i_minus[i]}, V+ {r.v_plus[i]}, "
                     f"V- {r.v_minus[i]} form no configuration of the {geometry} geometry", i,
                     "i_plus")
-
-
-def _check_duplicates(r: RawReadings) -> None:
-    seen: dict[tuple, int] = {}
-    for i in range(r.n_readings):
-        key = (r.temperature[i], r.field[i], r.current[i], r.i_plus[i], r.i_minus[i],
-               r.v_plus[i], r.v_minus[i], r.voltage[i])
-        if key in seen:
-            raise _fail(r, f"duplicate row: identical to line {int(r.line[seen[key]])} "
-                        "(repeated readings differ at least in the voltage; remove the copy)",
-                        i, "voltage")
-        seen[key] = i
 
 
 def _field_class(b: np.ndarray) -> np.ndarray:
