@@ -1,0 +1,410 @@
+"""Reader of raw van der Pauw / Hall readings (the raw-readings CSV format of freezeout).
+
+One row per reading, columns ``T [unit]``, ``B [unit]``, ``I [unit]``, ``I+``, ``I-``,
+``V+``, ``V-``, ``V [unit]`` in any order (other columns are ignored); ``#`` lines before
+the header carry ``key: value`` metadata (``sample``, ``thickness``, ``geometry``,
+``width``, ``spacing``, ...). The format is documented in ``docs/raw_format.md``.
+
+This module is the only place where the raw format's units are converted; everything it
+returns is in canonical units (K, T, A, V, cm).
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import math
+import re
+from pathlib import Path
+
+import numpy as np
+
+from freezeout.errors import InputError
+from freezeout.io.units import parse_unit, split_header
+from freezeout.reduction import (
+    DEFAULT_TEMPERATURE_TOLERANCE,
+    QualityThresholds,
+    RawReadings,
+    ReducedRun,
+    readings_from_arrays,
+    reduce_readings,
+)
+
+__all__ = [
+    "GEOMETRY_NAMES",
+    "RAW_COLUMNS",
+    "is_raw_file",
+    "load_raw_run",
+    "parse_length",
+    "read_raw",
+]
+
+#: Column name in the file -> role in :class:`~freezeout.reduction.RawReadings`.
+RAW_COLUMNS: dict[str, str] = {
+    "T": "temperature",
+    "B": "field",
+    "I": "current",
+    "I+": "i_plus",
+    "I-": "i_minus",
+    "V+": "v_plus",
+    "V-": "v_minus",
+    "V": "voltage",
+}
+
+_DIMENSION = {"temperature": "temperature", "field": "field", "current": "current",
+              "voltage": "voltage"}
+_CONTACT_ROLES = ("i_plus", "i_minus", "v_plus", "v_minus")
+
+#: Accepted spellings of the ``# geometry:`` value -> geometry name.
+GEOMETRY_NAMES: dict[str, str] = {
+    "van-der-pauw": "van-der-pauw",
+    "vanderpauw": "van-der-pauw",
+    "vdp": "van-der-pauw",
+    "hall-bar": "hall-bar",
+    "hallbar": "hall-bar",
+}
+
+_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_LENGTH = re.compile(
+    rf"^\s*(?P<value>{_NUMBER})\s*(?P<unit>[^\d\s+±/-][^\s+±/]*)?\s*"
+    rf"(?:(?:\+-|\+/-|±)\s*(?P<err>{_NUMBER})\s*(?P<err_unit>[^\d\s][^\s]*)?)?\s*$"
+)
+
+
+def parse_length(text: str, what: str = "length") -> tuple[float, float]:
+    """Parse a length with an optional uncertainty, e.g. ``"350um"`` or ``"0.35 mm +- 5 um"``.
+
+    The uncertainty may be written ``+-``, ``+/-`` or ``±`` and given in any length unit or
+    in ``%`` of the value; without a unit it takes the value's unit.
+
+    Parameters
+    ----------
+    text
+        The text to parse.
+    what
+        Name of the quantity, for messages.
+
+    Returns
+    -------
+    value, uncertainty : float
+        The length and its standard uncertainty (0 when not given). [cm]
+
+    Raises
+    ------
+    ValueError
+        If the text is not a positive length with a length unit.
+    """
+    m = _LENGTH.match(text)
+    if not m:
+        raise ValueError(f"cannot read {what} {text!r}; write e.g. '350 um' or "
+                         "'350 um +- 5 um'")
+    if m.group("unit") is None:
+        raise ValueError(f"{what} {text!r} needs a unit (e.g. '350 um')")
+    unit = parse_unit(m.group("unit"), "length")
+    value = unit.to_canonical(float(m.group("value")))
+    if not (math.isfinite(value) and value > 0):
+        raise ValueError(f"{what} must be positive, got {text!r}")
+    err = 0.0
+    if m.group("err") is not None:
+        err_text = m.group("err_unit")
+        if err_text == "%":
+            err = value * float(m.group("err")) / 100.0
+        else:
+            err_unit = unit if err_text is None else parse_unit(err_text, "length")
+            err = err_unit.scale_uncertainty(float(m.group("err")))
+        if not (math.isfinite(err) and err >= 0):
+            raise ValueError(f"{what} uncertainty must be non-negative, got {text!r}")
+    return float(value), float(err)
+
+
+def _header_fields(line: str) -> list[str]:
+    return next(csv.reader([line]))
+
+
+def _column_key(name: str) -> str | None:
+    key = name.strip()
+    for col in RAW_COLUMNS:
+        if key.upper() == col:
+            return col
+    return None
+
+
+def is_raw_file(path) -> bool:
+    """Tell whether a file looks like a raw-readings CSV (cheap: reads the header only).
+
+    Parameters
+    ----------
+    path
+        File to sniff.
+
+    Returns
+    -------
+    bool
+        True when the first non-comment line has ``I+``, ``I-``, ``V+`` and ``V-`` columns.
+    """
+    try:
+        with open(path, encoding="utf-8", errors="replace", newline="") as fh:
+            for _ in range(500):
+                line = fh.readline()
+                if not line:
+                    return False
+                text = line.strip()
+                if not text or text.startswith("#"):
+                    continue
+                names = {_column_key(split_header(h)[0]) for h in _header_fields(text)}
+                return {"I+", "I-", "V+", "V-"} <= names
+    except (OSError, csv.Error, UnicodeError):
+        return False
+    return False
+
+
+def _resolve_length(meta_lines: dict[str, tuple[str, int]], key: str, file: str,
+                    override=None) -> tuple[float | None, float, str | None]:
+    """Value and uncertainty [cm] of a length metadata key (with ``<key>_uncertainty``)."""
+    if override is not None:
+        if isinstance(override, str):
+            try:
+                value, err = parse_length(override, key)
+            except ValueError as exc:
+                raise InputError(f"--{key}: {exc}") from None
+            return value, err, override.strip()
+        value = float(override)
+        if not (math.isfinite(value) and value > 0):
+            raise InputError(f"{key} must be a positive length in cm, got {override!r}")
+        return value, 0.0, f"{value:g} cm"
+    if key not in meta_lines:
+        return None, 0.0, None
+    text, line = meta_lines[key]
+    try:
+        value, err = parse_length(text, key)
+    except ValueError as exc:
+        raise InputError(str(exc), file=file, line=line, column=key) from None
+    unc_key = f"{key}_uncertainty"
+    if unc_key in meta_lines:
+        unc_text, unc_line = meta_lines[unc_key]
+        if err:
+            raise InputError(f"{key} uncertainty given twice (with +- and as {unc_key})",
+                             file=file, line=unc_line, column=unc_key)
+        try:
+            if unc_text.strip().endswith("%"):
+                err = value * float(unc_text.strip()[:-1]) / 100.0
+            else:
+                err, _ = parse_length(unc_text, unc_key)
+        except ValueError as exc:
+            raise InputError(str(exc), file=file, line=unc_line, column=unc_key) from None
+    return value, err, text
+
+
+def read_raw(
+    path,
+    *,
+    temperature_tolerance: float = DEFAULT_TEMPERATURE_TOLERANCE,
+    thickness=None,
+) -> RawReadings:
+    """Read, convert and validate a raw-readings CSV.
+
+    Parameters
+    ----------
+    path
+        The raw CSV.
+    temperature_tolerance
+        Readings within this distance of a set point's running mean temperature belong to
+        it. [K]
+    thickness
+        Overrides the file's ``# thickness:`` line: a string with unit and optional
+        uncertainty (``"350um"``, ``"0.35 mm +- 5 um"``), or a number in cm.
+
+    Returns
+    -------
+    RawReadings
+        Grouped readings in canonical units.
+
+    Raises
+    ------
+    InputError
+        Naming file, line and column, for: unreadable or empty files, a missing column, an
+        unknown unit, a truncated row, a value that is not a finite number, a non-positive
+        temperature, zero current, an unknown contact label, a duplicate row, a missing
+        configuration, a single current or field direction, a missing thickness.
+    """
+    file = str(path)
+    try:
+        raw_bytes = Path(path).read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror or exc}", file=file) from None
+    try:
+        text = raw_bytes.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
+    lines = text.splitlines()
+
+    meta_lines: dict[str, tuple[str, int]] = {}
+    header: list[str] | None = None
+    header_line = 0
+    index: dict[str, int] = {}
+    units = {}
+    cells: dict[str, list] = {role: [] for role in RAW_COLUMNS.values()}
+    row_lines: list[int] = []
+    seen_rows: dict[tuple[str, ...], int] = {}
+    for number, line in enumerate(lines, start=1):
+        stripped = line.strip()
+        if not stripped:
+            continue
+        if stripped.startswith("#"):
+            body = stripped.lstrip("#").strip()
+            if ":" in body and header is None:
+                key, _, value = body.partition(":")
+                key = key.strip().lower().replace(" ", "_").replace("-", "_")
+                if key in meta_lines and key in ("thickness", "thickness_uncertainty",
+                                                 "geometry", "width", "spacing", "sample"):
+                    raise InputError(f"metadata {key!r} given twice (first on line "
+                                     f"{meta_lines[key][1]})", file=file, line=number,
+                                     column=key)
+                meta_lines[key] = (value.strip(), number)
+            continue
+        if header is None:
+            header, header_line = _header_fields(stripped), number
+            for pos, title in enumerate(header):
+                name, unit = split_header(title)
+                key = _column_key(name)
+                if key is None:
+                    continue
+                if key in index:
+                    raise InputError(f"column {key!r} appears twice", file=file, line=number,
+                                     column=title.strip())
+                index[key] = pos
+                role = RAW_COLUMNS[key]
+                if role in _DIMENSION:
+                    if unit is None:
+                        raise InputError(f"column {key!r} needs a unit in brackets, e.g. "
+                                         f"'{key} [{_example_unit(role)}]'", file=file,
+                                         line=number, column=title.strip())
+                    try:
+                        units[role] = parse_unit(unit, _DIMENSION[role])
+                    except ValueError as exc:
+                        raise InputError(str(exc), file=file, line=number,
+                                         column=title.strip()) from None
+            missing = [c for c in RAW_COLUMNS if c not in index]
+            if missing:
+                raise InputError(f"missing column(s) {', '.join(missing)}; a raw file needs "
+                                 f"{', '.join(RAW_COLUMNS)}", file=file, line=number,
+                                 column=missing[0])
+            continue
+        fields = next(csv.reader([stripped]))
+        if len(fields) != len(header):
+            where = header[len(fields)].strip() if len(fields) < len(header) else len(fields)
+            raise InputError(f"row has {len(fields)} fields, the header has {len(header)}"
+                             + (" (truncated file?)" if len(fields) < len(header) else ""),
+                             file=file, line=number, column=where)
+        signature = tuple(fields[pos].strip() for pos in index.values())
+        if signature in seen_rows:
+            raise InputError(f"duplicate row: identical to line {seen_rows[signature]} in "
+                             "every column (repeated readings differ at least in the last "
+                             "digit; remove the copy)", file=file, line=number,
+                             column=header[index["V"]].strip())
+        seen_rows[signature] = number
+        for key, pos in index.items():
+            role = RAW_COLUMNS[key]
+            cell = fields[pos].strip()
+            title = header[pos].strip()
+            if role in _CONTACT_ROLES:
+                cells[role].append(cell)
+                continue
+            if not cell:
+                raise InputError("empty value", file=file, line=number, column=title)
+            try:
+                value = float(cell)
+            except ValueError:
+                raise InputError(f"not a number: {cell!r}", file=file, line=number,
+                                 column=title) from None
+            if not math.isfinite(value):
+                raise InputError(f"not a finite number: {cell!r}", file=file, line=number,
+                                 column=title)
+            cells[role].append(units[role].to_canonical(value))
+        row_lines.append(number)
+    if header is None:
+        raise InputError("no header line: the file is empty or holds only comments",
+                         file=file)
+    if not row_lines:
+        raise InputError("no readings after the header", file=file, line=header_line)
+
+    metadata = {k: v for k, (v, _) in meta_lines.items()}
+    geometry = "van-der-pauw"
+    if "geometry" in meta_lines:
+        g_text, g_line = meta_lines["geometry"]
+        g_key = re.sub(r"[\s_]+", "-", g_text.strip().lower())
+        if g_key not in GEOMETRY_NAMES:
+            raise InputError(f"unknown geometry {g_text!r} (known: van-der-pauw, hall-bar)",
+                             file=file, line=g_line, column="geometry")
+        geometry = GEOMETRY_NAMES[g_key]
+    t_value, t_err, t_text = _resolve_length(meta_lines, "thickness", file, thickness)
+    if t_value is None:
+        raise InputError("no thickness: add a '# thickness: 350 um' line or give "
+                         "--thickness", file=file)
+    metadata["thickness"] = t_text
+    metadata["thickness_source"] = "file" if thickness is None else "option"
+    extra = {}
+    if geometry == "hall-bar":
+        for key in ("width", "spacing"):
+            value, err, _ = _resolve_length(meta_lines, key, file)
+            if value is None:
+                raise InputError(f"hall-bar geometry needs a '# {key}:' line (e.g. "
+                                 f"'# {key}: 1 mm')", file=file)
+            extra[key], extra[f"{key}_err"] = value, err
+    columns = {role: header[index[key]].strip() for key, role in RAW_COLUMNS.items()}
+    metadata["raw_sha256"] = hashlib.sha256(raw_bytes).hexdigest()
+    return readings_from_arrays(
+        *(np.asarray(cells[role]) for role in ("temperature", "field", "current", "i_plus",
+                                              "i_minus", "v_plus", "v_minus", "voltage")),
+        thickness=t_value,
+        thickness_err=t_err,
+        geometry=geometry,
+        temperature_tolerance=temperature_tolerance,
+        source=file,
+        lines=row_lines,
+        metadata=metadata,
+        columns=columns,
+        **extra,
+    )
+
+
+def _example_unit(role: str) -> str:
+    return {"temperature": "K", "field": "T", "current": "A", "voltage": "V"}[role]
+
+
+def load_raw_run(
+    path,
+    *,
+    thickness=None,
+    hall_factor: float = 1.0,
+    temperature_tolerance: float = DEFAULT_TEMPERATURE_TOLERANCE,
+    thresholds: QualityThresholds | None = None,
+) -> ReducedRun:
+    """Read a raw-readings CSV and reduce it.
+
+    Parameters
+    ----------
+    path
+        The raw CSV.
+    thickness
+        Thickness override, as for :func:`read_raw` (string with unit, or cm).
+    hall_factor
+        Hall scattering factor r_H for the density. [1]
+    temperature_tolerance
+        Set-point grouping tolerance. [K]
+    thresholds
+        Quality thresholds; defaults if None.
+
+    Returns
+    -------
+    ReducedRun
+        The reduced run; its metadata names the raw file (``reduced_from``) and its
+        SHA-256 (``raw_sha256``).
+
+    Raises
+    ------
+    InputError
+        For bad input, see :func:`read_raw`.
+    """
+    readings = read_raw(path, temperature_tolerance=temperature_tolerance, thickness=thickness)
+    return reduce_readings(readings, hall_factor=hall_factor, thresholds=thresholds)
