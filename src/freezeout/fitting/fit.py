@@ -127,7 +127,7 @@ class _Problem:
         ln_model = res.log_n if self.model.carrier == "n" else res.log_p
         r = (ln_model - self.y[None, :]) / self.sigma[None, :]
         cost = np.sum(r * r, axis=1)
-        return np.where(np.isfinite(cost), cost, np.inf)
+        return np.where(np.isfinite(cost), cost, np.inf), res.fermi_level
 
 
 def _parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float],
@@ -261,7 +261,7 @@ def fit_run(
     for s in starts:
         for k, (lo, hi) in internal_bounds.items():
             s[k] = float(np.clip(s[k], lo, hi))
-    costs = problem.batch_cost(starts)
+    costs, start_fermi = problem.batch_cost(starts)
     order = np.argsort(costs)
     best = None
     tried = 0
@@ -269,7 +269,7 @@ def fit_run(
         if not np.isfinite(costs[idx]):
             continue
         params = _parameters(model_used, starts[idx], internal_fix, internal_bounds)
-        model_used._last_fermi = None
+        model_used._last_fermi = start_fermi[idx].copy()  # warm start from the global stage
         out = lmfit.minimize(problem.residual, params, method="leastsq",
                              scale_covar=not weighted)
         tried += 1
@@ -440,7 +440,9 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
 
     # model at every point of the run (used or not)
     values = params.valuesdict()
-    res_all = model_all.solve(values, warm=False)
+    if model_all.temperature.shape == model_used.temperature.shape:
+        model_all._last_fermi = model_used._last_fermi  # same grid: warm start
+    res_all = model_all.solve(values, warm=model_all._last_fermi is not None)
     ln_all = res_all.log_n if run.carrier == "n" else res_all.log_p
 
     warnings = list(run.notes)
@@ -497,7 +499,7 @@ def _list_or_none(a):
 def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, weighted,
               profile_upper, n_maj):
     w = []
-    res = model.solve(values, warm=False)
+    res = model.solve(values, warm=model._last_fermi is not None)
     major_ion = res.donor_ionized if run.carrier == "n" else res.acceptor_ionized
     ms = "D" if run.carrier == "n" else "A"
     mn = "A" if run.carrier == "n" else "D"
