@@ -151,9 +151,49 @@ def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
         ax.plot(t, curves.fermi_level, color=FLAG, lw=2.0, label="E_F")
         ax.set_xlabel("temperature [K]")
         ax.set_ylabel("energy above E_v [eV]")
+        ax.set_title("whole gap")
         ax.set_ylim(-0.05 * curves.band_gap.max(), 1.08 * curves.band_gap.max())
+        ax.legend(loc="center right")
+        return ax
+
+
+def edge_axes(result: FitResult, curves: ModelCurves, ax=None):
+    """Fermi level and level energies measured from the majority band edge (a zoom)."""
+    with plt.rc_context(STYLE):
+        ax = _new_axes(ax)
+        t = curves.temperature
+        n_type = result.carrier == "n"
+        edge = curves.band_gap if n_type else np.zeros_like(t)
+        sign = 1.0 if n_type else -1.0  # distance from the edge, positive into the gap
+        tops = [0.0]
+        for i, name in enumerate(curves.level_names):
+            e = curves.level_energy[i]
+            if np.all(np.isnan(e)):
+                continue
+            d = sign * (edge - e)
+            tops.append(float(np.nanmax(d)))
+            ax.plot(t, d, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)], lw=1.1, ls="--",
+                    label=f"E_{name}")
+        d_f = sign * (edge - curves.fermi_level)
+        ax.plot(t, d_f, color=FLAG, lw=2.0, label="E_F")
+        ax.axhline(0.0, color=INK, lw=1.6, label="E_c" if n_type else "E_v")
+        top = 2.0 * max(tops) if max(tops) > 0 else float(np.nanmax(d_f))
+        ax.set_ylim(top, -0.08 * top) if n_type else ax.set_ylim(-0.08 * top, top)
+        ax.set_xlabel("temperature [K]")
+        ax.set_ylabel(("E_c − E" if n_type else "E − E_v") + " [eV]")
+        ax.set_title("near the " + ("conduction" if n_type else "valence") + "-band edge")
         ax.legend(loc="center left", bbox_to_anchor=(1.0, 0.5))
         return ax
+
+
+def fermi_figure(result: FitResult, curves: ModelCurves):
+    """The whole gap beside a zoom on the majority band edge."""
+    with plt.rc_context(STYLE):
+        fig = Figure(figsize=(9.0, 4.2), layout="constrained")
+        left, right = fig.subplots(1, 2)
+        fermi_axes(result, curves, left)
+        edge_axes(result, curves, right)
+        return fig
 
 
 def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):

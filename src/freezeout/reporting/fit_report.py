@@ -53,8 +53,9 @@ def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
                         "contribution of each level and of intrinsic generation."),
         "residuals.png": (fg.png_bytes(fg.residual_axes(result)),
                           "Residuals of the fit, measured/fitted − 1."),
-        "fermi_level.png": (fg.png_bytes(fg.fermi_axes(result, curves)),
-                            "Fermi level in the gap, with the band edges and level energies."),
+        "fermi_level.png": (fg.png_bytes(fg.fermi_figure(result, curves)),
+                            "Fermi level in the gap, with the band edges and level energies; "
+                            "right: measured from the majority band edge."),
         "ionization.png": (fg.png_bytes(fg.ionization_axes(result, curves)),
                            "Ionized fraction of each level."),
     }
