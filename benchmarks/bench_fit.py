@@ -65,7 +65,7 @@ def plain_log_n(t_arr, nd, ed, na):
         eg = float(SI.band_gap(t))
         nc, nv = float(SI.nc(t)), float(SI.nv(t))
 
-        def balance(ef):  # ef = E_F - E_v [eV]; positive minus negative charge, scaled
+        def balance(ef, kt=kt, eg=eg, nc=nc, nv=nv):  # ef = E_F - E_v [eV], scaled charge
             n = nc * f_half_quad((ef - eg) / kt)
             p = nv * f_half_quad(-ef / kt)
             ndp = nd / (1.0 + 2.0 * math.exp(min((ef - (eg - ed)) / kt, 700.0)))

@@ -59,6 +59,7 @@ def fit_command(
     no_history: Annotated[bool, typer.Option(
         "--no-history", help="Do not store the fit in the history database.")] = False,
 ) -> int:
+    """Fit a run; see HELP."""
     from freezeout import api
 
     fixes = {k: parse_number(v, f"--fix {k}") for k, v in

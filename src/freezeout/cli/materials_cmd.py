@@ -15,6 +15,7 @@ def materials_command(
     name: Annotated[str | None, typer.Argument(help="Material to show.")] = None,
     json_output: JsonOpt = False,
 ) -> int:
+    """Show the materials library; see HELP."""
     from rich.console import Console
     from rich.table import Table
 

@@ -38,6 +38,7 @@ def simulate_command(
                                              "(default: stdout).")] = None,
     json_output: JsonOpt = False,
 ) -> int:
+    """Simulate a run; see HELP."""
     from freezeout import api
     from freezeout.io.writers import format_csv, write_csv
 

@@ -340,8 +340,10 @@ def _pow10(x: float) -> float:
 
 def _estimate_log10(value_log10: float, se_log10: float, tq: float,
                     bounds: tuple[float, float] = LOG10_CONCENTRATION_BOUNDS) -> Estimate:
-    """Estimate of a concentration fitted as log10; the interval is clipped to the bounds
-    (beyond them the data say nothing)."""
+    """Estimate of a concentration fitted as log10.
+
+    The interval is clipped to the bounds (beyond them the data say nothing).
+    """
     v = _pow10(value_log10)
     se = v * _LN10 * se_log10 if np.isfinite(se_log10) else math.nan
     if np.isfinite(se_log10) and np.isfinite(tq):

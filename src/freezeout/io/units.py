@@ -108,7 +108,8 @@ def parse_unit(unit: str, dimension: str) -> Unit:
     key = normalize_unit(unit)
     if key not in table:
         known = ", ".join(sorted(k for k in table if k))
-        raise ValueError(f"unknown unit {unit!r} for {dimension.replace('_', ' ')} (known: {known})")
+        what = dimension.replace("_", " ")
+        raise ValueError(f"unknown unit {unit!r} for {what} (known: {known})")
     scale, offset = table[key]
     return Unit(dimension, unit, scale, offset)
 

@@ -168,7 +168,7 @@ def material_from_mapping(data: Mapping, *, file: str | None = None,
 
 @cache
 def library() -> dict[str, Material]:
-    """The bundled materials, keyed by name (``Si``, ``Ge``, ``GaAs``, ``4H-SiC``, ``GaN``, ``InP``)."""
+    """The bundled materials, keyed by name (Si, Ge, GaAs, 4H-SiC, GaN, InP)."""
     text = resources.files("freezeout.data").joinpath("materials.toml").read_text()
     raw = tomllib.loads(text)
     out = {}
