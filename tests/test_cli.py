@@ -117,3 +117,37 @@ def test_help_is_fast_and_console_script():
     r = subprocess.run([sys.executable, "-m", "freezeout.cli.app", "--help"],
                        capture_output=True, text=True)
     assert r.returncode == 0 and "fit" in r.stdout and "simulate" in r.stdout
+
+
+def test_simulate_json_equals_api(monkeypatch, capsys):
+    code, out, _ = cli(monkeypatch, capsys, "simulate", "--material", "GaN", "--acceptor",
+                       "2e19,0.17,4", "--donor", "3e17,none", "--temperatures", "150:700:12",
+                       "--json")
+    assert code == 0
+    api = freezeout.simulate("GaN", acceptors=[(2e19, 0.17, 4)], donors=[(3e17, None)],
+                             temperatures=(150, 700, 12)).to_dict()
+    assert json.loads(out) == json.loads(json.dumps(api))
+
+
+def test_fit_failure_exit_1(sim_csv, monkeypatch, capsys):
+    from freezeout import api
+    from freezeout.errors import FitError
+
+    def broken(*a, **k):
+        raise FitError("no starting point gave a finite fit", optimizer_message="diverged")
+
+    monkeypatch.setattr(api, "fit_file", broken)
+    code, _, err = cli(monkeypatch, capsys, "fit", sim_csv)
+    assert code == 1 and "fit failed" in err and "diverged" in err
+
+
+def test_report_does_not_clobber_on_failure(sim_csv, monkeypatch, capsys, tmp_path):
+    """A report folder from an earlier run is left whole when a later run fails on bad
+    input (outputs are written to a temporary file and renamed only when complete)."""
+    out_dir = tmp_path / "rep"
+    assert cli(monkeypatch, capsys, "fit", sim_csv, "--out", out_dir)[0] == 0
+    before = (out_dir / "fit.json").read_bytes()
+    bad = tmp_path / "bad.csv"
+    bad.write_text("T [K],n [cm^-3]\n300,1e16\n200\n")
+    assert cli(monkeypatch, capsys, "fit", bad, "--out", out_dir)[0] == 2
+    assert (out_dir / "fit.json").read_bytes() == before
