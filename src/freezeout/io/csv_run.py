@@ -132,6 +132,28 @@ def _dialect(header_line: str) -> str:
     return max(counts, key=counts.get) if max(counts.values()) > 0 else ","
 
 
+def majority_carrier(point_carrier, temperature, stated: str | None = None):
+    """The run's carrier type (the type of most points) and a note if the sign changes."""
+    n_n = sum(c == "n" for c in point_carrier)
+    n_p = len(point_carrier) - n_n
+    carrier = "n" if n_n > n_p else "p" if n_p > n_n else point_carrier[0]
+    if stated in ("n", "p") and n_n and n_p:
+        carrier = stated
+    return carrier
+
+
+def mixed_note(point_carrier, carrier, temperature, include_mixed: bool) -> str | None:
+    """Plain-language note on points whose Hall sign differs from the run's."""
+    minority = [i for i, c in enumerate(point_carrier) if c != carrier]
+    if not minority:
+        return None
+    t = np.asarray(temperature)[minority]
+    what = "kept in" if include_mixed else "left out of"
+    return (f"the Hall coefficient changes sign (mixed conduction): {len(minority)} point(s) "
+            f"between {t.min():g} K and {t.max():g} K have the opposite sign and are {what} "
+            "the single-carrier fit")
+
+
 def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                  include_mixed: bool = False) -> RunData:
     """Read a reduced run.
@@ -354,20 +376,21 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                              file=fname, line=line_nos[i],
                              column=cols.get(("density", True),
                                              cols.get(("hall_coefficient", True)))[2])
-    n_n = point_type.count("n")
-    n_p = point_type.count("p")
-    carrier = "n" if n_n > n_p else "p" if n_p > n_n else point_type[0]
-    if stated is not None and n_n and n_p:
-        carrier = stated
-    if n_n and n_p:
-        minority = [i for i, c in enumerate(point_type) if c != carrier]
-        tmin, tmax = t[minority].min(), t[minority].max()
-        what = "kept in" if include_mixed else "left out of"
-        notes.append(f"the Hall coefficient changes sign (mixed conduction): {len(minority)} "
-                     f"point(s) between {tmin:g} K and {tmax:g} K have the opposite sign and "
-                     f"are {what} the single-carrier fit")
+    carrier = majority_carrier(point_type, t, stated)
+    note = mixed_note(point_type, carrier, t, include_mixed)
+    if note:
+        notes.append(note)
         if include_mixed:
             point_type = [carrier] * t.size
+    severe = None
+    if flag_col is not None:
+        from freezeout.io.reduced import severe_from_flags
+
+        severe = severe_from_flags(flags)
+        if severe.any():
+            notes.append(f"{int(severe.sum())} point(s) are flagged as failing a severe "
+                         "data-quality check and are left out of the fit unless "
+                         "--include-flagged is given")
 
     return RunData(
         source=fname,
@@ -384,7 +407,7 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         hall_coefficient=rh,
         hall_coefficient_err=rh_err,
         flags=tuple(flags),
-        severe=None,
+        severe=severe,
         metadata=meta,
         notes=tuple(notes),
         ignored_columns=tuple(ignored),

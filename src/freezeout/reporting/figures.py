@@ -51,6 +51,28 @@ def _points(result: FitResult):
     return t, y, err, used, mixed, flagged
 
 
+_NICE_T = (2, 3, 5, 10, 15, 20, 30, 50, 75, 100, 150, 200, 300, 500, 700, 1000, 1500)
+
+
+def _log_temperature_xaxis(ax, temperature):
+    """Log temperature axis with a few round ticks and no crowded minor labels."""
+    from matplotlib.ticker import NullFormatter
+
+    t = np.asarray(temperature, dtype=float)
+    t = t[np.isfinite(t) & (t > 0)]
+    ax.set_xscale("log")
+    lo, hi = t.min() / 1.1, t.max() * 1.1
+    ax.set_xlim(lo, hi)
+    ticks = [v for v in _NICE_T if lo <= v <= hi]
+    # keep ticks at least 12 % of a decade apart in log space
+    kept = []
+    for v in ticks:
+        if not kept or np.log10(v / kept[-1]) > 0.12 * max(np.log10(hi / lo), 1.0):
+            kept.append(v)
+    ax.set_xticks(kept, [f"{v:g}" for v in kept])
+    ax.xaxis.set_minor_formatter(NullFormatter())
+
+
 def _add_temperature_axis(ax):
     """Secondary top axis in kelvin for a 1000/T bottom axis."""
     def fwd(x):
@@ -129,7 +151,7 @@ def residual_axes(result: FitResult, ax=None):
         if (~used).any():
             ax.plot(t[~used], r[~used], "X", ms=5, color=FLAG, label="not fitted")
             ax.legend(loc="best")
-        ax.set_xscale("log")
+        _log_temperature_xaxis(ax, t)
         ax.set_xlabel("temperature [K]")
         ax.set_ylabel("measured / fit − 1 [%]")
         return ax
@@ -244,8 +266,8 @@ def transport_figure(result: FitResult):
             bad = ok & ~used
             if bad.any():
                 ax.plot(t[bad], v[bad], "X", ms=6, color=FLAG)
-            ax.set_xscale("log")
             ax.set_yscale("log")
+            _log_temperature_xaxis(ax, t[ok])
             ax.set_xlabel("temperature [K]")
             ax.set_ylabel(label)
         return fig
