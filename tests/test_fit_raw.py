@@ -17,8 +17,7 @@ def test_raw_file_is_fitted_and_severe_points_left_out():
     res = freezeout.fit_file(RAW, material="Si")
     d = res.to_dict()
     used = np.array(d["data"]["used"])
-    flags = d["data"]["flags"]
-    severe = np.array(["!" in f for f in flags])
+    severe = np.array(d["data"]["severe"])
     assert severe.any() and not used[severe].any()
     assert used[~severe].all()
     assert d["carrier"] == "p" and d["data"]["findings"]

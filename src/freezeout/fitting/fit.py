@@ -458,6 +458,8 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         "used": used.tolist(),
         "point_carrier": list(run.point_carrier),
         "flags": list(run.flags) if run.flags else [""] * run.n_points,
+        "severe": ([bool(x) for x in run.severe] if run.severe is not None
+                   else [False] * run.n_points),
         "resistivity_ohm_cm": _list_or_none(run.resistivity),
         "resistivity_err_ohm_cm": _list_or_none(run.resistivity_err),
         "mobility_cm2_per_Vs": _list_or_none(run.mobility),
