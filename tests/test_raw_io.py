@@ -402,6 +402,21 @@ def cli():
     return app
 
 
+def test_cli_module_is_light_and_defaults_agree():
+    """Importing the command does not import numpy (fast --help); defaults match."""
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-c", "import sys, freezeout.cli.reduce; "
+                          "print('numpy' in sys.modules)"], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "False"
+    from freezeout.cli.reduce import TEMPERATURE_TOLERANCE
+    from freezeout.reduction import DEFAULT_TEMPERATURE_TOLERANCE
+
+    assert TEMPERATURE_TOLERANCE == DEFAULT_TEMPERATURE_TOLERANCE
+
+
 def test_cli_reduce_default_output_and_summary(tmp_path):
     raw = tmp_path / "harrowgate_raw.csv"
     raw.write_bytes(SAMPLE.read_bytes())

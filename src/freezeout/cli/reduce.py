@@ -1,11 +1,15 @@
-"""``freezeout reduce``: raw van der Pauw / Hall readings to a reduced CSV that ``fit`` reads."""
+"""``freezeout reduce``: raw van der Pauw / Hall readings to a reduced CSV that ``fit`` reads.
+
+The numerical stack (numpy, the reduction) is imported only when the command runs, so that
+``freezeout --help`` stays fast.
+"""
 
 from __future__ import annotations
 
 import json
 import math
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.console import Console
@@ -13,11 +17,18 @@ from rich.markup import escape
 from rich.table import Table
 
 from freezeout.errors import InputError
-from freezeout.io.raw import load_raw_run
-from freezeout.io.reduced import write_reduced_csv
-from freezeout.reduction import DEFAULT_TEMPERATURE_TOLERANCE, QualityThresholds, ReducedRun
 
-__all__ = ["default_output", "reduce_command"]
+if TYPE_CHECKING:
+    from freezeout.reduction import QualityThresholds, ReducedRun
+
+__all__ = ["HELP", "TEMPERATURE_TOLERANCE", "default_output", "reduce_command"]
+
+HELP = ("Reduce raw van der Pauw and Hall readings (one row per reading) to a reduced run "
+        "that fit reads, with data-quality findings per temperature.")
+
+#: Default set-point grouping tolerance [K]; equal to
+#: ``freezeout.reduction.DEFAULT_TEMPERATURE_TOLERANCE`` (kept here to avoid importing numpy).
+TEMPERATURE_TOLERANCE = 0.5
 
 _SEVERITY_STYLE = {"info": "cyan", "warning": "yellow", "severe": "bold red"}
 
@@ -39,6 +50,8 @@ def default_output(raw: Path) -> Path:
 
 
 def _parse_thresholds(items: list[str] | None) -> QualityThresholds:
+    from freezeout.reduction import QualityThresholds
+
     overrides = {}
     for item in items or []:
         name, sep, value = item.partition("=")
@@ -113,7 +126,7 @@ def reduce_command(
     temperature_tolerance: Annotated[
         float,
         typer.Option(help="Readings within this many K of a set point's mean join it."),
-    ] = DEFAULT_TEMPERATURE_TOLERANCE,
+    ] = TEMPERATURE_TOLERANCE,
     hall_factor: Annotated[
         float, typer.Option(help="Hall scattering factor r_H for the density r_H/(q|R_H|).")
     ] = 1.0,
@@ -127,6 +140,9 @@ def reduce_command(
     ] = None,
 ) -> None:
     """Reduce raw van der Pauw and Hall readings to a reduced run that `fit` reads."""
+    from freezeout.io.raw import load_raw_run
+    from freezeout.io.reduced import write_reduced_csv
+
     try:
         thresholds = _parse_thresholds(threshold)
         if not (hall_factor > 0 and math.isfinite(hall_factor)):
