@@ -7,8 +7,8 @@
 #     python -m pytest tests/test_storage.py
 #     stop_test_postgres
 # or run it:
-#     eval "$(.ci/postgres.sh start)"
-#     .ci/postgres.sh stop       # uses FREEZEOUT_TEST_POSTGRES_DIR
+#     eval "$(.ci/postgres.sh start)"   # prints export lines
+#     eval "$(.ci/postgres.sh stop)"    # uses FREEZEOUT_TEST_POSTGRES_DIR, prints unset lines
 #
 # PostgreSQL comes from Debian's packages (apt-get install postgresql) when no
 # /usr/lib/postgresql/*/bin/initdb exists. The cluster lives in a fresh temporary
@@ -139,6 +139,8 @@ stop_test_postgres() {
     rm -rf "$dir"
     unset FREEZEOUT_TEST_POSTGRES_URL FREEZEOUT_TEST_POSTGRES_DIR
     unset FREEZEOUT_TEST_POSTGRES_OWNER FREEZEOUT_TEST_POSTGRES_BIN
+    echo "unset FREEZEOUT_TEST_POSTGRES_URL FREEZEOUT_TEST_POSTGRES_DIR"
+    echo "unset FREEZEOUT_TEST_POSTGRES_OWNER FREEZEOUT_TEST_POSTGRES_BIN"
 }
 
 if [ "${BASH_SOURCE[0]}" = "$0" ]; then
