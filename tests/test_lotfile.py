@@ -397,6 +397,9 @@ def test_measured_from_fit_json():
     assert m["material"] == "Si" and m["carrier"] == "p" and m["compensation_ratio"] == 0.05
     assert m["resistivity_ohm_cm_at_T"][1] == {"temperature_K": 296.0, "value": 11.0,
                                                "stderr": 0.1}
+    # a point that failed a severe data-quality check is not used
+    fit["data"]["severe"] = [False, True]
+    assert len(measured_from_fit(fit)["resistivity_ohm_cm_at_T"]) == 1
     fit["data"]["resistivity_ohm_cm"] = None
     assert measured_from_fit(fit)["resistivity_ohm_cm_at_T"] is None
 

@@ -93,7 +93,8 @@ def measured_from_fit(fit: Mapping) -> dict:
         The dict of ``freezeout.fit_file(...).to_dict()``: uses ``material.name``,
         ``carrier``, ``net_doping_cm3``, ``compensation_ratio``, ``warnings`` and, from
         ``data``, ``temperature_K`` with ``resistivity_ohm_cm`` and (when present)
-        ``resistivity_err_ohm_cm`` (standard uncertainty per point).
+        ``resistivity_err_ohm_cm`` (standard uncertainty per point) and ``severe`` (points
+        that failed a severe data-quality check are left out).
 
     Returns
     -------
@@ -110,10 +111,11 @@ def measured_from_fit(fit: Mapping) -> dict:
     temps = data.get("temperature_K") or []
     rhos = data.get("resistivity_ohm_cm") or []
     errs = data.get("resistivity_err_ohm_cm") or [None] * len(rhos)
+    severe = data.get("severe") or [False] * len(rhos)
     points = []
-    for t, r, e in zip(temps, rhos, errs, strict=False):
+    for t, r, e, bad in zip(temps, rhos, errs, severe, strict=False):
         t, r = _finite_or_none(t), _finite_or_none(r)
-        if t is not None and r is not None and r > 0:
+        if t is not None and r is not None and r > 0 and not bad:
             points.append({"temperature_K": t, "value": r, "stderr": _finite_or_none(e)})
     provenance = fit.get("provenance") or {}
     return {
