@@ -134,7 +134,12 @@ stop_test_postgres() {
         user="$(stat -c %U "$dir")"
     fi
     if [ -f "$dir/data/postmaster.pid" ]; then
-        _fzpg_as "$user" "$bindir/pg_ctl" -D "$dir/data" -m fast -w -t 60 stop >/dev/null
+        if ! _fzpg_as "$user" "$bindir/pg_ctl" -D "$dir/data" -m fast -w -t 60 stop \
+                >/dev/null; then
+            echo "postgres.sh: fast shutdown failed; stopping immediately" >&2
+            _fzpg_as "$user" "$bindir/pg_ctl" -D "$dir/data" -m immediate -w -t 30 stop \
+                >/dev/null
+        fi
     fi
     rm -rf "$dir"
     unset FREEZEOUT_TEST_POSTGRES_URL FREEZEOUT_TEST_POSTGRES_DIR
