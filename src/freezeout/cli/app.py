@@ -48,31 +48,30 @@ _register_optional()
 
 def main() -> None:
     """Console-script entry point: run the app, turning errors into messages and exit codes."""
-    import click
-
     from freezeout.errors import FitError, InputError
 
     try:
         rv = app(standalone_mode=False)
-    except click.exceptions.Exit as exc:
-        sys.exit(exc.exit_code)
-    except click.exceptions.Abort:
-        sys.stderr.write("aborted\n")
-        sys.exit(130)
-    except click.ClickException as exc:
-        exc.show()
-        sys.exit(2)
     except InputError as exc:
         sys.stderr.write(f"freezeout: error: {exc}\n")
         sys.exit(2)
     except FitError as exc:
         sys.stderr.write(f"freezeout: fit failed: {exc}\n")
         sys.exit(1)
+    except typer.Exit as exc:
+        sys.exit(exc.exit_code)
+    except typer.Abort:
+        sys.stderr.write("aborted\n")
+        sys.exit(130)
     except KeyboardInterrupt:
         sys.stderr.write("interrupted\n")
         sys.exit(130)
-    except Exception as exc:  # a bug: say so plainly; FREEZEOUT_DEBUG=1 shows the traceback
-        if os.environ.get("FREEZEOUT_DEBUG"):
+    except Exception as exc:
+        if hasattr(exc, "show") and hasattr(exc, "exit_code"):
+            # a usage error of the command-line parser (typer/click): its own message
+            exc.show()
+            sys.exit(exc.exit_code)
+        if os.environ.get("FREEZEOUT_DEBUG"):  # a bug: FREEZEOUT_DEBUG=1 shows the traceback
             raise
         sys.stderr.write(f"freezeout: internal error: {type(exc).__name__}: {exc}\n"
                          "(set FREEZEOUT_DEBUG=1 for the traceback, and please report it)\n")
