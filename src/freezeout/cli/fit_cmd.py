@@ -24,8 +24,9 @@ HELP = ("Fit a temperature run (reduced CSV or raw readings) to the carrier mode
 
 
 def fit_command(
-    run: Annotated[Path, typer.Argument(help="Run file: reduced CSV, or raw van der Pauw/Hall "
-                                        "readings (recognised and reduced on the way in).")],
+    run: Annotated[Path, typer.Argument(
+        metavar="RUN.csv", help="Run file: reduced CSV, or raw van der Pauw/Hall readings "
+        "(recognised and reduced on the way in).")],
     material: MaterialOpt = None,
     material_file: MaterialFileOpt = None,
     donors: Annotated[int, typer.Option(help="Donor levels: partially ionized levels for an "
