@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -316,6 +316,43 @@ def _worst(metrics: Mapping[str, float]) -> tuple[str, float]:
     return key, float(finite[key])
 
 
+def _finding(code: str, temperature: float, metric: float, warning: float, severe: float,
+             describe: Callable[[float], tuple[dict, str]], *, below: bool = False,
+             ) -> Finding | None:
+    """Finding of ``code`` if ``metric`` crosses a threshold (see :func:`_grade`), else None.
+
+    ``describe(limit)`` gives the finding's values and message for the crossed threshold
+    ``limit``; it is called only for a failing metric.
+    """
+    grade = _grade(metric, warning, severe, below=below)
+    if grade is None:
+        return None
+    severity, limit = grade
+    values, message = describe(limit)
+    return Finding(code, severity, message, float(temperature), values, float(limit))
+
+
+def _worst_finding(code: str, temperature: float, metrics: Mapping[str, float], warning: float,
+                   severe: float, name: str, message: Callable[[str, float, float], str], *,
+                   label: str = "configuration", inputs: Mapping[str, object] | None = None,
+                   ) -> Finding | None:
+    """:func:`_finding` for the worst of per-configuration metrics (NaN ignored).
+
+    The values are the worst metric as ``name``, its configuration as ``label``, each
+    configuration's metric as ``"<configuration> <name>"``, then ``inputs``;
+    ``message(key, worst, limit)`` gives the message.
+    """
+    key, worst = _worst(metrics)
+
+    def describe(limit: float) -> tuple[dict, str]:
+        values: dict = {name: worst, label: key}
+        values.update({f"{k} {name}": float(v) for k, v in metrics.items()})
+        values.update(inputs or {})
+        return values, message(key, worst, limit)
+
+    return _finding(code, temperature, worst, warning, severe, describe)
+
+
 def check_reciprocity(
     temperature: float,
     pairs: Mapping[str, tuple[float, float]],
@@ -343,17 +380,14 @@ def check_reciprocity(
     """
     th = thresholds or QualityThresholds()
     metrics = {k: float(relative_difference(*v)) for k, v in pairs.items()}
-    key, worst = _worst(metrics)
-    grade = _grade(worst, th.reciprocity_warning, th.reciprocity_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values: dict = {"mismatch": worst, "pair": key}
-    values.update({f"{k} mismatch": m for k, m in metrics.items()})
-    values.update({f"{k} [ohm]": list(v) for k, v in pairs.items()})
-    msg = (f"reciprocal resistances {key} differ by {_pct(worst)} (threshold {_pct(limit)}): "
-           "a poor contact or an inhomogeneous sample")
-    return Finding("reciprocity", severity, msg, float(temperature), values, float(limit))
+    return _worst_finding(
+        "reciprocity", temperature, metrics, th.reciprocity_warning, th.reciprocity_severe,
+        "mismatch",
+        lambda key, worst, limit: (
+            f"reciprocal resistances {key} differ by {_pct(worst)} (threshold {_pct(limit)}): "
+            "a poor contact or an inhomogeneous sample"),
+        label="pair", inputs={f"{k} [ohm]": list(v) for k, v in pairs.items()},
+    )
 
 
 def check_current_reversal(
@@ -379,17 +413,14 @@ def check_current_reversal(
         A ``current-reversal`` finding for the worst configuration, or None.
     """
     th = thresholds or QualityThresholds()
-    key, worst = _worst(asymmetries)
-    grade = _grade(worst, th.current_reversal_warning, th.current_reversal_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values: dict = {"asymmetry": worst, "configuration": key}
-    values.update({f"{k} asymmetry": float(v) for k, v in asymmetries.items()})
-    msg = (f"{key}: the resistance differs by {_pct(worst)} between the two current "
-           f"directions (threshold {_pct(limit)}): non-ohmic contacts, or an offset "
-           "comparable to the signal")
-    return Finding("current-reversal", severity, msg, float(temperature), values, float(limit))
+    return _worst_finding(
+        "current-reversal", temperature, asymmetries, th.current_reversal_warning,
+        th.current_reversal_severe, "asymmetry",
+        lambda key, worst, limit: (
+            f"{key}: the resistance differs by {_pct(worst)} between the two current "
+            f"directions (threshold {_pct(limit)}): non-ohmic contacts, or an offset "
+            "comparable to the signal"),
+    )
 
 
 def check_ratio(
@@ -426,14 +457,13 @@ def check_ratio(
     th = thresholds or QualityThresholds()
     lo, hi = sorted((abs(float(r_a)), abs(float(r_b))))
     ratio = hi / lo if lo > 0 else math.inf
-    grade = _grade(ratio, th.ratio_warning, th.ratio_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values = {"ratio": ratio, f"{labels[0]} [ohm]": float(r_a), f"{labels[1]} [ohm]": float(r_b)}
-    msg = (f"{labels[0]}/{labels[1]} ratio is {ratio:.3g} (threshold {limit:.3g}): sample or "
-           "contact geometry far from symmetric, or an inhomogeneous sample")
-    return Finding("ratio", severity, msg, float(temperature), values, float(limit))
+    return _finding(
+        "ratio", temperature, ratio, th.ratio_warning, th.ratio_severe,
+        lambda limit: (
+            {"ratio": ratio, f"{labels[0]} [ohm]": float(r_a), f"{labels[1]} [ohm]": float(r_b)},
+            f"{labels[0]}/{labels[1]} ratio is {ratio:.3g} (threshold {limit:.3g}): sample or "
+            "contact geometry far from symmetric, or an inhomogeneous sample"),
+    )
 
 
 def check_hall_offset(
@@ -464,14 +494,14 @@ def check_hall_offset(
     th = thresholds or QualityThresholds()
     off = abs(float(offset_voltage))
     ratio = abs(float(hall_voltage)) / off if off > 0 else math.inf
-    grade = _grade(ratio, th.hall_offset_warning, th.hall_offset_severe, below=True)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values = {"ratio": ratio, "V_H [V]": float(hall_voltage), "offset [V]": off}
-    msg = (f"the Hall voltage is {_pct(ratio)} of the offset voltage it is extracted from "
-           f"(threshold {_pct(limit)}): raise the current or field, or realign the contacts")
-    return Finding("hall-offset", severity, msg, float(temperature), values, float(limit))
+    return _finding(
+        "hall-offset", temperature, ratio, th.hall_offset_warning, th.hall_offset_severe,
+        lambda limit: (
+            {"ratio": ratio, "V_H [V]": float(hall_voltage), "offset [V]": off},
+            f"the Hall voltage is {_pct(ratio)} of the offset voltage it is extracted from "
+            f"(threshold {_pct(limit)}): raise the current or field, or realign the contacts"),
+        below=True,
+    )
 
 
 def check_field_reversal(
@@ -500,15 +530,14 @@ def check_field_reversal(
     """
     th = thresholds or QualityThresholds()
     asym = float(relative_difference(slope_pos, slope_neg))
-    grade = _grade(asym, th.field_reversal_warning, th.field_reversal_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values = {"asymmetry": asym, "slope(+B) [ohm/T]": float(slope_pos),
-              "slope(-B) [ohm/T]": float(slope_neg)}
-    msg = (f"the Hall signal differs by {_pct(asym)} between +B and -B (threshold "
-           f"{_pct(limit)}): remanent field, field-dependent offset or non-reciprocal contacts")
-    return Finding("field-reversal", severity, msg, float(temperature), values, float(limit))
+    return _finding(
+        "field-reversal", temperature, asym, th.field_reversal_warning, th.field_reversal_severe,
+        lambda limit: (
+            {"asymmetry": asym, "slope(+B) [ohm/T]": float(slope_pos),
+             "slope(-B) [ohm/T]": float(slope_neg)},
+            f"the Hall signal differs by {_pct(asym)} between +B and -B (threshold "
+            f"{_pct(limit)}): remanent field, field-dependent offset or non-reciprocal contacts"),
+    )
 
 
 def check_temperature_drift(
@@ -533,14 +562,14 @@ def check_temperature_drift(
     mean = float(np.mean(t))
     spread = float(np.max(t) - np.min(t))
     drift = spread / mean
-    grade = _grade(drift, th.temperature_drift_warning, th.temperature_drift_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values = {"drift": drift, "T_min [K]": float(np.min(t)), "T_max [K]": float(np.max(t))}
-    msg = (f"temperature drifted by {spread:.3g} K ({_pct(drift)} of {mean:.4g} K, threshold "
-           f"{_pct(limit)}) during the set point")
-    return Finding("temperature-drift", severity, msg, mean, values, float(limit))
+    return _finding(
+        "temperature-drift", mean, drift, th.temperature_drift_warning,
+        th.temperature_drift_severe,
+        lambda limit: (
+            {"drift": drift, "T_min [K]": float(np.min(t)), "T_max [K]": float(np.max(t))},
+            f"temperature drifted by {spread:.3g} K ({_pct(drift)} of {mean:.4g} K, threshold "
+            f"{_pct(limit)}) during the set point"),
+    )
 
 
 def check_nonlinearity(
@@ -565,16 +594,13 @@ def check_nonlinearity(
         A ``non-linearity`` finding for the worst configuration, or None.
     """
     th = thresholds or QualityThresholds()
-    key, worst = _worst(nonlinearities)
-    grade = _grade(worst, th.nonlinearity_warning, th.nonlinearity_severe)
-    if grade is None:
-        return None
-    severity, limit = grade
-    values: dict = {"non-linearity": worst, "configuration": key}
-    values.update({f"{k} non-linearity": float(v) for k, v in nonlinearities.items()})
-    msg = (f"{key}: V departs from a straight line in I by {_pct(worst)} of the signal "
-           f"(threshold {_pct(limit)}): non-ohmic contacts or self-heating")
-    return Finding("non-linearity", severity, msg, float(temperature), values, float(limit))
+    return _worst_finding(
+        "non-linearity", temperature, nonlinearities, th.nonlinearity_warning,
+        th.nonlinearity_severe, "non-linearity",
+        lambda key, worst, limit: (
+            f"{key}: V departs from a straight line in I by {_pct(worst)} of the signal "
+            f"(threshold {_pct(limit)}): non-ohmic contacts or self-heating"),
+    )
 
 
 def check_repeats(
