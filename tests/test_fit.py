@@ -159,3 +159,48 @@ def test_result_dict_is_json_and_complete():
     assert set(lv["energy_eV"]) == {"value", "stderr", "ci95"}
     assert d["levels"][1]["energy_eV"] is None
     assert set(d["statistics"]) >= {"chi2", "reduced_chi2", "aic", "bic", "n_points"}
+
+
+def test_understated_uncertainties_inflate_the_errors():
+    """Stated errors 10x too small: reduced chi^2 ~ 100, the standard errors are inflated by
+    sqrt(reduced chi^2) (Birge ratio; common practice, no source) and the fit says so."""
+    honest = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, seed=5)
+    from dataclasses import replace
+
+    small = replace(honest, density_err=honest.density_err / 10)
+    a = fit_run(honest, get_material("Si"))
+    b = fit_run(small, get_material("Si"))
+    assert b.reduced_chi2 == pytest.approx(100 * a.reduced_chi2, rel=0.05)
+    # with errors sigma/10 the unscaled covariance is 1/100 of a's and the reduced chi^2 is 100
+    # times a's, so after inflation b's standard error is a's unscaled one times
+    # sqrt(redchi_a); a's own is unscaled unless its reduced chi^2 exceeds 1
+    expected = a.levels[0].energy.stderr * np.sqrt(min(a.reduced_chi2, 1.0))
+    assert b.levels[0].energy.stderr == pytest.approx(expected, rel=0.02)
+    assert any("inflated" in w for w in b.warnings)
+
+
+def test_common_scale_uncertainty_added_to_concentrations_only():
+    """A relative uncertainty shared by all points (thickness) adds in quadrature to every
+    concentration and to the net doping, not to energies or the compensation ratio (GUM,
+    JCGM 100:2008, 5.2: fully correlated inputs)."""
+    from dataclasses import replace
+
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, seed=6)
+    a = fit_run(run, get_material("Si"))
+    b = fit_run(replace(run, scale_uncertainty=0.03), get_material("Si"))
+    ca, cb = a.levels[0].concentration, b.levels[0].concentration
+    assert cb.stderr == pytest.approx(np.hypot(ca.stderr, 0.03 * ca.value), rel=1e-6)
+    assert b.net_doping.stderr == pytest.approx(
+        np.hypot(a.net_doping.stderr, 0.03 * a.net_doping.value), rel=1e-6)
+    assert b.levels[0].energy.stderr == pytest.approx(a.levels[0].energy.stderr, rel=1e-9)
+    assert b.compensation_ratio.stderr == pytest.approx(a.compensation_ratio.stderr, rel=1e-9)
+
+
+def test_split_scale_uncertainty():
+    from freezeout.io.csv_run import split_scale_uncertainty
+
+    d = np.array([1e15, 2e15])
+    err = d * np.hypot(0.01, 0.02)
+    rest, s = split_scale_uncertainty(d, err, 0.02)
+    np.testing.assert_allclose(rest / d, 0.01, rtol=1e-12)
+    assert s == 0.02

@@ -369,11 +369,27 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     params = out.params
     free = [n for n in out.var_names]
     covar = out.covar if out.covar is not None else None
+    # Weighted fits keep the stated uncertainties, but a reduced chi^2 above 1 shows that they
+    # miss part of the point-to-point scatter: then the covariance is inflated by it (never
+    # shrunk), the usual Birge-ratio practice.
+    inflation = 1.0
+    if weighted and out.nfree > 0 and np.isfinite(out.redchi) and out.redchi > 1.0:
+        inflation = float(out.redchi)
+        if covar is not None:
+            covar = covar * inflation
     dof = out.nfree
     tq = float(stats.t.ppf(0.975, dof)) if dof > 0 else math.nan
-    se = {n: (params[n].stderr if params[n].stderr is not None else math.nan) for n in params}
+    se = {n: (params[n].stderr * math.sqrt(inflation) if params[n].stderr is not None
+              else math.nan) for n in params}
     for n in internal_fix:
         se[n] = 0.0
+    # a relative uncertainty common to every density (thickness) moves all concentrations
+    # together: add it to each log10 concentration (energies and ratios do not change)
+    scale = float(run.scale_uncertainty)
+    if scale > 0:
+        for n in se:
+            if n.startswith("log10_"):
+                se[n] = math.hypot(se[n], scale / _LN10)
     ms = "D" if run.carrier == "n" else "A"
     mn = "A" if run.carrier == "n" else "D"
     major_kind = "donor" if run.carrier == "n" else "acceptor"
@@ -417,7 +433,7 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         return float(math.sqrt(max(vec @ covar @ vec, 0.0)))
 
     net = n_maj - n_min
-    net_est = _estimate_linear(net, propagate(grad_net), tq)
+    net_est = _estimate_linear(net, math.hypot(propagate(grad_net), scale * net), tq)
     if model_used.compensated:
         k = n_min / n_maj
         se_lnk = propagate(grad_lnk)
@@ -450,6 +466,10 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     warnings = list(run.notes)
     warnings += _warnings(run, model_used, out, params, se, free, corr, public, values, g, tq,
                           weighted, profile_upper, n_maj)
+    if scale > 0:
+        warnings.append(f"a {100 * scale:.2g} % uncertainty common to every point (sample "
+                        "thickness) is added to the concentrations; it does not weight the "
+                        "fit")
     data = {
         "temperature_K": run.temperature.tolist(),
         "density_cm3": run.density.tolist(),
@@ -466,6 +486,7 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         "mobility_err_cm2_per_Vs": _list_or_none(run.mobility_err),
         "hall_coefficient_cm3_per_C": _list_or_none(run.hall_coefficient),
         "findings": [f.to_dict() for f in run.findings],
+        "scale_uncertainty": scale,
     }
     return FitResult(
         carrier=run.carrier,
@@ -490,6 +511,7 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         fixed={k.removeprefix("log10_"): (10.0 ** v if k.startswith("log10_") else v)
                for k, v in internal_fix.items()},
         optimizer_message=str(out.message),
+        error_inflation=math.sqrt(inflation),
         raw=out,
     )
 
@@ -546,8 +568,8 @@ def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, we
                     w.append(f"{public[a]} and {public[b]} are strongly correlated "
                              f"(r = {corr[a, b]:+.3f}): the data constrain a combination of "
                              "them better than each one")
-    if weighted and out.nfree > 0 and out.redchi > 4.0:
-        w.append(f"reduced chi^2 = {out.redchi:.3g}: the model does not describe the data "
-                 "within their stated uncertainties (or those are underestimated); the "
-                 "standard errors are not rescaled")
+    if weighted and out.nfree > 0 and out.redchi > 2.0:
+        w.append(f"reduced chi^2 = {out.redchi:.3g}: the data scatter more than their stated "
+                 "uncertainties allow (or the model misses something); the standard errors "
+                 f"are inflated by sqrt(reduced chi^2) = {math.sqrt(out.redchi):.3g}")
     return w

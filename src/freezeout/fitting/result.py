@@ -116,6 +116,9 @@ class FitResult:
         Parameters held fixed, public name -> value.
     optimizer_message
         Message of the local optimizer for the retained start.
+    error_inflation
+        Factor applied to the standard errors of a weighted fit, sqrt(reduced chi^2) when
+        that exceeds 1, else 1. [1]
     raw
         The lmfit MinimizerResult of the retained start (not serialized).
     """
@@ -141,6 +144,7 @@ class FitResult:
     data: dict
     fixed: dict = field(default_factory=dict)
     optimizer_message: str = ""
+    error_inflation: float = 1.0
     raw: Any = field(default=None, repr=False, compare=False)
 
     def to_dict(self) -> dict:
@@ -155,7 +159,8 @@ class FitResult:
             "statistics": {"chi2": _f(self.chi2), "reduced_chi2": _f(self.reduced_chi2),
                            "aic": _f(self.aic), "bic": _f(self.bic),
                            "n_points": self.n_points, "n_parameters": self.n_parameters,
-                           "weighted": self.weighted, "model": self.statistics_model},
+                           "weighted": self.weighted, "model": self.statistics_model,
+                           "error_inflation": _f(self.error_inflation)},
             "correlation": {"parameters": list(self.parameter_names), "matrix": corr},
             "fixed": {k: _f(v) for k, v in self.fixed.items()},
             "warnings": list(self.warnings),

@@ -154,6 +154,20 @@ def mixed_note(point_carrier, carrier, temperature, include_mixed: bool) -> str 
             "the single-carrier fit")
 
 
+def split_scale_uncertainty(density, density_err, scale: float):
+    """Take a relative uncertainty common to all points out of per-point uncertainties.
+
+    ``density_err`` holds the total (point-to-point and common parts in quadrature); the
+    point-to-point part is returned with the common relative part ``scale``. The remainder is
+    floored at 1e-6 relative so that no point gets an infinite weight.
+    """
+    if density_err is None or not scale > 0:
+        return density_err, 0.0
+    rel = density_err / density
+    rest = np.sqrt(np.maximum(rel**2 - scale**2, 1e-12))
+    return rest * density, float(scale)
+
+
 def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
                  include_mixed: bool = False) -> RunData:
     """Read a reduced run.
@@ -367,6 +381,16 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         point_type = ["p" if x > 0 else "n" for x in rh]
         density = hall_factor / (Q * np.abs(rh))
         density_err = None if rh_err is None else density * rh_err / np.abs(rh)
+    scale = 0.0
+    if density_err is not None and "reduce" in meta.get("produced_by", ""):
+        # our own reduced CSV: its uncertainties include the thickness, common to all points
+        from freezeout.io.raw import parse_length
+
+        try:
+            t_val, t_err = parse_length(meta.get("thickness", ""), "thickness")
+        except ValueError:
+            t_val, t_err = 1.0, 0.0
+        density_err, scale = split_scale_uncertainty(density, density_err, t_err / t_val)
     if density_err is not None:
         if np.all(np.isnan(density_err)):
             density_err = None
@@ -411,4 +435,5 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         metadata=meta,
         notes=tuple(notes),
         ignored_columns=tuple(ignored),
+        scale_uncertainty=scale,
     )

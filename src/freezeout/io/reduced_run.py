@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from freezeout.errors import InputError
-from freezeout.io.csv_run import majority_carrier, mixed_note, sha256_of
+from freezeout.io.csv_run import majority_carrier, mixed_note, sha256_of, split_scale_uncertainty
 from freezeout.io.run import RunData
 
 
@@ -35,14 +35,18 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
         notes.append(f"{n_severe} point(s) failed a severe data-quality check and are left out "
                      "of the fit unless --include-flagged is given (see the data-quality "
                      "section)")
+    density = np.asarray(reduced.density, dtype=float)
+    density_err, scale = split_scale_uncertainty(
+        density, np.asarray(reduced.density_err, dtype=float),
+        float(reduced.thickness_err) / float(reduced.thickness) if reduced.thickness else 0.0)
     meta = dict(reduced.metadata)
     meta.setdefault("reduced_from", Path(path).name)
     return RunData(
         source=str(path),
         sha256=sha256_of(Path(path)),
         temperature=np.asarray(reduced.temperature, dtype=float),
-        density=np.asarray(reduced.density, dtype=float),
-        density_err=np.asarray(reduced.density_err, dtype=float),
+        density=density,
+        density_err=density_err,
         carrier=carrier,
         point_carrier=point_carrier,
         resistivity=np.asarray(reduced.resistivity, dtype=float),
@@ -56,4 +60,5 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
         metadata=meta,
         notes=tuple(notes),
         findings=tuple(reduced.findings),
+        scale_uncertainty=scale,
     )

@@ -22,7 +22,8 @@ class RunData:
     density
         Hall carrier density of the majority carrier, r_H already applied. [cm^-3]
     density_err
-        Standard uncertainty of ``density`` per point, or None when the file gave none. [cm^-3]
+        Point-to-point standard uncertainty of ``density``, or None when the file gave none.
+        [cm^-3]
     carrier
         Majority carrier of the run, ``"n"`` or ``"p"``.
     point_carrier
@@ -46,6 +47,10 @@ class RunData:
         Data-quality findings (objects with ``to_dict()``) from a reduction, if any.
     ignored_columns
         Header names of columns the reader did not use.
+    scale_uncertainty
+        Relative standard uncertainty common to every density (the sample thickness, for a
+        reduced Hall run), kept out of ``density_err`` because it moves all points together;
+        the fit adds it to the concentrations afterwards. [1]
     """
 
     source: str
@@ -67,6 +72,7 @@ class RunData:
     notes: tuple[str, ...] = ()
     findings: tuple = ()
     ignored_columns: tuple[str, ...] = ()
+    scale_uncertainty: float = 0.0
 
     @property
     def n_points(self) -> int:
