@@ -300,11 +300,14 @@ def _profile_upper(problem: _Problem, best, name: str, weighted: bool) -> float:
 
     The parameter is held at trial values above its best fit while the others are refitted;
     the limit is where chi^2 rises by 3.84 (chi^2 with one degree of freedom at 95 %; the
-    rise is taken relative to the reduced chi^2 when the fit is unweighted). Returns the
+    rise is scaled by the reduced chi^2 when the fit is unweighted or when it exceeds 1,
+    as the standard errors are). Returns the
     upper bound of the parameter when the data never exclude larger values.
     """
     base = best.params
-    scale = 1.0 if weighted else max(best.redchi, 1e-300)
+    # in units of the residual variance: the stated one (weighted fit, inflated when the
+    # reduced chi^2 exceeds 1) or the fitted one (unweighted)
+    scale = max(best.redchi, 1.0) if weighted else max(best.redchi, 1e-300)
     threshold = best.chisqr + 3.84 * scale
     hi_bound = base[name].max
 
