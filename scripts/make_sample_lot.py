@@ -131,15 +131,16 @@ def full_run(wafer: str, nd: float, ed: float, na: float, rng) -> None:
               {"T [K]": sim.temperature, "n [cm^-3]": n, "n_err [cm^-3]": NOISE * n}, meta)
 
 
-def single_point(wafer: str, net: float, rng) -> None:
+def single_point(wafer: str, net: float, rng, out: Path = OUT, lot: str = "KRW-2611-07"
+                 ) -> None:
     t = silicon.REFERENCE_TEMPERATURE_K
     n = float(noisy(np.array([net]), NOISE, rng)[0])
     rho_true = float(silicon.resistivity_from_dopant_density(net, "phosphorus"))
     rho = float(noisy(np.array([rho_true]), 0.01, rng)[0])
-    meta = {**COMMON, "sample": f"KRW-2611-07-{wafer} (fictional)",
+    meta = {**COMMON, "lot": lot, "sample": f"{lot}-{wafer} (fictional)",
             "note": "single room-temperature result (Hall and van der Pauw at 23 degC)",
             "truth": f"N_D - N_A = {net:.4g} cm^-3; rho from ASTM F723 of it, +-1 % noise"}
-    write_csv(OUT / "runs" / f"{wafer.lower()}_room_temperature.csv",
+    write_csv(out / "runs" / f"{wafer.lower()}_room_temperature.csv",
               {"T [K]": np.array([t]), "n [cm^-3]": np.array([n]),
                "n_err [cm^-3]": np.array([NOISE * n]), "rho [ohm cm]": np.array([rho]),
                "rho_err [ohm cm]": np.array([0.01 * rho])}, meta)

@@ -9,15 +9,7 @@ import sys
 import pytest
 
 import freezeout
-from freezeout.cli.app import main
-
-
-def cli(monkeypatch, capsys, *args):
-    monkeypatch.setattr(sys, "argv", ["freezeout", *map(str, args)])
-    with pytest.raises(SystemExit) as info:
-        main()
-    out = capsys.readouterr()
-    return info.value.code, out.out, out.err
+from cli_runner import cli
 
 
 @pytest.fixture

@@ -7,24 +7,17 @@ plus one lot of invented single-point results qualified end to end.
 from __future__ import annotations
 
 import json
-import sys
 from pathlib import Path
 
 import pytest
 
 import conftest_storage as cs
-from freezeout.cli.app import main
+from cli_runner import cli
 from freezeout.storage.db import open_store
 
 OTHER = "Fenwick Hollow Silicon"  # a second fictional supplier
 
 
-def cli(monkeypatch, capsys, *args):
-    monkeypatch.setattr(sys, "argv", ["freezeout", *map(str, args)])
-    with pytest.raises(SystemExit) as info:
-        main()
-    out = capsys.readouterr()
-    return info.value.code, out.out, out.err
 
 
 @pytest.fixture

@@ -11,14 +11,13 @@ import csv
 import io
 import json
 import shutil
-import sys
 from pathlib import Path
 
 import pytest
 from sqlalchemy import create_engine, func, select
 
+from cli_runner import cli
 from freezeout.claims.conformity import DEFERENCE, RULE_IN_WORDS
-from freezeout.cli.app import main
 from freezeout.physics.materials import get_material
 from freezeout.storage.db import fit_records, lot_records
 
@@ -27,12 +26,6 @@ SAMPLE = ROOT / "sample_data" / "lot_kestrel_2026-11" / "lot.toml"
 HEADER = "T [K],n [cm^-3],n_err [cm^-3],rho [ohm cm],rho_err [ohm cm]"
 
 
-def cli(monkeypatch, capsys, *args):
-    monkeypatch.setattr(sys, "argv", ["freezeout", *map(str, args)])
-    with pytest.raises(SystemExit) as info:
-        main()
-    out = capsys.readouterr()
-    return info.value.code, out.out, out.err
 
 
 def counts(db_file: Path) -> tuple[int, int]:
