@@ -45,7 +45,6 @@ References
 
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping, Sequence
 
 from freezeout.claims import silicon
@@ -61,6 +60,7 @@ from freezeout.claims.conformity import (
 )
 from freezeout.claims.lotfile import Claim, Decision, LotFile, is_silicon
 from freezeout.errors import InputError
+from freezeout.numbers import finite_or_none
 
 #: Claims this close to the F723 reference temperature (23 degC) may use the conversion;
 #: common practice for "room temperature" claims, no source. [K]
@@ -73,15 +73,6 @@ DEFAULT_TEMPERATURE_TOLERANCE_K = 1.0
 #: silicon) gets a caveat note; common practice, no source. [1]
 COMPENSATION_NOTE_THRESHOLD = 0.1
 
-
-def _finite_or_none(x) -> float | None:
-    if x is None:
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
 
 
 def measured_from_fit(fit: Mapping) -> dict:
@@ -105,8 +96,8 @@ def measured_from_fit(fit: Mapping) -> dict:
     name = material.get("name") if isinstance(material, Mapping) else material
     net = fit.get("net_doping_cm3") or {}
     comp = fit.get("compensation_ratio")
-    comp_v = _finite_or_none(comp.get("value")) if isinstance(comp, Mapping) else \
-        _finite_or_none(comp)
+    comp_v = finite_or_none(comp.get("value")) if isinstance(comp, Mapping) else \
+        finite_or_none(comp)
     data = fit.get("data") or {}
     temps = data.get("temperature_K") or []
     rhos = data.get("resistivity_ohm_cm") or []
@@ -114,9 +105,9 @@ def measured_from_fit(fit: Mapping) -> dict:
     severe = data.get("severe") or [False] * len(rhos)
     points = []
     for t, r, e, bad in zip(temps, rhos, errs, severe, strict=False):
-        t, r = _finite_or_none(t), _finite_or_none(r)
+        t, r = finite_or_none(t), finite_or_none(r)
         if t is not None and r is not None and r > 0 and not bad:
-            points.append({"temperature_K": t, "value": r, "stderr": _finite_or_none(e)})
+            points.append({"temperature_K": t, "value": r, "stderr": finite_or_none(e)})
     provenance = fit.get("provenance") or {}
     return {
         "material": name,
@@ -137,9 +128,9 @@ def _resistivity_points(measured: Mapping) -> list[dict]:
     items = [r] if isinstance(r, Mapping) else list(r)
     out = []
     for p in items:
-        t, v = _finite_or_none(p.get("temperature_K")), _finite_or_none(p.get("value"))
+        t, v = finite_or_none(p.get("temperature_K")), finite_or_none(p.get("value"))
         if t is not None and v is not None and v > 0:
-            out.append({"temperature_K": t, "value": v, "stderr": _finite_or_none(
+            out.append({"temperature_K": t, "value": v, "stderr": finite_or_none(
                 p.get("stderr"))})
     return out
 
@@ -147,13 +138,13 @@ def _resistivity_points(measured: Mapping) -> list[dict]:
 def _net_doping(measured: Mapping, where: str, claim: Claim) -> tuple[float, float | None,
                                                                        list[str]]:
     nd = measured.get("net_doping_cm3")
-    value = _finite_or_none(nd.get("value")) if isinstance(nd, Mapping) else None
+    value = finite_or_none(nd.get("value")) if isinstance(nd, Mapping) else None
     if value is None:
         raise InputError(f"{where}: the measurement gives no net doping for {claim.key} "
                          f"({claim.quantity})", column=claim.key)
     notes = []
     raw_u = nd.get("stderr")
-    u = _finite_or_none(raw_u)
+    u = finite_or_none(raw_u)
     if u is not None and u < 0:
         raise InputError(f"{where}: negative net-doping uncertainty {u:g}", column=claim.key)
     if u is None:
@@ -245,7 +236,7 @@ def evaluate_claim(
         if abs(dt) > 0.5:
             notes.append(f"ASTM F723 refers to 23 degC (296.15 K); the claim is at "
                          f"{claim.temperature_K:g} K; no temperature correction applied")
-        comp = _finite_or_none(measured.get("compensation_ratio"))
+        comp = finite_or_none(measured.get("compensation_ratio"))
         if comp is not None and comp > COMPENSATION_NOTE_THRESHOLD:
             notes.append(f"ASTM F723 is for uncompensated silicon; the fitted compensation "
                          f"ratio is {comp:.2g}, so the converted resistivity is a lower bound")

@@ -2,21 +2,15 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
+from freezeout.numbers import finite_or_none
+
 SCHEMA_VERSION = 1
 
-
-def _f(x) -> float | None:
-    """Float for JSON, None for NaN/inf."""
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -39,8 +33,8 @@ class Estimate:
 
     def to_dict(self) -> dict:
         """JSON form: ``{"value", "stderr", "ci95": [lo, hi]}`` (None where undetermined)."""
-        return {"value": _f(self.value), "stderr": _f(self.stderr),
-                "ci95": [_f(self.ci95[0]), _f(self.ci95[1])]}
+        return {"value": finite_or_none(self.value), "stderr": finite_or_none(self.stderr),
+                "ci95": [finite_or_none(self.ci95[0]), finite_or_none(self.ci95[1])]}
 
 
 @dataclass(frozen=True)
@@ -149,20 +143,21 @@ class FitResult:
 
     def to_dict(self) -> dict:
         """The JSON document printed by ``freezeout fit --json``."""
-        corr = [[_f(x) for x in row] for row in np.asarray(self.correlation)]
+        corr = [[finite_or_none(x) for x in row] for row in np.asarray(self.correlation)]
         return {
             "schema_version": SCHEMA_VERSION,
             "carrier": self.carrier,
             "levels": [lv.to_dict() for lv in self.levels],
             "compensation_ratio": self.compensation_ratio.to_dict(),
             "net_doping_cm3": self.net_doping.to_dict(),
-            "statistics": {"chi2": _f(self.chi2), "reduced_chi2": _f(self.reduced_chi2),
-                           "aic": _f(self.aic), "bic": _f(self.bic),
+            "statistics": {"chi2": finite_or_none(self.chi2),
+                           "reduced_chi2": finite_or_none(self.reduced_chi2),
+                           "aic": finite_or_none(self.aic), "bic": finite_or_none(self.bic),
                            "n_points": self.n_points, "n_parameters": self.n_parameters,
                            "weighted": self.weighted, "model": self.statistics_model,
-                           "error_inflation": _f(self.error_inflation)},
+                           "error_inflation": finite_or_none(self.error_inflation)},
             "correlation": {"parameters": list(self.parameter_names), "matrix": corr},
-            "fixed": {k: _f(v) for k, v in self.fixed.items()},
+            "fixed": {k: finite_or_none(v) for k, v in self.fixed.items()},
             "warnings": list(self.warnings),
             "hall_factor": self.hall_factor,
             "material": self.material,

@@ -22,7 +22,6 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import json
-import math
 import os
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
@@ -57,6 +56,7 @@ from sqlalchemy.engine import Connection, make_url
 from sqlalchemy.pool import StaticPool
 
 from freezeout.errors import FreezeoutError, InputError
+from freezeout.numbers import finite_or_none
 
 #: Environment variable naming the database (a URL or a SQLite file path).
 ENV_VAR = "FREEZEOUT_DB"
@@ -392,15 +392,6 @@ def options_hash(options: Mapping[str, Any]) -> str:
     return hashlib.sha256(canonical_json(dict(options)).encode("utf-8")).hexdigest()
 
 
-def _float_or_none(x: Any) -> float | None:
-    if x is None or isinstance(x, bool):
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
-
 
 def _claim_rows(result: Mapping, lot_record_id: int) -> list[dict]:
     """Claim rows from a lot result (``LotVerdict.to_dict()``)."""
@@ -417,18 +408,18 @@ def _claim_rows(result: Mapping, lot_record_id: int) -> list[dict]:
                 "claim_key": c.get("claim"),
                 "quantity": str(c.get("quantity")),
                 "unit": c.get("unit"),
-                "temperature_K": _float_or_none(c.get("temperature_K")),
-                "measured": _float_or_none(value),
+                "temperature_K": finite_or_none(c.get("temperature_K")),
+                "measured": finite_or_none(value),
                 "measured_text": value if isinstance(value, str) else None,
-                "stderr": _float_or_none(m.get("stderr")),
-                "coverage_factor": _float_or_none(c.get("coverage_factor")),
-                "spec_min": _float_or_none(spec.get("min")),
-                "spec_max": _float_or_none(spec.get("max")),
-                "nominal": _float_or_none(spec.get("nominal")),
-                "claimed": _float_or_none(c.get("claimed_reference")),
+                "stderr": finite_or_none(m.get("stderr")),
+                "coverage_factor": finite_or_none(c.get("coverage_factor")),
+                "spec_min": finite_or_none(spec.get("min")),
+                "spec_max": finite_or_none(spec.get("max")),
+                "nominal": finite_or_none(spec.get("nominal")),
+                "claimed": finite_or_none(c.get("claimed_reference")),
                 "claimed_text": spec.get("value") if isinstance(spec.get("value"), str) else None,
                 "verdict": str(c.get("verdict")),
-                "margin": _float_or_none(c.get("margin_U")),
+                "margin": finite_or_none(c.get("margin_U")),
             })
     return rows
 
@@ -660,8 +651,8 @@ class Store:
         row.update(
             material=material.get("name") if isinstance(material, Mapping) else material,
             carrier=result.get("carrier"),
-            net_doping=_float_or_none(net.get("value")),
-            net_doping_stderr=_float_or_none(net.get("stderr")),
+            net_doping=finite_or_none(net.get("value")),
+            net_doping_stderr=finite_or_none(net.get("stderr")),
         )
         with self.engine.begin() as conn:
             return self._insert_once(conn, fit_records, row)
