@@ -24,6 +24,8 @@ from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import BandState
 
 LOG10_CONCENTRATION_BOUNDS = (8.0, 22.0)
+#: Model evaluations allowed to one local fit before it counts as not converged.
+MAX_EVALUATIONS = 1500
 _LN10 = math.log(10.0)
 
 
@@ -105,6 +107,22 @@ class _Problem:
         self.model = model
         self.y = y
         self.sigma = sigma
+        ms = "D" if model.carrier == "n" else "A"
+        mn = "A" if model.carrier == "n" else "D"
+        self._major = [f"log10_N_{ms}{i}" for i in range(1, model.n_levels + 1)]
+        self._minor = f"log10_N_{mn}" if model.compensated else None
+
+    def type_penalty(self, values) -> float:
+        """Positive when the compensating species reaches the majority total.
+
+        That would be a run of the other carrier type, which a single-carrier fit of this
+        type must not wander into.
+        """
+        if self._minor is None:
+            return 0.0
+        major = math.log10(sum(10.0 ** values[k] for k in self._major))
+        excess = values[self._minor] - major + 1e-3  # keep N_min below 0.998 N_maj
+        return max(excess, 0.0)
 
     def residual(self, params: lmfit.Parameters) -> np.ndarray:
         values = params.valuesdict()
@@ -113,6 +131,9 @@ class _Problem:
         except (RuntimeError, ValueError, FloatingPointError):
             return np.full(self.y.shape, 1e6)
         r = (ln_model - self.y) / self.sigma
+        penalty = self.type_penalty(values)
+        if penalty > 0:
+            r = r + 1e3 * penalty * np.sign(r + 1e-300)
         return np.where(np.isfinite(r), r, 1e6)
 
     def batch_cost(self, starts: list[dict]) -> np.ndarray:
@@ -264,24 +285,41 @@ def fit_run(
     costs, start_fermi = problem.batch_cost(starts)
     order = np.argsort(costs)
     best = None
-    tried = 0
-    for idx in order[: 3 if n_levels > 1 else 2]:
+    stalled = None  # best of the starts that stopped without converging
+    failures = []
+    for idx in order[: 4 if n_levels > 1 else 3]:
         if not np.isfinite(costs[idx]):
             continue
         params = _parameters(model_used, starts[idx], internal_fix, internal_bounds)
         model_used._last_fermi = start_fermi[idx].copy()  # warm start from the global stage
         out = lmfit.minimize(problem.residual, params, method="leastsq",
-                             scale_covar=not weighted)
-        tried += 1
+                             scale_covar=not weighted, max_nfev=MAX_EVALUATIONS)
+        if problem.type_penalty(out.params.valuesdict()) > 0 or not np.isfinite(out.chisqr):
+            failures.append(str(out.message))
+            continue
+        if not out.success or out.aborted:
+            # stopped short, at its last point rather than its best: kept only as a fallback
+            # when no start converges (flat directions of an under-determined model)
+            failures.append(str(out.message))
+            if stalled is None or out.chisqr < stalled.chisqr:
+                stalled = out
+            continue
         if best is None or out.chisqr < best.chisqr:
             best = out
         if weighted and best.nfree > 0 and best.redchi < 2.0:
             # consistent with the stated uncertainties: further starts cannot do better
             # than the noise, so stop here
             break
+    not_converged = False
+    if best is None and stalled is not None and stalled.nfree > 0:
+        # accept a stalled fit only if it describes the data: reduced chi^2 within what the
+        # stated uncertainties allow (weighted) or a residual scatter below 30 % (unweighted)
+        ok = stalled.redchi < 4.0 if weighted else stalled.redchi < 0.3**2
+        if ok:
+            best, not_converged = stalled, True
     if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
-        raise FitError("no starting point gave a finite fit",
-                       optimizer_message=None if best is None else best.message)
+        raise FitError("no starting point converged to a fit of this carrier type",
+                       optimizer_message="; ".join(dict.fromkeys(failures)) or None)
     profile_upper = None
     mn = "A" if run.carrier == "n" else "D"
     cname = f"log10_N_{mn}"
@@ -291,8 +329,16 @@ def fit_run(
         if se_c is None or not np.isfinite(se_c) or se_c > 0.5 or at_floor:
             profile_upper = _profile_upper(problem, best, cname, weighted)
             model_used._last_fermi = None
-    return _build_result(run, material, model, model_used, best, used, weighted, statistics,
-                         internal_fix, g, provenance or {}, profile_upper)
+    result = _build_result(run, material, model, model_used, best, used, weighted, statistics,
+                           internal_fix, g, provenance or {}, profile_upper, problem)
+    if not_converged:
+        from dataclasses import replace
+
+        result = replace(result, warnings=result.warnings + (
+            "the optimizer did not converge: the chi^2 surface is flat along some directions, "
+            "so those parameters are not determined by these data (see the other warnings); "
+            "the values shown are one point of that flat valley",))
+    return result
 
 
 def _profile_upper(problem: _Problem, best, name: str, weighted: bool) -> float:
@@ -367,8 +413,38 @@ def _estimate_linear(value: float, se: float, tq: float, lower: float | None = N
     return Estimate(value, se if np.isfinite(se) else math.nan, ci)
 
 
+def _plateau_net_doping(problem: _Problem, res, run_carrier: str, weighted: bool,
+                        scale: float) -> tuple[float, int]:
+    """Standard error of the net doping from the saturation plateau alone.
+
+    Where every majority level is at least 99 % ionized and the minority carriers are below
+    1 % of the majority, n (or p) equals |N_D - N_A|: the net doping is then the weighted
+    mean of those points, determined even when the levels themselves are not. Returns the
+    standard error of that mean (inflated by the scatter when it exceeds the stated
+    uncertainties, and with the common scale uncertainty) and the number of points; NaN when
+    fewer than two points qualify.
+    """
+    major_ion = res.donor_ionized if run_carrier == "n" else res.acceptor_ionized
+    ionized = np.all(np.stack(major_ion) >= 0.99, axis=0) if major_ion else True
+    ln_maj = res.log_n if run_carrier == "n" else res.log_p
+    ln_min = res.log_p if run_carrier == "n" else res.log_n
+    plateau = ionized & (ln_min - ln_maj < math.log(0.01))
+    k = int(np.sum(plateau))
+    if k < 2:
+        return math.nan, k
+    y = np.exp(problem.y[plateau])
+    s = problem.sigma[plateau] * y if weighted else np.full(k, np.std(y, ddof=1))
+    w = 1.0 / s**2
+    mean = float(np.sum(w * y) / np.sum(w))
+    se = float(math.sqrt(1.0 / np.sum(w)))
+    chi2 = float(np.sum(w * (y - mean) ** 2)) / (k - 1)
+    if weighted and chi2 > 1.0:
+        se *= math.sqrt(chi2)
+    return math.hypot(se, scale * mean), k
+
+
 def _build_result(run, material, model_all, model_used, out, used, weighted, statistics,
-                  internal_fix, g, provenance, profile_upper=None) -> FitResult:
+                  internal_fix, g, provenance, profile_upper=None, problem=None) -> FitResult:
     params = out.params
     free = [n for n in out.var_names]
     covar = out.covar if out.covar is not None else None
@@ -436,7 +512,19 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         return float(math.sqrt(max(vec @ covar @ vec, 0.0)))
 
     net = n_maj - n_min
-    net_est = _estimate_linear(net, math.hypot(propagate(grad_net), scale * net), tq)
+    net_se = math.hypot(propagate(grad_net), scale * net)
+    plateau_note = None
+    if problem is not None and not (np.isfinite(net_se) and net_se < 0.1 * net):
+        # the levels are under-determined (no freeze-out): the plateau still pins N_net
+        res_used = model_used.solve(params.valuesdict(), warm=model_used._last_fermi is not None)
+        se_plateau, k_plateau = _plateau_net_doping(problem, res_used, run.carrier, weighted,
+                                                    scale)
+        if np.isfinite(se_plateau) and not (np.isfinite(net_se) and net_se < se_plateau):
+            net_se = se_plateau
+            plateau_note = (f"the net doping and its uncertainty come from the saturation "
+                            f"plateau ({k_plateau} points where the levels are fully ionized), "
+                            "which determines N_D - N_A even where the levels are not")
+    net_est = _estimate_linear(net, net_se, tq, lower=0.0)
     if model_used.compensated:
         k = n_min / n_maj
         se_lnk = propagate(grad_lnk)
@@ -469,6 +557,8 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     warnings = list(run.notes)
     warnings += _warnings(run, model_used, out, params, se, free, corr, public, values, g, tq,
                           weighted, profile_upper, n_maj)
+    if plateau_note:
+        warnings.append(plateau_note)
     if scale > 0:
         warnings.append(f"a {100 * scale:.2g} % uncertainty common to every point (sample "
                         "thickness) is added to the concentrations; it does not weight the "
