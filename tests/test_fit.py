@@ -204,3 +204,44 @@ def test_split_scale_uncertainty():
     rest, s = split_scale_uncertainty(d, err, 0.02)
     np.testing.assert_allclose(rest / d, 0.01, rtol=1e-12)
     assert s == 0.02
+
+
+def test_heavy_compensation_is_not_mistaken_for_no_freeze_out():
+    """N_A/N_D = 0.95: the donor stays over 90 % ionized, yet n falls by orders of magnitude
+    and pins E_D (compensated freeze-out, n ~ exp(-E_D/kT); textbook carrier statistics)."""
+    run = _run("Si", [(1e15, 0.045)], [(9.5e14, None)], 20, 400)
+    res = fit_run(run, get_material("Si"))
+    assert not any("no freeze-out" in w for w in res.warnings)
+    assert _within(res.levels[0].energy, 0.045)
+
+
+def test_saturation_only_run_still_gives_the_net_doping():
+    """Only saturation (150-400 K): the levels are not determined, the net doping is, from the
+    plateau; warnings say which is which."""
+    run = _run("Si", [(1e15, 0.045)], [(2e13, None)], 150, 400, n=25)
+    res = fit_run(run, get_material("Si"))
+    assert any("no freeze-out" in w for w in res.warnings)
+    assert _within(res.net_doping, 1e15 - 2e13)
+    assert res.net_doping.stderr < 0.05 * res.net_doping.value
+    assert res.net_doping.ci95[0] > 0
+
+
+def test_missing_level_is_flagged_by_the_runs_test():
+    """Two donors fitted with one: residuals run in long stretches of one sign (Wald-Wolfowitz
+    runs test, Ann. Math. Statist. 11, 147 (1940)) and the fit suggests one more level."""
+    run = _run("4H-SiC", [(4e15, 0.052), (6e15, 0.092)], [(3e14, None)], 40, 800, noise=0.005)
+    res = fit_run(run, get_material("4H-SiC"), donors=1)
+    assert any("systematic" in w and "--donors 2" in w for w in res.warnings)
+    good = fit_run(run, get_material("4H-SiC"), donors=2)
+    assert not any("systematic" in w for w in good.warnings)
+
+
+def test_absurd_options_are_bad_input():
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, n=10)
+    si = get_material("Si")
+    with pytest.raises(InputError, match="band gap"):
+        fit_run(run, si, fix={"E_D1": 2.0})
+    with pytest.raises(InputError, match="outside the range"):
+        fit_run(run, si, fix={"N_A": 1e99})
+    with pytest.raises(InputError, match="degeneracy"):
+        fit_run(run, si, degeneracy=0.0)

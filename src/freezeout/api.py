@@ -146,10 +146,10 @@ def _levels(kind: str, specs: Sequence[LevelSpec]):
         spec = tuple(spec)
         if not 2 <= len(spec) <= 3:
             raise InputError(f"{kind} {spec!r}: give (concentration, energy[, degeneracy])")
-        g = spec[2] if len(spec) == 3 and spec[2] is not None else 0.0
+        g = None if len(spec) < 3 or spec[2] is None else float(spec[2])
         try:
             out.append(DopantLevel(kind, float(spec[0]),
-                                   None if spec[1] is None else float(spec[1]), float(g)))
+                                   None if spec[1] is None else float(spec[1]), g))
         except (TypeError, ValueError) as exc:
             raise InputError(f"{kind} {spec!r}: {exc}") from None
     return out

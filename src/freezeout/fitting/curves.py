@@ -61,7 +61,7 @@ def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     donors, acceptors, names, kinds = [], [], [], []
     for lv in result.levels:
         e = None if lv.energy is None else lv.energy.value
-        g = lv.degeneracy or 0.0
+        g = lv.degeneracy
         dl = DopantLevel(lv.kind, lv.concentration.value, e, g)
         (donors if lv.kind == "donor" else acceptors).append((lv.name, dl))
     for name, _ in (*donors, *acceptors):

@@ -171,15 +171,22 @@ def _parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float],
     return params
 
 
-def to_internal(name: str, value: float) -> tuple[str, float]:
-    """Map a public parameter value (N in cm^-3, E in eV) to its internal name and value."""
+def to_internal(name: str, value: float, band_gap: float = math.inf) -> tuple[str, float]:
+    """Map a public parameter value (N in cm^-3, E in eV) to its internal name and value.
+
+    Concentrations must lie within the fit's range (1e8 to 1e22 cm^-3) and energies between
+    0 and the band gap (at the lowest temperature of the run); anything else is bad input.
+    """
     if name.startswith("N_"):
-        if not value > 0:
-            raise InputError(f"{name} must be > 0 cm^-3, got {value!r}")
+        lo, hi = (10.0**b for b in LOG10_CONCENTRATION_BOUNDS)
+        if not (np.isfinite(value) and lo <= value <= hi):
+            raise InputError(f"{name} = {value!r} cm^-3 is outside the range the model covers "
+                             f"({lo:g} to {hi:g} cm^-3)")
         return f"log10_{name}", math.log10(value)
     if name.startswith("E_"):
-        if not value > 0:
-            raise InputError(f"{name} must be > 0 eV, got {value!r}")
+        if not (np.isfinite(value) and 0 < value < band_gap):
+            raise InputError(f"{name} = {value!r} eV must be above 0 and below the band gap "
+                             f"({band_gap:.4g} eV)")
         return name, float(value)
     raise InputError(f"unknown parameter {name!r}")
 
@@ -250,11 +257,15 @@ def fit_run(
     if run.severe is not None and not include_flagged:
         used &= ~np.asarray(run.severe, dtype=bool)
     n_used = int(used.sum())
-    internal_fix = dict(to_internal(k, v) for k, v in (fix or {}).items())
+    if degeneracy is not None and not (np.isfinite(degeneracy) and 0 < degeneracy <= 100):
+        raise InputError(f"degeneracy must be a number above 0 and at most 100, got "
+                         f"{degeneracy!r}")
+    gap = float(material.band_gap(float(np.min(run.temperature))))
+    internal_fix = dict(to_internal(k, v, gap) for k, v in (fix or {}).items())
     internal_bounds = {}
     for k, (lo, hi) in (bounds or {}).items():
-        ik, ilo = to_internal(k, lo)
-        _, ihi = to_internal(k, hi)
+        ik, ilo = to_internal(k, lo, gap)
+        _, ihi = to_internal(k, hi, gap)
         if not ilo < ihi:
             raise InputError(f"bound of {k}: low {lo!r} is not below high {hi!r}")
         internal_bounds[ik] = (ilo, ihi)
@@ -345,7 +356,7 @@ def _profile_upper(problem: _Problem, best, name: str, weighted: bool) -> float:
     """Upper 95 % limit of one log10 concentration by profiling chi^2.
 
     The parameter is held at trial values above its best fit while the others are refitted;
-    the limit is where chi^2 rises by 3.84 (chi^2 with one degree of freedom at 95 %; the
+    the limit is where chi^2 rises by 2.71 (a one-sided 95 % limit for one parameter; the
     rise is scaled by the reduced chi^2 when the fit is unweighted or when it exceeds 1,
     as the standard errors are). Returns the
     upper bound of the parameter when the data never exclude larger values.
@@ -354,7 +365,7 @@ def _profile_upper(problem: _Problem, best, name: str, weighted: bool) -> float:
     # in units of the residual variance: the stated one (weighted fit, inflated when the
     # reduced chi^2 exceeds 1) or the fitted one (unweighted)
     scale = max(best.redchi, 1.0) if weighted else max(best.redchi, 1e-300)
-    threshold = best.chisqr + 3.84 * scale
+    threshold = best.chisqr + 2.71 * scale
     hi_bound = base[name].max
 
     def chi2_at(x: float) -> float:
@@ -467,7 +478,7 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     scale = float(run.scale_uncertainty)
     if scale > 0:
         for n in se:
-            if n.startswith("log10_"):
+            if n.startswith("log10_") and n not in internal_fix:
                 se[n] = math.hypot(se[n], scale / _LN10)
     ms = "D" if run.carrier == "n" else "A"
     mn = "A" if run.carrier == "n" else "D"
@@ -609,6 +620,29 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
     )
 
 
+def _runs_z(residual) -> float | None:
+    """z-score of the number of sign runs in the residuals (Wald-Wolfowitz runs test).
+
+    A strongly negative z (fewer runs than chance) marks systematic residuals. Residuals are
+    in temperature order. None when there are too few points of each sign.
+
+    References
+    ----------
+    A. Wald, J. Wolfowitz, Ann. Math. Statist. 11, 147-162 (1940).
+    doi:10.1214/aoms/1177731909
+    """
+    r = np.asarray(residual, dtype=float)
+    s = np.sign(r[r != 0])
+    n1, n2 = int(np.sum(s > 0)), int(np.sum(s < 0))
+    n = n1 + n2
+    if n1 < 3 or n2 < 3:
+        return None
+    runs = 1 + int(np.sum(s[1:] != s[:-1]))
+    mean = 2.0 * n1 * n2 / n + 1.0
+    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1))
+    return float((runs - mean) / math.sqrt(var)) if var > 0 else None
+
+
 def _list_or_none(a):
     if a is None:
         return None
@@ -623,14 +657,22 @@ def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, we
     ms = "D" if run.carrier == "n" else "A"
     mn = "A" if run.carrier == "n" else "D"
     tmin = float(np.min(model.temperature))
+    i_min = int(np.argmin(model.temperature))
+    n_min_value = 10.0 ** params[f"log10_N_{mn}"].value if model.compensated else 0.0
+    net = n_maj - n_min_value
     for i in range(model.n_levels):
         ename = f"E_{ms}{i + 1}"
-        frac = float(major_ion[i][np.argmin(model.temperature)])
-        if frac > 0.9:
-            w.append(f"no freeze-out: level {ms}{i + 1} is {100 * frac:.0f} % ionized even at "
-                     f"the lowest temperature used ({tmin:g} K), so the data do not constrain "
-                     f"its ionization energy {ename}; measure to lower temperature or fix it "
-                     f"(--fix {ename}=...)")
+        conc = 10.0 ** params[f"log10_N_{ms}{i + 1}"].value
+        frac = float(major_ion[i][i_min])
+        # carriers frozen onto this level at the lowest temperature, against the net doping
+        # (under heavy compensation a level can be 90 % ionized and still hold most of the
+        # free carriers, so the ionized fraction alone does not tell)
+        frozen = conc * (1.0 - frac)
+        if frozen < 0.1 * min(net, conc):
+            w.append(f"no freeze-out: level {ms}{i + 1} holds only {100 * frozen / net:.2g} % "
+                     f"of the net doping as neutral centres even at the lowest temperature "
+                     f"used ({tmin:g} K), so the data do not constrain its ionization energy "
+                     f"{ename}; measure to lower temperature or fix it (--fix {ename}=...)")
         elif ename in free and (not np.isfinite(se[ename])
                                 or se[ename] > 0.5 * abs(params[ename].value)):
             w.append(f"{ename} is poorly determined (standard error "
@@ -643,8 +685,24 @@ def _warnings(run, model, out, params, se, free, corr, public, values, g, tq, we
         else:
             w.append(f"compensation only bounded: the data give N_{mn} < {upper:.2g} cm^-3 "
                      f"(95 %, profile of chi^2), so the compensation ratio is below "
-                     f"{upper / n_maj:.2g}; points deeper in freeze-out, where the carrier "
-                     f"density falls below N_{mn}, would pin it")
+                     f"{min(upper / n_maj, 1.0):.2g}; points deeper in freeze-out, where the "
+                     f"carrier density falls below N_{mn}, would pin it")
+    ln_maj = res.log_n if run.carrier == "n" else res.log_p
+    ln_mnr = res.log_p if run.carrier == "n" else res.log_n
+    mixed = ln_mnr - ln_maj > math.log(0.01)
+    if mixed.any():
+        t_mixed = model.temperature[mixed]
+        worst = 100 * np.exp(np.max(ln_mnr - ln_maj))
+        w.append(f"two-carrier conduction: from {t_mixed.min():g} K the model's minority "
+                 f"carriers exceed 1 % of the majority (up to {worst:.2g} %); a single-carrier "
+                 "Hall density is biased there by the unknown mobility ratio, even before the "
+                 "Hall coefficient changes sign")
+    runs_z = _runs_z(out.residual)
+    if runs_z is not None and runs_z < -3.0:
+        more = "--donors" if run.carrier == "n" else "--acceptors"
+        w.append(f"the residuals are systematic (runs test z = {runs_z:.1f}: too few changes of "
+                 "sign); the model may lack a level or the data hold an effect it leaves out. "
+                 f"Try {more} {model.n_levels + 1} and compare the BIC")
     for name in free:
         p = params[name]
         span = (p.max - p.min) if np.isfinite(p.max - p.min) else 1.0

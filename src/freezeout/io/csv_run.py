@@ -189,8 +189,9 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
     """
     p, lines = read_text_lines(path)
     fname = str(path)
-    if not hall_factor > 0 or not np.isfinite(hall_factor):
-        raise InputError(f"Hall factor must be a positive number, got {hall_factor!r}")
+    if not (np.isfinite(hall_factor) and 0.1 <= hall_factor <= 10.0):
+        raise InputError(f"Hall factor must be a positive number between 0.1 and 10 (it is "
+                         f"near 1 in practice), got {hall_factor!r}")
     meta, hidx = parse_metadata(lines)
     if hidx >= len(lines):
         raise InputError("no header row found (the file is empty or only comments)", file=fname)

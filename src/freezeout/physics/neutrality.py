@@ -54,22 +54,22 @@ class DopantLevel:
         Ionization energy from its band edge (below E_c for a donor, above E_v for an
         acceptor), or None for a level that is fully ionized at every temperature. [eV]
     degeneracy
-        Ground-state degeneracy factor g. [1]
+        Ground-state degeneracy factor g; None for the default (2 donors, 4 acceptors). [1]
     """
 
     kind: str
     concentration: float | np.ndarray
     energy: float | np.ndarray | None = None
-    degeneracy: float = 0.0
+    degeneracy: float | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in ("donor", "acceptor"):
             raise ValueError(f"level kind must be 'donor' or 'acceptor', got {self.kind!r}")
-        if self.degeneracy == 0.0:
+        if self.degeneracy is None:
             default = (DEFAULT_DONOR_DEGENERACY if self.kind == "donor"
                        else DEFAULT_ACCEPTOR_DEGENERACY)
             object.__setattr__(self, "degeneracy", default)
-        if not self.degeneracy > 0:
+        if not (np.isfinite(self.degeneracy) and self.degeneracy > 0):
             raise ValueError(f"degeneracy must be > 0, got {self.degeneracy!r}")
         c = np.asarray(self.concentration, dtype=float)
         if not np.all(np.isfinite(c)) or np.any(c < 0):
