@@ -135,3 +135,14 @@ def test_units_parser_edge_cases():
     assert np.isclose(parse_unit("cm2/Vs", "mobility").to_canonical(1.0), 1.0)
     with pytest.raises(ValueError, match="known"):
         parse_unit("parsec", "length")
+
+
+def test_hall_factor_of_the_file_is_kept_unless_overridden(tmp_path):
+    """A density computed with r_H = 1.2 (stated in the file) stays as it is by default; an
+    explicit Hall factor rescales it: n = r_H / (q |R_H|) (common practice, no source)."""
+    p = _write(tmp_path, "# hall_factor: 1.2\nT [K],n [cm^-3]\n300,1.2e16\n200,1.1e16\n")
+    assert read_run_csv(p).density[1] == pytest.approx(1.2e16)
+    assert read_run_csv(p).hall_factor == 1.2
+    assert read_run_csv(p, hall_factor=1.0).density[1] == pytest.approx(1e16)
+    with pytest.raises(InputError, match="between 0.1 and 10"):
+        read_run_csv(p, hall_factor=1e99)

@@ -35,8 +35,8 @@ def load_material(material: str | Material | None = None,
     return get_material(material or "Si")
 
 
-def load_run(path: str | Path, *, hall_factor: float = 1.0, include_mixed: bool = False,
-             thickness: str | None = None):
+def load_run(path: str | Path, *, hall_factor: float | None = None,
+             include_mixed: bool = False, thickness: str | None = None):
     """Read a run file: a reduced run CSV, or a raw van der Pauw/Hall readings file.
 
     A raw file (recognised by its contact columns) is reduced on the way in.
@@ -50,7 +50,10 @@ def load_run(path: str | Path, *, hall_factor: float = 1.0, include_mixed: bool 
     if raw_io is not None and raw_io.is_raw_file(path):
         from freezeout.io.reduced_run import run_from_reduction
 
-        reduced = raw_io.load_raw_run(path, thickness=thickness, hall_factor=hall_factor)
+        if hall_factor is not None and not (0.1 <= hall_factor <= 10.0):
+            raise InputError(f"Hall factor must be between 0.1 and 10, got {hall_factor!r}")
+        reduced = raw_io.load_raw_run(path, thickness=thickness,
+                                      hall_factor=1.0 if hall_factor is None else hall_factor)
         return run_from_reduction(path, reduced, include_mixed=include_mixed)
     from freezeout.io.csv_run import read_run_csv
 
@@ -64,7 +67,7 @@ def fit_file(
     donors: int = 1,
     acceptors: int = 1,
     statistics: str = "fermi-dirac",
-    hall_factor: float = 1.0,
+    hall_factor: float | None = None,
     *,
     degeneracy: float | None = None,
     fix: Mapping[str, float] | None = None,
@@ -86,7 +89,8 @@ def fit_file(
     statistics
         ``"fermi-dirac"`` or ``"boltzmann"``.
     hall_factor
-        Hall scattering factor r_H. [1]
+        Hall scattering factor r_H; None (default) keeps the file's own (a reduced run's
+        ``# hall_factor:`` line), else 1. [1]
     degeneracy
         Degeneracy of the majority levels (default 2 donors, 4 acceptors). [1]
     fix, bounds
@@ -100,6 +104,7 @@ def fit_file(
     """
     from freezeout.fitting.fit import fit_run
 
+    statistics = str(statistics).strip().lower()
     if statistics not in ("fermi-dirac", "boltzmann"):
         raise InputError(f"unknown statistics {statistics!r}; valid: fermi-dirac, boltzmann")
     run = load_run(path, hall_factor=hall_factor, include_mixed=include_mixed,
@@ -126,7 +131,7 @@ def fit_file(
         "tool_version": __version__,
         "date": _dt.datetime.now(_dt.UTC).date().isoformat(),
         "options": options,
-        "hall_factor": hall_factor,
+        "hall_factor": run.hall_factor,
     }
     result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
                      degeneracy=degeneracy, fix=fix, bounds=bounds,
@@ -181,6 +186,7 @@ def simulate(
     from freezeout.forward import temperature_grid
 
     mat = load_material(material, material_file)
+    statistics = str(statistics).strip().lower()
     if isinstance(temperatures, tuple) and len(temperatures) == 3:
         try:
             t = temperature_grid(float(temperatures[0]), float(temperatures[1]),
@@ -189,9 +195,20 @@ def simulate(
             raise InputError(f"temperatures: {exc}") from None
     else:
         t = np.asarray(temperatures, dtype=float)
-        if t.size == 0 or not np.all(np.isfinite(t)) or np.any(t <= 0):
-            raise InputError("temperatures must be finite and > 0 K")
+    if t.size == 0 or not np.all(np.isfinite(t)) or np.any(t <= 0) or np.any(t > 5000):
+        raise InputError("temperatures must be above 0 K and at most 5000 K")
     if statistics not in ("fermi-dirac", "boltzmann"):
         raise InputError(f"unknown statistics {statistics!r}; valid: fermi-dirac, boltzmann")
-    return _simulate(mat, t, _levels("donor", donors), _levels("acceptor", acceptors),
-                     statistics)
+    gap = float(np.min(mat.band_gap(t)))
+    if not gap > 0:
+        raise InputError(f"the band gap of {mat.name} closes within these temperatures")
+    levels = {"donor": _levels("donor", donors), "acceptor": _levels("acceptor", acceptors)}
+    for kind, lvs in levels.items():
+        for lv in lvs:
+            if not lv.concentration <= 1e22:
+                raise InputError(f"{kind} concentration {lv.concentration:g} cm^-3 is above "
+                                 "1e22 cm^-3, beyond the model")
+            if lv.energy is not None and not lv.energy < gap:
+                raise InputError(f"{kind} ionization energy {lv.energy:g} eV is not below the "
+                                 f"band gap ({gap:.4g} eV)")
+    return _simulate(mat, t, levels["donor"], levels["acceptor"], statistics)

@@ -66,7 +66,16 @@ def main() -> None:
     except KeyboardInterrupt:
         sys.stderr.write("interrupted\n")
         sys.exit(130)
+    except OSError as exc:  # a file or folder that cannot be written or read
+        where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
+        sys.stderr.write(f"freezeout: error: cannot use{where}: {exc.strerror or exc}\n")
+        sys.exit(2)
     except Exception as exc:
+        if type(exc).__module__.startswith("sqlalchemy"):
+            orig = getattr(exc, "orig", None) or exc
+            sys.stderr.write(f"freezeout: error: history database: {str(orig).splitlines()[0]}"
+                             " (check --db or $FREEZEOUT_DB)\n")
+            sys.exit(2)
         if hasattr(exc, "show") and hasattr(exc, "exit_code"):
             # a usage error of the command-line parser (typer/click): its own message
             exc.show()

@@ -35,8 +35,9 @@ def fit_command(
                                            "for a p-type run, 0/1 compensating acceptor for "
                                            "n-type.")] = 1,
     statistics: StatisticsOpt = "fermi-dirac",
-    hall_factor: Annotated[float, typer.Option("--hall-factor", help="Hall scattering factor "
-                                               "r_H.")] = 1.0,
+    hall_factor: Annotated[float | None, typer.Option(
+        "--hall-factor", help="Hall scattering factor r_H (default: the file's own "
+        "'# hall_factor:' line, else 1).")] = None,
     out: Annotated[Path | None, typer.Option("--out", "-o", help="Report folder (default: "
                                              "reports/<run name>/; with --json, no report "
                                              "unless --out is given).")] = None,

@@ -26,6 +26,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+import math
 import re
 from pathlib import Path
 
@@ -168,7 +169,7 @@ def split_scale_uncertainty(density, density_err, scale: float):
     return rest * density, float(scale)
 
 
-def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
+def read_run_csv(path: str | Path, *, hall_factor: float | None = None,
                  include_mixed: bool = False) -> RunData:
     """Read a reduced run.
 
@@ -177,7 +178,8 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
     path
         CSV file.
     hall_factor
-        Hall scattering factor r_H applied to the densities. [1]
+        Hall scattering factor r_H applied to the densities; None keeps the file's own
+        (its ``# hall_factor:`` line, else 1). [1]
     include_mixed
         Keep points whose Hall sign differs from the run's majority carrier (they are
         otherwise marked for exclusion from a single-carrier fit).
@@ -189,7 +191,7 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
     """
     p, lines = read_text_lines(path)
     fname = str(path)
-    if not (np.isfinite(hall_factor) and 0.1 <= hall_factor <= 10.0):
+    if hall_factor is not None and not (np.isfinite(hall_factor) and 0.1 <= hall_factor <= 10.0):
         raise InputError(f"Hall factor must be a positive number between 0.1 and 10 (it is "
                          f"near 1 in practice), got {hall_factor!r}")
     meta, hidx = parse_metadata(lines)
@@ -327,8 +329,12 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         try:
             r_file = float(meta["hall_factor"])
         except ValueError:
-            raise InputError(f"metadata hall_factor {meta['hall_factor']!r} is not a number",
-                             file=fname) from None
+            r_file = math.nan
+        if not (np.isfinite(r_file) and 0.1 <= r_file <= 10.0):
+            raise InputError(f"metadata hall_factor {meta['hall_factor']!r} is not a number "
+                             "between 0.1 and 10", file=fname)
+    if hall_factor is None:
+        hall_factor = r_file
     stated = meta.get("carrier", meta.get("type", meta.get("carrier_type", ""))).strip().lower()
     stated = {"n": "n", "n-type": "n", "electrons": "n", "p": "p", "p-type": "p",
               "holes": "p"}.get(stated)
@@ -437,4 +443,5 @@ def read_run_csv(path: str | Path, *, hall_factor: float = 1.0,
         notes=tuple(notes),
         ignored_columns=tuple(ignored),
         scale_uncertainty=scale,
+        hall_factor=float(hall_factor),
     )

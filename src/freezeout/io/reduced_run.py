@@ -61,4 +61,5 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
         notes=tuple(notes),
         findings=tuple(reduced.findings),
         scale_uncertainty=scale,
+        hall_factor=float(reduced.hall_factor),
     )

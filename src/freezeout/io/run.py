@@ -51,6 +51,8 @@ class RunData:
         Relative standard uncertainty common to every density (the sample thickness, for a
         reduced Hall run), kept out of ``density_err`` because it moves all points together;
         the fit adds it to the concentrations afterwards. [1]
+    hall_factor
+        Hall scattering factor r_H the densities carry. [1]
     """
 
     source: str
@@ -73,6 +75,7 @@ class RunData:
     findings: tuple = ()
     ignored_columns: tuple[str, ...] = ()
     scale_uncertainty: float = 0.0
+    hall_factor: float = 1.0
 
     @property
     def n_points(self) -> int:
