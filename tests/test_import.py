@@ -146,3 +146,12 @@ def test_hall_factor_of_the_file_is_kept_unless_overridden(tmp_path):
     assert read_run_csv(p, hall_factor=1.0).density[1] == pytest.approx(1e16)
     with pytest.raises(InputError, match="between 0.1 and 10"):
         read_run_csv(p, hall_factor=1e99)
+
+
+def test_unused_and_contradicting_columns_are_said(tmp_path):
+    p = _write(tmp_path, "# carrier: n\nT [K],p [cm^-3],p_eror [cm^-3]\n300,1e16,1e14\n"
+               "200,1e16,1e14\n")
+    run = read_run_csv(p)
+    assert run.carrier == "p" and run.density_err is None
+    text = " ".join(run.notes)
+    assert "p_eror" in text and "'# carrier: n'" in text

@@ -89,6 +89,12 @@ def _classify(header: str) -> tuple[str, bool, str | None, str] | None:
     return None
 
 
+def _is_forward_model_column(header: str) -> bool:
+    """Columns that ``freezeout simulate`` writes besides the densities (E_F, fractions)."""
+    name = header.strip().lower()
+    return name.startswith(("e_f", "ionized ", "ionised "))
+
+
 def sha256_of(path: Path) -> str:
     """SHA-256 (hex) of a file's bytes."""
     return hashlib.sha256(path.read_bytes()).hexdigest()
@@ -370,6 +376,9 @@ def read_run_csv(path: str | Path, *, hall_factor: float | None = None,
                                  file=fname, line=line_nos[bad[0]],
                                  column=cols[("density", False)][2])
             point_type = [named] * t.size
+            if stated is not None and stated != named:
+                notes.append(f"the file says '# carrier: {stated}' but its density column is "
+                             f"{key!r}: the column's type ({named}) is used")
             if rh is not None:
                 point_type = ["p" if x > 0 else "n" for x in rh]
         elif rh is not None:
@@ -407,6 +416,10 @@ def read_run_csv(path: str | Path, *, hall_factor: float | None = None,
                              file=fname, line=line_nos[i],
                              column=cols.get(("density", True),
                                              cols.get(("hall_coefficient", True)))[2])
+    unexplained = [h for h in ignored if not _is_forward_model_column(h)]
+    if unexplained:
+        notes.append("columns not used (not a recognised quantity or uncertainty): "
+                     + ", ".join(repr(h) for h in unexplained))
     carrier = majority_carrier(point_type, t, stated)
     note = mixed_note(point_type, carrier, t, include_mixed)
     if note:
