@@ -85,7 +85,7 @@ def _add_temperature_axis(ax):
     ticks, last = [], None
     for t in sorted(candidates, reverse=True):  # left to right on a 1000/T axis
         x = 1000.0 / t
-        if lo <= x <= hi and (last is None or x - last >= 0.07 * (hi - lo)):
+        if lo <= x <= hi and (last is None or x - last >= 0.1 * (hi - lo)):
             ticks.append(t)
             last = x
     sec.set_xticks(ticks, [f"{t:g}" for t in ticks])
@@ -112,9 +112,12 @@ def density_axes(result: FitResult, curves: ModelCurves, ax=None):
                 sign = "+" if curves.level_kinds[i] == "donor" else "−"
                 ax.plot(xc, curves.ionized_density[i], color=col, lw=1.2, ls="--",
                         label=f"ionized N_{name}{sign}")
-        ax.plot(xc, curves.minority, color=MUTED, lw=1.2, ls="-.",
-                label=f"intrinsic generation ({minority})")
-        ax.plot(xc, curves.intrinsic, color=MUTED, lw=0.8, ls=":", label="n_i")
+        lo = max(np.min(y) / 30.0, 1e-300)
+        if np.nanmax(curves.minority) > lo:  # only what shows on the axes gets a legend entry
+            ax.plot(xc, curves.minority, color=MUTED, lw=1.2, ls="-.",
+                    label=f"intrinsic generation ({minority})")
+        if np.nanmax(curves.intrinsic) > lo:
+            ax.plot(xc, curves.intrinsic, color=MUTED, lw=0.8, ls=":", label="n_i")
         yerr = None if err is None else err
         ax.errorbar(x[used], y[used], yerr=None if yerr is None else yerr[used], fmt="o",
                     ms=4.5, color=INK, mfc="white", mew=1.2, elinewidth=0.8,
@@ -125,11 +128,11 @@ def density_axes(result: FitResult, curves: ModelCurves, ax=None):
         if flagged.any():
             ax.plot(x[flagged], y[flagged], "X", ms=6, color=FLAG,
                     label="failed a severe quality check (not fitted)", zorder=5)
-        lo = max(np.min(y) / 30.0, 1e-300)
         hi = max(np.max(y), np.max(curves.majority[np.isfinite(curves.majority)])) * 3.0
         ax.set_yscale("log")
         ax.set_ylim(lo, hi)
-        ax.set_xlim(xc.min() * 0.97, xc.max() * 1.03)
+        x_lo, x_hi = min(xc.min(), x.min()), max(xc.max(), x.max())
+        ax.set_xlim(0.95 * x_lo, x_hi + 0.02 * (x_hi - x_lo))
         ax.set_xlabel("1000 / T [1/K]")
         ax.set_ylabel("density [cm$^{-3}$]")
         _add_temperature_axis(ax)
@@ -175,7 +178,12 @@ def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
         ax.set_ylabel("energy above E_v [eV]")
         ax.set_title("whole gap")
         ax.set_ylim(-0.05 * curves.band_gap.max(), 1.08 * curves.band_gap.max())
-        ax.legend(loc="center right")
+        # name the lines at their right ends (a legend box would sit on E_F somewhere)
+        for yv, text, col in ((curves.band_gap[-1], "E_c", INK), (0.0, "E_v", INK),
+                              (curves.fermi_level[-1], "E_F", FLAG)):
+            ax.annotate(text, (t[-1], yv), xytext=(4, 0), textcoords="offset points",
+                        va="center", fontsize=9, color=col, annotation_clip=False)
+        ax.set_xlim(t[0], t[-1])
         return ax
 
 
@@ -228,9 +236,11 @@ def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):
             suffix = " (fully ionized by assumption)" if style == ":" else ""
             ax.plot(curves.temperature, f, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)],
                     lw=1.6, ls=style, label=f"{name}{suffix}")
-        tmin = min(result.data["temperature_K"])
+        t_data = np.asarray(result.data["temperature_K"], dtype=float)
+        used = np.asarray(result.data["used"], dtype=bool)
+        tmin = float(t_data[used].min()) if used.any() else float(t_data.min())
         ax.axvline(tmin, color=MUTED, lw=0.8, ls="--")
-        ax.annotate("lowest measured T", (tmin, 0.04), xytext=(4, 0), textcoords="offset points",
+        ax.annotate("lowest fitted T", (tmin, 1.0), xytext=(4, -14), textcoords="offset points",
                     fontsize=8, color=MUTED)
         ax.set_ylim(-0.03, 1.05)
         ax.set_xlabel("temperature [K]")

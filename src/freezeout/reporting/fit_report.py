@@ -112,6 +112,15 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
     meta = "".join(f"<tr><th>{esc(str(k))}</th><td>{esc(str(v))}</td></tr>"
                    for k, v in prov.get("metadata", {}).items())
     opts = esc(json.dumps(prov.get("options", {}), sort_keys=True))
+    mat = d["material"]
+    mat_rows = "".join(
+        f"<tr><th>{esc(k)}</th><td class=num>{_fmt(mat.get(k))}</td>"
+        f"<td>{esc(str(mat.get('sources', {}).get(k, '')))}</td></tr>"
+        for k in ("band_gap_0K_eV", "varshni_alpha_eV_per_K", "varshni_beta_K",
+                  "electron_dos_mass", "hole_dos_mass", "relative_permittivity"))
+    inflation = st.get("error_inflation") or 1.0
+    inflated = (f" Standard errors inflated by √χ²_red = {inflation:.3g}, as the points "
+                "scatter more than their stated uncertainties." if inflation > 1.0 else "")
     carrier = "n-type (electrons)" if d["carrier"] == "n" else "p-type (holes)"
     weighting = ("weighted by the stated per-point uncertainties" if st["weighted"]
                  else "unweighted (no per-point uncertainties; errors scaled by χ²)")
@@ -126,7 +135,7 @@ parameters</p>
 <table><tr><th>symbol</th><th>quantity</th><th>value</th><th>std. error</th>
 <th>95 % interval</th></tr>{''.join(rows)}</table>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
-BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.</p>
+BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}</p>
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
 {quality}
@@ -136,10 +145,11 @@ BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.</p>
 <tr><th>tool</th><td>freezeout {esc(prov['tool_version'])}</td></tr>
 <tr><th>date (UTC)</th><td>{esc(prov['date'])}</td></tr>
 <tr><th>options</th><td><code>{opts}</code></td></tr>{meta}</table>
+<h2>Material: {esc(mat['name'])}</h2>
+<table><tr><th>parameter</th><th>value</th><th>source</th></tr>{mat_rows}</table>
 <p class=sub>Model: charge neutrality with {esc(st['model'])} statistics, effective densities
 of states from the density-of-states masses, Varshni band gap, partially ionized majority
-levels with degeneracy factors, fully ionized compensation. Material parameters and their
-sources are in fit.json.</p>
+levels with degeneracy factors, fully ionized compensation.</p>
 </body></html>
 """
 

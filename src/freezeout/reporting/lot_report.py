@@ -215,6 +215,14 @@ def _wafer_section(wafer: Mapping) -> str:
         lines.append(esc(how))
     if inp.get("material"):
         lines.append(f"material {esc(str(inp['material']))}")
+    hall = inp.get("hall_factor") or {}
+    r_h = _num(hall.get("value"))
+    if r_h is not None:
+        u_r = _num(hall.get("stderr")) or 0.0
+        text = f"Hall factor r_H = {r_h:g}" + (f" ± {u_r:g}" if u_r > 0 else "")
+        if hall.get("source"):
+            text += f" ({hall['source']})"
+        lines.append(esc(text))
     fit = inp.get("fit") or {}
     if fit:
         red = _num(fit.get("reduced_chi2"))
