@@ -16,9 +16,9 @@ rho(T) and R_H(T), then dressed with what a real cryostat adds:
   must flag those set points as severe.
 
 Model (values from memory, good enough for a realistic shape, not a reference):
-hole density from charge neutrality with one acceptor level, p + N_D = N_A^-, with
-N_A = 2e15 cm^-3, N_D = 5e13 cm^-3, E_A = 45 meV, valence-band effective density of
-states N_V = 1.8e19 (T/300)^1.5 cm^-3 and degeneracy factor 4; mobility by Matthiessen's
+hole density from freezeout's charge-neutrality model of silicon (Fermi-Dirac statistics,
+the library's Si parameters) with one acceptor level, N_A = 2e15 cm^-3, E_A = 45 meV,
+degeneracy factor 4, and fully ionized donors N_D = 5e13 cm^-3; mobility by Matthiessen's
 rule from a lattice term 470 (T/300)^-2.2 cm^2/(V s) and an ionized-impurity term
 3e4 (T/100)^1.5 / (N_ion / 1e15 cm^-3) cm^2/(V s); Hall factor 1, so R_H = 1/(q p) and
 rho = 1/(q p mu).
@@ -34,8 +34,10 @@ import math
 from pathlib import Path
 
 import numpy as np
-from scipy.constants import Boltzmann, elementary_charge
+from scipy.constants import elementary_charge
 from scipy.optimize import brentq
+
+import freezeout
 
 SEED = 20240611
 OUTPUT = Path(__file__).resolve().parent.parent / "sample_data" / "harrowgate_raw_vdp_run.csv"
@@ -45,7 +47,7 @@ THICKNESS_ERR_CM = 0.0005  # 5 um
 RATIO_RB_RA = 1.25  # contacts slightly off the corners
 FIELD_T = 0.5
 MISALIGNMENT_FRACTION = 0.03  # misalignment transresistance / sheet resistance
-N_A, N_D, E_A_EV, N_V300, G_A = 2.0e15, 5.0e13, 0.045, 1.8e19, 4.0
+N_A, N_D, E_A_EV, G_A = 2.0e15, 5.0e13, 0.045, 4.0
 BAD_CONTACT, BAD_BELOW_K, BAD_FACTOR = 3, 42.0, 1.30
 DRIFT_SET_POINT, DRIFT_K = 50.0, 0.75
 TWO_CURRENTS_AT = (60.0, 120.0, 200.0, 300.0)
@@ -55,11 +57,11 @@ REPEATS = 3
 
 
 def hole_density(t):
-    """Hole density of the model wafer. [cm^-3] (t in [K])."""
-    kt_ev = Boltzmann * np.asarray(t, dtype=float) / elementary_charge
-    p1 = N_V300 * (np.asarray(t, dtype=float) / 300.0) ** 1.5 / G_A * np.exp(-E_A_EV / kt_ev)
-    b = N_D + p1
-    return 2.0 * p1 * (N_A - N_D) / (b + np.sqrt(b * b + 4.0 * p1 * (N_A - N_D)))
+    """Hole density of the model wafer, from freezeout's own neutrality model. [cm^-3]."""
+    t = np.asarray(t, dtype=float)
+    sim = freezeout.simulate("Si", donors=[(N_D, None)], acceptors=[(N_A, E_A_EV, G_A)],
+                             temperatures=np.atleast_1d(t))
+    return sim.p.reshape(t.shape)
 
 
 def mobility(t):
@@ -109,6 +111,7 @@ def generate(seed: int = SEED) -> list[str]:
         "# lab: Harrowgate Cryo Lab (fictional)",
         "# sample: HG-W07-C3",
         "# wafer: HGW-07 (fictional boron-doped silicon)",
+        "# material: Si",
         "# synthetic: yes",
         f"# seed: {seed}",
         f"# thickness: {THICKNESS_CM * 1e4:g} um +- {THICKNESS_ERR_CM * 1e4:g} um",
