@@ -502,6 +502,7 @@ def indeterminate(
     temperature_K: float | None = None,
     measured: float | None = None,
     stderr: float | None = None,
+    notes: Sequence[str] = (),
 ) -> ClaimVerdict:
     """An indeterminate verdict for a claim that the measurement cannot decide.
 
@@ -528,6 +529,8 @@ def indeterminate(
         The claim's temperature. [K]
     measured, stderr
         The measured value in the claim's quantity when one exists, else None. [canonical unit]
+    notes
+        Further remarks.
 
     Returns
     -------
@@ -549,6 +552,7 @@ def indeterminate(
         claim_key=claim_key,
         method=method,
         temperature_K=temperature_K,
+        notes=tuple(notes),
     )
 
 

@@ -57,6 +57,13 @@ _ALIASES = {
 #: Conductivity type each dopant produces in silicon.
 CARRIER_OF_DOPANT = {"boron": "p", "phosphorus": "n"}
 
+#: Ionization energy of each dopant's level in silicon, from its band edge (phosphorus below
+#: E_c, boron above E_v): 45 meV each (C. Kittel, Introduction to Solid State Physics, tables
+#: of donor and acceptor ionization energies in Si and Ge; from memory). Used to check that a
+#: single room-temperature Hall density is the net doping (:mod:`freezeout.claims.single_point`).
+#: [eV]
+IONIZATION_ENERGY_EV = {"boron": 0.045, "phosphorus": 0.045}
+
 #: Resistivity range over which ASTM F723 states the relations' self-consistency. [ohm cm]
 RESISTIVITY_RANGE = {"boron": (1e-4, 1e4), "phosphorus": (2e-4, 4e3)}
 
