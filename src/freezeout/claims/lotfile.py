@@ -29,10 +29,15 @@ A lot file is TOML in freezeout's own schema (documented, with an example, in
     tolerance = "10%"         # or an absolute number in `unit`
     unit = "cm^-3"
 
+    [measurement]             # optional
+    hall_factor = 1.15        # r_H applied to the Hall densities; default: the run's own
+    hall_factor_uncertainty = 0.05   # standard uncertainty of r_H, absolute; default 0
+
     [[wafer]]
     id = "W01"
     material = "Si"           # or material_file = "materials/si.toml"
     run = "runs/w01.csv"      # relative to this file
+    # hall_factor, hall_factor_uncertainty: as in [measurement], for this wafer only
 
 Unknown keys, missing keys, wrong types, missing files and impossible claims are
 :class:`freezeout.errors.InputError` naming the file, the line where it can be found, and the
@@ -60,14 +65,20 @@ from freezeout.physics.materials import get_material
 QUANTITIES = ("net_doping", "resistivity", "type")
 _DIMENSION = {"net_doping": "density", "resistivity": "resistivity"}
 
-_TOP_KEYS = {"supplier", "lot", "date", "certificate", "note", "decision", "claim", "wafer"}
+_TOP_KEYS = {"supplier", "lot", "date", "certificate", "note", "decision", "measurement",
+             "claim", "wafer"}
 _DECISION_KEYS = {"rule", "coverage_factor"}
+_HALL_KEYS = {"hall_factor", "hall_factor_uncertainty"}
+_MEASUREMENT_KEYS = set(_HALL_KEYS)
 _CLAIM_KEYS = {
     "quantity", "min", "max", "nominal", "tolerance", "unit", "dopant", "temperature_K",
     "value", "note",
 }
-_WAFER_KEYS = {"id", "material", "material_file", "run", "note"}
+_WAFER_KEYS = {"id", "material", "material_file", "run", "note", *_HALL_KEYS}
 _SILICON_NAMES = {"si", "silicon"}
+
+#: Accepted Hall factors, the same range the run readers accept. [1]
+HALL_FACTOR_RANGE = (0.1, 10.0)
 
 
 def is_silicon(material: str | None) -> bool:
@@ -148,6 +159,44 @@ class Claim:
 
 
 @dataclass(frozen=True)
+class HallFactor:
+    """The Hall scattering factor r_H with which a wafer's Hall densities are taken.
+
+    The Hall density of a run is r_H / (q |R_H|); every net doping derived from it scales with
+    r_H, so its relative uncertainty u(r_H) / r_H adds in quadrature to theirs (not to a
+    measured resistivity, which does not involve r_H).
+
+    Attributes
+    ----------
+    value
+        r_H as the lot file states it, or None: then the run's own (its ``# hall_factor:``
+        line, else 1). [1]
+    stderr
+        Standard uncertainty of r_H, absolute; 0 when the lot file states none. [1]
+    value_key, stderr_key
+        Key paths the two came from (``"measurement.hall_factor"``,
+        ``"wafer[2].hall_factor_uncertainty"``), or None when not given.
+    """
+
+    value: float | None = None
+    stderr: float = 0.0
+    value_key: str | None = None
+    stderr_key: str | None = None
+
+    @property
+    def relative_uncertainty(self) -> float:
+        """u(r_H) / r_H; 0 when no uncertainty is stated. [1]"""
+        if not self.stderr > 0 or self.value is None:
+            return 0.0
+        return self.stderr / self.value
+
+    def to_dict(self) -> dict:
+        """Plain-JSON form (``value`` None: the run's own r_H)."""
+        return {"value": self.value, "stderr": self.stderr, "value_key": self.value_key,
+                "stderr_key": self.stderr_key}
+
+
+@dataclass(frozen=True)
 class Wafer:
     """One measured wafer.
 
@@ -167,6 +216,8 @@ class Wafer:
         room-temperature result).
     note
         Free text from the file.
+    hall_factor
+        The Hall factor for this wafer: its own keys over the lot's ``[measurement]``.
     """
 
     key: str
@@ -175,6 +226,7 @@ class Wafer:
     material_file: Path | None
     run: Path
     note: str | None = None
+    hall_factor: HallFactor = HallFactor()
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""
@@ -185,6 +237,7 @@ class Wafer:
             "material_file": None if self.material_file is None else str(self.material_file),
             "run": str(self.run),
             "note": self.note,
+            "hall_factor": self.hall_factor.to_dict(),
         }
 
 
@@ -206,6 +259,9 @@ class LotFile:
         In file order.
     certificate, note
         Optional free text (certificate number, remarks).
+    measurement
+        The lot-wide Hall factor of the optional ``[measurement]`` table (each wafer's own,
+        resolved, is :attr:`Wafer.hall_factor`).
     """
 
     path: Path
@@ -217,6 +273,7 @@ class LotFile:
     wafers: tuple[Wafer, ...]
     certificate: str | None = None
     note: str | None = None
+    measurement: HallFactor = HallFactor()
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""
@@ -228,9 +285,36 @@ class LotFile:
             "certificate": self.certificate,
             "note": self.note,
             "decision": self.decision.to_dict(),
+            "measurement": self.measurement.to_dict(),
             "claims": [c.to_dict() for c in self.claims],
             "wafers": [w.to_dict() for w in self.wafers],
         }
+
+
+def claim_dopant(claim: Claim, claims) -> str | None:
+    """The dopant that the net doping behind ``claim`` is taken to come from.
+
+    The claim's own ``dopant`` when it names one; otherwise the single boron or phosphorus
+    dopant that the lot's claims name (e.g. a resistivity claim's ``dopant = "phosphorus"``);
+    otherwise None (none, or both, named).
+
+    Parameters
+    ----------
+    claim
+        The claim being decided.
+    claims
+        All the lot's claims.
+
+    Returns
+    -------
+    str or None
+        ``"boron"``, ``"phosphorus"``, another dopant as written (lower case), or None.
+    """
+    if claim.dopant:
+        return claim.dopant
+    named = {c.dopant for c in claims if c.dopant in silicon.DOPANTS}
+    return named.pop() if len(named) == 1 else None
+
 
 
 # ---------------------------------------------------------------------------------------------
@@ -364,6 +448,40 @@ def _parse_decision(ctx: _Ctx, d: dict) -> Decision:
     return Decision(rule=rule, coverage_factor=k)
 
 
+def _parse_hall(ctx: _Ctx, d: dict, table: str, index: int | None,
+                inherit: HallFactor) -> HallFactor:
+    """The Hall-factor keys of ``[measurement]`` or of one ``[[wafer]]`` over ``inherit``."""
+    value, stderr = inherit.value, inherit.stderr
+    value_key, stderr_key = inherit.value_key, inherit.stderr_key
+    v = _number(ctx, d, "hall_factor", table, index)
+    if v is not None:
+        lo, hi = HALL_FACTOR_RANGE
+        if not lo <= v <= hi:
+            raise ctx.error(f"hall_factor must be between {lo:g} and {hi:g} (near 1 in "
+                            f"practice), got {v:g}",
+                            _path(table, index, "hall_factor"), table, index, "hall_factor")
+        value, value_key = v, _path(table, index, "hall_factor")
+    u = _number(ctx, d, "hall_factor_uncertainty", table, index)
+    if u is not None:
+        if not u >= 0:
+            raise ctx.error(f"hall_factor_uncertainty (a standard uncertainty) must be >= 0, "
+                            f"got {u:g}", _path(table, index, "hall_factor_uncertainty"),
+                            table, index, "hall_factor_uncertainty")
+        stderr, stderr_key = u, _path(table, index, "hall_factor_uncertainty")
+    return HallFactor(value, stderr, value_key, stderr_key)
+
+
+def _parse_measurement(ctx: _Ctx, top: dict) -> HallFactor:
+    if "measurement" not in top:
+        return HallFactor()
+    d = top["measurement"]
+    if not isinstance(d, dict):
+        raise ctx.error("measurement must be a table [measurement]", "measurement",
+                        "measurement")
+    _check_keys(ctx, d, _MEASUREMENT_KEYS, "measurement", None)
+    return _parse_hall(ctx, d, "measurement", None, HallFactor())
+
+
 def _parse_claim(ctx: _Ctx, d: dict, i: int) -> Claim:
     t = "claim"
     _check_keys(ctx, d, _CLAIM_KEYS, t, i)
@@ -488,7 +606,7 @@ def _parse_claim(ctx: _Ctx, d: dict, i: int) -> Claim:
                  tolerance_percent=tolerance_percent, note=note)
 
 
-def _parse_wafer(ctx: _Ctx, d: dict, i: int, base: Path) -> Wafer:
+def _parse_wafer(ctx: _Ctx, d: dict, i: int, base: Path, lot_hall: HallFactor) -> Wafer:
     t = "wafer"
     _check_keys(ctx, d, _WAFER_KEYS, t, i)
     if "id" in d and isinstance(d["id"], int) and not isinstance(d["id"], bool):
@@ -521,7 +639,16 @@ def _parse_wafer(ctx: _Ctx, d: dict, i: int, base: Path) -> Wafer:
     if not run.is_file():
         raise ctx.error(f"run file not found: {run}", _path(t, i, "run"), t, i, "run")
     note = _string(ctx, d, "note", t, i, required=False)
-    return Wafer(_path(t, i), wid, material, material_file, run, note)
+    hall = _parse_hall(ctx, d, t, i, lot_hall)
+    if hall.stderr > 0 and hall.value is None:
+        # an uncertainty means nothing without the value it belongs to
+        key = hall.stderr_key or _path(t, i, "hall_factor_uncertainty")
+        table, index = ("measurement", None) if key.startswith("measurement") else (t, i)
+        raise ctx.error(
+            f"{key.rsplit('.', 1)[0]} gives hall_factor_uncertainty, but wafer {wid} has no "
+            "hall_factor (in [measurement] or its [[wafer]] entry) for it to belong to: state "
+            "the r_H the uncertainty is for", key, table, index, "hall_factor_uncertainty")
+    return Wafer(_path(t, i), wid, material, material_file, run, note, hall)
 
 
 def _parse_date(ctx: _Ctx, top: dict) -> _dt.date:
@@ -615,13 +742,14 @@ def parse_lot(text: str, path: str | Path) -> LotFile:
     certificate = _string(ctx, top, "certificate", "", None, required=False)
     note = _string(ctx, top, "note", "", None, required=False)
     decision = _parse_decision(ctx, _table(ctx, top, "decision"))
+    measurement = _parse_measurement(ctx, top)
     claims = [_parse_claim(ctx, d, i) for i, d in
               enumerate(_array_of_tables(ctx, top, "claim"), start=1)]
-    wafers = [_parse_wafer(ctx, d, i, path.parent) for i, d in
+    wafers = [_parse_wafer(ctx, d, i, path.parent, measurement) for i, d in
               enumerate(_array_of_tables(ctx, top, "wafer"), start=1)]
     _cross_checks(ctx, claims, wafers)
     return LotFile(path, supplier, lot, date, decision, tuple(claims), tuple(wafers),
-                   certificate, note)
+                   certificate, note, measurement)
 
 
 def load_lot(path: str | Path) -> LotFile:
