@@ -225,6 +225,23 @@ def err(lotdir, text) -> InputError:
         (lambda s: s + '\n[[claim]]\nquantity = "type"\nvalue = "p"\n', "claim[4].value",
          "contradict"),
         (lambda s: s.replace('id = "W02"', 'id = "W01"'), "wafer[2].id", "duplicate wafer id"),
+        # the Hall factor: unknown keys, bad values, an uncertainty without its value
+        (lambda s: s.replace("[decision]", "[measurement]\nhall_factr = 1.1\n\n[decision]"),
+         "measurement.hall_factr", "unknown key 'hall_factr'"),
+        (lambda s: s.replace("[decision]", "[measurement]\nhall_factor = 0\n\n[decision]"),
+         "measurement.hall_factor", "between 0.1 and 10"),
+        (lambda s: s.replace("[decision]", 'measurement = 1.1\n\n[decision]'),
+         "measurement", "must be a table"),
+        (lambda s: s.replace('id = "W02"', 'id = "W02"\nhall_factor = "1.1"'),
+         "wafer[2].hall_factor", "must be a number"),
+        (lambda s: s.replace('id = "W02"', 'id = "W02"\nhall_factor = 1.1\n'
+                             'hall_factor_uncertainty = -0.1'),
+         "wafer[2].hall_factor_uncertainty", "must be >= 0"),
+        (lambda s: s.replace('id = "W02"', 'id = "W02"\nhall_factor_uncertainty = 0.05'),
+         "wafer[2].hall_factor_uncertainty", "no hall_factor"),
+        (lambda s: s.replace("[decision]",
+                             "[measurement]\nhall_factor_uncertainty = 0.05\n\n[decision]"),
+         "measurement.hall_factor_uncertainty", "wafer W01 has no hall_factor"),
     ],
 )
 def test_bad_lot_files_give_clear_errors(lotdir, edit, column, message):
@@ -233,6 +250,32 @@ def test_bad_lot_files_give_clear_errors(lotdir, edit, column, message):
     assert e.column == column, str(e)
     assert message in e.message, str(e)
     assert e.file == str((lotdir / "lot.toml").resolve())
+
+
+def test_hall_factor_of_the_lot_and_of_a_wafer(lotdir):
+    # no [measurement]: r_H is the run's own (value None), with no uncertainty
+    lot = load_lot(write(lotdir, HEAD + CLAIMS + WAFERS))
+    assert lot.measurement.value is None and lot.wafers[0].hall_factor.stderr == 0.0
+    assert lot.wafers[0].hall_factor.relative_uncertainty == 0.0
+    # the lot's [measurement] applies to every wafer; a wafer's own keys override it, each
+    # key on its own (W02 takes its r_H but keeps the lot's uncertainty)
+    text = (HEAD + "\n[measurement]\nhall_factor = 1.15\nhall_factor_uncertainty = 0.05\n"
+            + CLAIMS + WAFERS.replace('id = "W02"', 'id = "W02"\nhall_factor = 0.75'))
+    lot = load_lot(write(lotdir, text))
+    w1, w2 = (w.hall_factor for w in lot.wafers)
+    assert (w1.value, w1.stderr, w1.value_key) == (1.15, 0.05, "measurement.hall_factor")
+    assert (w2.value, w2.stderr) == (0.75, 0.05)
+    assert (w2.value_key, w2.stderr_key) == ("wafer[2].hall_factor",
+                                             "measurement.hall_factor_uncertainty")
+    # u(r_H)/r_H: 0.05 / 1.15 = 0.043478 (by hand)
+    assert w1.relative_uncertainty == pytest.approx(0.043478, rel=1e-4)
+    assert lot.to_dict()["measurement"]["value"] == 1.15
+    assert lot.to_dict()["wafers"][1]["hall_factor"]["value"] == 0.75
+    # an uncertainty given only where a wafer states its own r_H is fine
+    text = HEAD + CLAIMS + WAFERS.replace(
+        'id = "W02"', 'id = "W02"\nhall_factor = 1.1\nhall_factor_uncertainty = 0.1')
+    w2 = load_lot(write(lotdir, text)).wafers[1].hall_factor
+    assert (w2.value, w2.stderr) == (1.1, 0.1)
 
 
 def test_errors_carry_the_line(lotdir):
@@ -290,7 +333,7 @@ def test_net_doping_compared_directly(lotdir):
     assert (v.verdict, v.measured, v.stderr, v.margin) == ("accept", 5e14, 5e12,
                                                             pytest.approx(5.0))
     # p-type fits report N_D - N_A < 0: the magnitude is compared
-    assert evaluate_claim(c, measured(n=-5e14), lot.decision).measured == 5e14
+    assert evaluate_claim(c, measured(n=-5e14, carrier="p"), lot.decision).measured == 5e14
     # y = 5.45e14, U = 1e13 -> y + U = 5.55e14 > 5.5e14: straddles; margin 5e12/1e13 = +0.5
     v = evaluate_claim(c, measured(n=5.45e14), lot.decision)
     assert (v.verdict, v.margin) == ("indeterminate", pytest.approx(0.5))
@@ -322,10 +365,14 @@ def test_measured_resistivity_near_the_claim_temperature_is_preferred(lotdir):
     c = lot.claims[1]
     pts = [{"temperature_K": 77.0, "value": 2.0, "stderr": 0.01},
            {"temperature_K": 296.5, "value": 10.0, "stderr": 0.1}]
-    # |296.5 - 296.15| = 0.35 K <= 1 K tolerance: used as measured; U = 0.2, margin 2/0.2 = 10
+    # |296.5 - 296.15| = 0.35 K <= 1 K tolerance: used as measured, with the type-B term of
+    # the uncorrected 0.35 K: 0.35 * 0.008 / sqrt(3) = 1.6166e-3 relative, 0.016166 ohm cm;
+    # u = hypot(0.1, 0.016166) = 0.101298, U = 0.202597, margin 2 / 0.202597 = 9.8718 (by hand)
     v = evaluate_claim(c, measured(rho=pts), lot.decision)
-    assert (v.measured, v.stderr, v.verdict) == (10.0, 0.1, "accept")
-    assert v.margin == pytest.approx(10.0) and "296.50 K" in v.method
+    assert (v.measured, v.verdict) == (10.0, "accept")
+    assert v.stderr == pytest.approx(0.101298, rel=1e-5)
+    assert v.margin == pytest.approx(9.8718, rel=1e-4) and "296.50 K" in v.method
+    assert any("0.162 %" in note and "no temperature correction" in note for note in v.notes)
     # too far (tolerance 0.2 K): the conversion is used instead
     v = evaluate_claim(c, measured(rho=pts), lot.decision, temperature_tolerance_K=0.2)
     assert "ASTM F723" in v.method
@@ -365,7 +412,8 @@ def test_conversion_outside_its_range_is_indeterminate(lotdir):
 
 def test_conversion_caveats_are_noted(lotdir):
     warm = lot_of(lotdir, CLAIMS.replace("temperature_K = 296.15", "temperature_K = 300"))
-    v = evaluate_claim(warm.claims[1], measured(comp=0.3, carrier="p"), warm.decision)
+    v = evaluate_claim(warm.claims[1], measured(n=-5e14, comp=0.3, carrier="p"),
+                       warm.decision)
     text = " ".join(v.notes)
     assert "no temperature correction" in text
     assert "uncompensated" in text and "does not match phosphorus" in text

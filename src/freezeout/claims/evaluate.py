@@ -5,32 +5,46 @@ This module does not fit anything. It consumes a plain *measured-quantities* dic
     {
         "material": "Si",
         "carrier": "n",                                   # majority carrier, "n" or "p"
-        "net_doping_cm3": {"value": 4.9e14, "stderr": 1.2e13},   # N_D - N_A (sign ignored)
+        "net_doping_cm3": {"value": 4.9e14, "stderr": 1.2e13},   # N_D - N_A, signed
         "net_doping_method": "fitted net doping",         # optional, for the record
         "resistivity_ohm_cm_at_T": [                      # or one such dict, or None
             {"temperature_K": 296.2, "value": 9.7, "stderr": 0.1},
         ],
         "compensation_ratio": 0.02,                       # optional, N_minor / N_major
+        "hall_factor": {"value": 1.0, "stderr": 0.0,      # optional: r_H of the Hall
+                        "source": "default"},             #   densities, its uncertainty
+        "ionization": {"phosphorus": {...}},              # optional, single points only
         "warnings": [],                                   # optional, carried as notes
     }
 
 :func:`measured_from_fit` builds it from the fit result JSON (``freezeout.fit_file(...)
-.to_dict()``); a single room-temperature result gives the same dict directly.
+.to_dict()``); a single room-temperature result gives the same dict directly, with
+``ionization`` mapping each dopant the claims need (``""`` for none named) to the
+:meth:`freezeout.claims.single_point.IonizationCheck.to_dict` of the point.
 
 How each claim is measured
 --------------------------
 ``net_doping``
-    Compared directly with ``|N_D - N_A|`` and its standard uncertainty, in cm^-3, for any
-    material (no conversion).
+    Compared with ``|N_D - N_A|`` and its standard uncertainty, in cm^-3, for any material
+    (no conversion). The sign must agree with the majority carrier (positive for n, negative
+    for p); a net doping of the other sign is not silently taken as its magnitude: the claim
+    is indeterminate, with the reason. The Hall factor's relative standard uncertainty
+    ``u(r_H) / r_H`` is added in quadrature (the net doping comes from Hall densities, which
+    scale with r_H). A single room-temperature result whose ``ionization`` check failed gives
+    an indeterminate claim with its reason. The claim temperature does not enter: a fit gives
+    N_D - N_A, which does not depend on T, and a single point is used only in saturation.
 ``resistivity``
     A measured resistivity within ``temperature_tolerance_K`` of the claim temperature, with a
     known uncertainty, is used as it is. Otherwise, for silicon with the claim's dopant boron
-    or phosphorus, the net doping is converted with ASTM F723 (Thurber et al., NBS SP 400-64;
-    :mod:`freezeout.claims.silicon`), the relation's stated uncertainty (3 % boron, 4.5 %
-    phosphorus) added in quadrature. The relations refer to 23 degC; claims within
-    :data:`CONVERSION_TEMPERATURE_WINDOW_K` of it are treated as room-temperature claims with
-    no temperature correction (and a note says so). A net doping outside the relation's range
-    gives an indeterminate verdict: the measurement cannot decide the claim.
+    or phosphorus, the net doping (with its uncertainty as above) is converted with ASTM F723
+    (Thurber et al., NBS SP 400-64; :mod:`freezeout.claims.silicon`), the relation's stated
+    uncertainty (3 % boron, 4.5 % phosphorus) added in quadrature. The relations refer to
+    23 degC; claims within :data:`CONVERSION_TEMPERATURE_WINDOW_K` of it are treated as
+    room-temperature claims. A net doping outside the relation's range gives an indeterminate
+    verdict: the measurement cannot decide the claim. Either way no temperature correction
+    is made from the temperature the value refers to (the measured point's, or 296.15 K for
+    F723) to the claim temperature; the unknown correction is a type-B relative standard
+    uncertainty :func:`temperature_term`, added in quadrature and stated in the notes.
 ``type``
     Accepted when the measured majority carrier matches; no uncertainty is attached.
 
@@ -41,11 +55,15 @@ References
 ----------
 .. [1] ASTM F723-99; W. R. Thurber et al., NBS Special Publication 400-64 (1981).
 .. [2] JCGM 106:2012; ISO 14253-1:2017.
+.. [3] JCGM 100:2008 (GUM), 4.3.7: a rectangular distribution of half-width a has standard
+   uncertainty a / sqrt(3).
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
 
 from freezeout.claims import silicon
 from freezeout.claims.conformity import (
@@ -58,7 +76,8 @@ from freezeout.claims.conformity import (
     decide_type,
     indeterminate,
 )
-from freezeout.claims.lotfile import Claim, Decision, LotFile, is_silicon
+from freezeout.claims.lotfile import Claim, Decision, LotFile, claim_dopant, is_silicon
+from freezeout.claims.single_point import IonizationCheck
 from freezeout.errors import InputError
 from freezeout.numbers import finite_or_none
 
@@ -73,6 +92,32 @@ DEFAULT_TEMPERATURE_TOLERANCE_K = 1.0
 #: silicon) gets a caveat note; common practice, no source. [1]
 COMPENSATION_NOTE_THRESHOLD = 0.1
 
+#: Relative temperature coefficient of the resistivity of lightly doped silicon near room
+#: temperature, d ln(rho) / dT ~ 0.008 /K (from memory: the lattice-scattering mobility goes
+#: about as T^-2.4 in Si, C. Jacoboni et al., Solid-State Electron. 20, 77 (1977), from
+#: memory; 2.4 / 300 K = 0.008 /K). Used for every material, as no other is stated here. [1/K]
+RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K = 0.008
+
+
+def temperature_term(delta_t_K: float) -> float:
+    """Relative standard uncertainty of an uncorrected resistivity temperature offset.
+
+    The correction from the temperature the value refers to, to the claim temperature, is
+    not made; it is taken as unknown within +- |dT| c_T (c_T =
+    :data:`RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K`), a rectangular distribution, whose
+    standard uncertainty is |dT| c_T / sqrt(3) (JCGM 100:2008, 4.3.7).
+
+    Parameters
+    ----------
+    delta_t_K
+        Claim temperature minus the temperature the value refers to. [K]
+
+    Returns
+    -------
+    float
+        Relative standard uncertainty. [1]
+    """
+    return abs(delta_t_K) * RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K / math.sqrt(3.0)
 
 
 def measured_from_fit(fit: Mapping) -> dict:
@@ -82,15 +127,17 @@ def measured_from_fit(fit: Mapping) -> dict:
     ----------
     fit
         The dict of ``freezeout.fit_file(...).to_dict()``: uses ``material.name``,
-        ``carrier``, ``net_doping_cm3``, ``compensation_ratio``, ``warnings`` and, from
-        ``data``, ``temperature_K`` with ``resistivity_ohm_cm`` and (when present)
-        ``resistivity_err_ohm_cm`` (standard uncertainty per point) and ``severe`` (points
-        that failed a severe data-quality check are left out).
+        ``carrier``, ``net_doping_cm3``, ``compensation_ratio``, ``warnings``,
+        ``hall_factor`` and, from ``data``, ``temperature_K`` with ``resistivity_ohm_cm`` and
+        (when present) ``resistivity_err_ohm_cm`` (standard uncertainty per point) and
+        ``severe`` (points that failed a severe data-quality check are left out).
 
     Returns
     -------
     dict
-        The measured-quantities dict described in this module's docstring.
+        The measured-quantities dict described in this module's docstring. Its
+        ``hall_factor`` is the fit's r_H with no uncertainty (the lot file's, when it states
+        one, is put in by the caller).
     """
     material = fit.get("material")
     name = material.get("name") if isinstance(material, Mapping) else material
@@ -109,6 +156,7 @@ def measured_from_fit(fit: Mapping) -> dict:
         if t is not None and r is not None and r > 0 and not bad:
             points.append({"temperature_K": t, "value": r, "stderr": finite_or_none(e)})
     provenance = fit.get("provenance") or {}
+    r_h = finite_or_none(fit.get("hall_factor"))
     return {
         "material": name,
         "carrier": fit.get("carrier"),
@@ -116,6 +164,7 @@ def measured_from_fit(fit: Mapping) -> dict:
         "net_doping_method": "fitted net doping |N_D - N_A|",
         "resistivity_ohm_cm_at_T": points or None,
         "compensation_ratio": comp_v,
+        "hall_factor": {"value": r_h, "stderr": 0.0, "source": "the fit"},
         "warnings": list(fit.get("warnings") or []),
         "source": provenance.get("input"),
     }
@@ -135,21 +184,94 @@ def _resistivity_points(measured: Mapping) -> list[dict]:
     return out
 
 
-def _net_doping(measured: Mapping, where: str, claim: Claim) -> tuple[float, float | None,
-                                                                       list[str]]:
+@dataclass
+class _NetDoping:
+    """|N_D - N_A| with its uncertainty, or the reason it cannot be had."""
+
+    value: float | None
+    stderr: float | None
+    notes: list[str] = field(default_factory=list)
+    reason: str | None = None
+
+
+def _hall_term(measured: Mapping, y: float, u: float | None, notes: list[str]) -> float | None:
+    """Add u(r_H)/r_H in quadrature to the relative uncertainty of y (a net doping)."""
+    hall = measured.get("hall_factor")
+    if not isinstance(hall, Mapping):
+        return u
+    r = finite_or_none(hall.get("value"))
+    u_r = finite_or_none(hall.get("stderr")) or 0.0
+    source = hall.get("source") or "not stated"
+    if r is None or not r > 0:
+        return u
+    if not u_r > 0:
+        notes.append(f"Hall factor r_H = {r:g} ({source}) with no stated uncertainty: none "
+                     "in the budget (r_H depends on material, doping, temperature and "
+                     "scattering; see docs/lot_format.md)")
+        return u
+    rel = u_r / r
+    if u is None:
+        notes.append(f"the Hall factor's relative uncertainty u(r_H)/r_H = {100 * rel:.3g} % "
+                     f"(r_H = {r:g} +- {u_r:g}, {source}) is not added: the net doping has no "
+                     "known uncertainty")
+        return None
+    notes.append(f"includes the Hall factor's relative standard uncertainty u(r_H)/r_H = "
+                 f"{u_r:g}/{r:g} = {100 * rel:.3g} % ({source}) in quadrature")
+    return math.hypot(u, y * rel)
+
+
+def _net_doping(measured: Mapping, where: str, claim: Claim, dopant: str | None
+                ) -> _NetDoping:
     nd = measured.get("net_doping_cm3")
     value = finite_or_none(nd.get("value")) if isinstance(nd, Mapping) else None
     if value is None:
         raise InputError(f"{where}: the measurement gives no net doping for {claim.key} "
                          f"({claim.quantity})", column=claim.key)
-    notes = []
-    raw_u = nd.get("stderr")
-    u = finite_or_none(raw_u)
+    notes: list[str] = []
+    u = finite_or_none(nd.get("stderr"))
     if u is not None and u < 0:
         raise InputError(f"{where}: negative net-doping uncertainty {u:g}", column=claim.key)
+    carrier = measured.get("carrier")
+    if (carrier == "n" and not value > 0) or (carrier == "p" and not value < 0):
+        sign = "zero" if value == 0 else (
+            f"{value:.4g} cm^-3, the sign of a {'p' if value < 0 else 'n'}-type sample")
+        return _NetDoping(None, None, notes, (
+            f"{where}: the net doping N_D - N_A is {sign}, but the run's majority carrier is "
+            f"{carrier}; the measurement contradicts itself and is not taken as a magnitude"))
+    ionization = measured.get("ionization")
+    if isinstance(ionization, Mapping):
+        check = ionization.get(dopant or "")
+        if not isinstance(check, Mapping):
+            return _NetDoping(None, None, notes, (
+                f"{where}: the single room-temperature result was not checked for the "
+                f"ionization of {dopant or 'the dopant'}"))
+        if check.get("reason"):
+            return _NetDoping(None, None, notes, f"{where}: {check['reason']}")
+        note = IonizationCheck(**check).note()
+        if note:
+            notes.append(note)
+    y = abs(value)
     if u is None:
         notes.append("the measurement gives no finite uncertainty for the net doping")
-    return abs(value), u, notes
+    u = _hall_term(measured, y, u, notes)
+    return _NetDoping(y, u, notes)
+
+
+def _temperature_note(what: str, t_ref: float, t_claim: float, rel: float) -> str:
+    return (f"{what} refers to {t_ref:.2f} K, the claim to {t_claim:.2f} K: no temperature "
+            f"correction applied; the unknown correction is a type-B relative standard "
+            f"uncertainty |dT| c_T / sqrt(3) = {abs(t_claim - t_ref):.3g} K x "
+            f"{RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K:g} /K / sqrt(3) = {100 * rel:.3g} % "
+            "(rectangular; c_T of lightly doped silicon), added in quadrature")
+
+
+def _with_temperature_term(value: float, u: float | None, t_ref: float, t_claim: float,
+                           what: str, notes: list[str]) -> float | None:
+    rel = temperature_term(t_claim - t_ref)
+    if not rel > 0:
+        return u
+    notes.append(_temperature_note(what, t_ref, t_claim, rel))
+    return None if u is None else math.hypot(u, value * rel)
 
 
 def evaluate_claim(
@@ -159,6 +281,7 @@ def evaluate_claim(
     *,
     wafer_id: str = "",
     temperature_tolerance_K: float = DEFAULT_TEMPERATURE_TOLERANCE_K,
+    dopant: str | None = None,
 ) -> ClaimVerdict:
     """Decide one claim for one wafer.
 
@@ -174,6 +297,10 @@ def evaluate_claim(
         For messages.
     temperature_tolerance_K
         How far a measured resistivity point may be from the claim temperature. [K]
+    dopant
+        The dopant the net doping is taken to come from (for a single point's ionization
+        check); default the claim's own (:func:`freezeout.claims.lotfile.claim_dopant`
+        resolves it over the lot).
 
     Returns
     -------
@@ -201,11 +328,16 @@ def evaluate_claim(
     window = claim.window
     assert window is not None
     ctx = {"quantity": claim.quantity, "temperature_K": claim.temperature_K, **common}
+    if dopant is None:
+        dopant = claim.dopant
 
     if claim.quantity == "net_doping":
-        y, u, notes = _net_doping(measured, where, claim)
         method = str(measured.get("net_doping_method") or "net doping |N_D - N_A|")
-        return decide(y, u, window, method=method, notes=notes, **ctx)
+        nd = _net_doping(measured, where, claim, dopant)
+        if nd.reason is not None:
+            return indeterminate(claim.quantity, window, nd.reason, method=method,
+                                 temperature_K=claim.temperature_K, notes=nd.notes, **common)
+        return decide(nd.value, nd.stderr, window, method=method, notes=nd.notes, **ctx)
 
     # resistivity
     points = _resistivity_points(measured)
@@ -216,7 +348,10 @@ def evaluate_claim(
             near = best
     if near is not None and near["stderr"] is not None:
         method = f"measured resistivity at {near['temperature_K']:.2f} K"
-        return decide(near["value"], near["stderr"], window, method=method, **ctx)
+        notes: list[str] = []
+        u = _with_temperature_term(near["value"], near["stderr"], near["temperature_K"],
+                                   claim.temperature_K, "the measured resistivity", notes)
+        return decide(near["value"], u, window, method=method, notes=notes, **ctx)
 
     if claim.dopant in silicon.DOPANTS:
         material = measured.get("material")
@@ -231,11 +366,13 @@ def evaluate_claim(
                 f"{where}: {claim.key} is at {claim.temperature_K:g} K, but the run has no "
                 f"measured resistivity within {temperature_tolerance_K:g} K of it and the ASTM "
                 "F723 conversion refers to 23 degC (296.15 K)", column=claim.key)
-        n, u_n, notes = _net_doping(measured, where, claim)
         method = f"ASTM F723 ({claim.dopant}) from net doping"
-        if abs(dt) > 0.5:
-            notes.append(f"ASTM F723 refers to 23 degC (296.15 K); the claim is at "
-                         f"{claim.temperature_K:g} K; no temperature correction applied")
+        nd = _net_doping(measured, where, claim, claim.dopant)
+        notes = nd.notes
+        if nd.reason is not None:
+            return indeterminate(claim.quantity, window, nd.reason, method=method,
+                                 temperature_K=claim.temperature_K, notes=notes, **common)
+        n, u_n = nd.value, nd.stderr
         comp = finite_or_none(measured.get("compensation_ratio"))
         if comp is not None and comp > COMPENSATION_NOTE_THRESHOLD:
             notes.append(f"ASTM F723 is for uncompensated silicon; the fitted compensation "
@@ -254,15 +391,19 @@ def evaluate_claim(
             return indeterminate(
                 claim.quantity, window,
                 f"{where}: net doping {n:.4g} cm^-3 cannot be converted ({exc.message})",
-                method=method, temperature_K=claim.temperature_K, **common)
+                method=method, temperature_K=claim.temperature_K, notes=notes, **common)
         notes.append(f"includes the stated ASTM F723 uncertainty of "
                      f"{100 * silicon.RELATIVE_UNCERTAINTY[claim.dopant]:g} % ({claim.dopant})")
+        u_rho = _with_temperature_term(rho, u_rho, silicon.REFERENCE_TEMPERATURE_K,
+                                       claim.temperature_K, "ASTM F723 (23 degC)", notes)
         return decide(rho, u_rho, window, method=method, notes=notes, **ctx)
 
     if near is not None:
         method = f"measured resistivity at {near['temperature_K']:.2f} K"
-        return decide(near["value"], None, window, method=method,
-                      notes=["the measured resistivity has no uncertainty"], **ctx)
+        notes = ["the measured resistivity has no uncertainty"]
+        _with_temperature_term(near["value"], None, near["temperature_K"],
+                               claim.temperature_K, "the measured resistivity", notes)
+        return decide(near["value"], None, window, method=method, notes=notes, **ctx)
     raise InputError(
         f"{where}: {claim.key} (resistivity at {claim.temperature_K:g} K) needs a measured "
         f"resistivity within {temperature_tolerance_K:g} K of that temperature, or a dopant "
@@ -299,7 +440,8 @@ def evaluate_wafer(
         else accept; with the deciding claim. Warnings in ``measured`` become notes.
     """
     verdicts = [evaluate_claim(c, measured, decision, wafer_id=wafer_id,
-                               temperature_tolerance_K=temperature_tolerance_K) for c in claims]
+                               temperature_tolerance_K=temperature_tolerance_K,
+                               dopant=claim_dopant(c, claims)) for c in claims]
     return aggregate_wafer(wafer_id, verdicts, notes=[str(w) for w in
                                                       measured.get("warnings") or []])
 

@@ -31,8 +31,9 @@ EXIT_CODES = {"accept": 0, "reject": 3, "indeterminate": 4}
 
 #: Fit settings used for every wafer (the lot file has no fit options): one partially
 #: ionized majority level and one fully ionized compensating species, Fermi-Dirac
-#: statistics, Hall factor 1.
-FIT_OPTIONS = {"donors": 1, "acceptors": 1, "statistics": "fermi-dirac", "hall_factor": 1.0}
+#: statistics. The Hall factor is the lot file's (``[measurement]`` or the wafer's
+#: ``hall_factor``) when it states one, else the run's own (``# hall_factor:``, else 1).
+FIT_OPTIONS = {"donors": 1, "acceptors": 1, "statistics": "fermi-dirac"}
 
 #: A run with a single point is read as a room-temperature result when its temperature lies
 #: in this range; common practice for "room temperature", no source. [K]
@@ -54,22 +55,36 @@ def _reason_from(exc: Exception, run_name: str, what: str) -> str:
     return f"{what} {run_name}{loc}: {msg}{tail}"
 
 
-def single_point_measurement(run, material) -> dict:
+def single_point_measurement(run, material, *, dopants=(None,), hall_factor=None) -> dict:
     """The measured-quantities dict of a single room-temperature result.
 
     With every dopant ionized (the saturation range) and non-degenerate statistics, charge
     neutrality n + N_A = p + N_D and n p = n_i^2 give the net doping from the majority
-    density m as ``|N_D - N_A| = m - n_i^2 / m``, with n_i(T) of the material; its standard
-    uncertainty is ``u_m (1 + n_i^2 / m^2)``, from the file's density uncertainty only (none
-    given: unknown). A resistivity column with its uncertainty is kept as the measured
-    resistivity at that temperature.
+    density m as ``|N_D - N_A| = m - n_i^2 / m``, with n_i(T) of the material (reported
+    signed: negative for a p-type point). Its standard uncertainty is
+    ``hypot(u_m, s m) (1 + n_i^2 / m^2)``, with u_m the file's point-to-point density
+    uncertainty and s the relative uncertainty common to every point that the reader split
+    out of it (``RunData.scale_uncertainty``, the sample thickness of a reduced run); no
+    density uncertainty given: unknown. The Hall factor's uncertainty is added when the claim
+    is evaluated (:mod:`freezeout.claims.evaluate`). A resistivity column with its uncertainty
+    is kept as the measured resistivity at that temperature (the readers keep the thickness
+    part inside ``resistivity_err``; nothing is split out of it).
+
+    Whether the point is in saturation is checked for each dopant in ``dopants``
+    (:func:`freezeout.claims.single_point.check_single_point`); the result goes under
+    ``ionization``, and a failed check makes the net-doping claims that depend on it
+    indeterminate.
 
     Parameters
     ----------
     run
         The run (:class:`freezeout.io.run.RunData`) with exactly one point.
     material
-        The :class:`freezeout.physics.materials.Material` (for n_i).
+        The :class:`freezeout.physics.materials.Material` (for n_i and the ionization).
+    dopants
+        The dopants the lot's net-doping claims are taken to come from (None: none named).
+    hall_factor
+        ``{"value", "stderr", "source"}`` of the r_H the density was taken with.
 
     Returns
     -------
@@ -83,6 +98,8 @@ def single_point_measurement(run, material) -> dict:
         density does not exceed n_i (then it is not a majority-carrier density).
     """
     import math
+
+    from freezeout.claims.single_point import check_single_point
 
     t = float(run.temperature[0])
     lo, hi = ROOM_TEMPERATURE_RANGE_K
@@ -102,29 +119,45 @@ def single_point_measurement(run, material) -> dict:
     u_m = None if run.density_err is None else float(run.density_err[0])
     if u_m is not None and not math.isfinite(u_m):
         u_m = None
-    u_net = None if u_m is None else u_m * (1.0 + (ni / m) ** 2)
+    scale = float(run.scale_uncertainty)
+    u_net = None if u_m is None else math.hypot(u_m, scale * m) * (1.0 + (ni / m) ** 2)
     carrier_word = "n" if run.carrier == "n" else "p"
     rho_points = None
     if run.resistivity is not None and math.isfinite(float(run.resistivity[0])):
         err = None if run.resistivity_err is None else float(run.resistivity_err[0])
         rho_points = [{"temperature_K": t, "value": float(run.resistivity[0]),
                        "stderr": err if err is not None and math.isfinite(err) else None}]
+    ionization = {d or "": check_single_point(material, d, run.carrier, m, t).to_dict()
+                  for d in dict.fromkeys(dopants)}
+    hall = dict(hall_factor or {"value": 1.0, "stderr": 0.0, "source": "default"})
     note = (f"single room-temperature result: net doping |N_D - N_A| taken from the majority "
             f"carrier density {carrier_word} at {t:g} K as {carrier_word} - n_i^2/"
             f"{carrier_word} (n_i = {ni:.3g} cm^-3), which holds in the saturation range where "
-            "every dopant is ionized; no temperature run checks that here. Hall factor r_H = "
-            f"{FIT_OPTIONS['hall_factor']:g} assumed.")
+            "every dopant is ionized; the ionization of the claimed dopant at the measured "
+            f"density is checked with the tool's model. Hall factor r_H = {hall['value']:g} "
+            f"({hall['source']}).")
+    if scale > 0 and u_m is not None:
+        note += (f" The density's uncertainty includes the {100 * scale:.3g} % common to every "
+                 "point (the sample thickness), in quadrature.")
     return {
         "material": material.name,
         "carrier": run.carrier,
-        "net_doping_cm3": {"value": net, "stderr": u_net},
+        "net_doping_cm3": {"value": net if run.carrier == "n" else -net, "stderr": u_net},
         "net_doping_method": f"majority carrier density at {t:g} K (single room-temperature "
                              "result)",
         "resistivity_ohm_cm_at_T": rho_points,
         "compensation_ratio": None,
+        "hall_factor": hall,
+        "ionization": ionization,
         "warnings": [note, *run.notes],
         "source": name,
     }
+
+
+def _hall_source(job: dict) -> str:
+    keys = [k for k in (job.get("hall_factor_key"), job.get("hall_factor_uncertainty_key"))
+            if k]
+    return "lot file " + ", ".join(keys)
 
 
 def measure_wafer(job: dict) -> dict:
@@ -137,8 +170,12 @@ def measure_wafer(job: dict) -> dict:
     Parameters
     ----------
     job
-        ``id``, ``run`` (path), ``material`` (name or None) and ``material_file`` (path or
-        None).
+        ``id``, ``run`` (path), ``material`` (name or None), ``material_file`` (path or
+        None), ``hall_factor`` (the lot file's r_H, or None for the run's own) with
+        ``hall_factor_uncertainty`` (absolute, 0 when none stated) and the keys they came
+        from (``hall_factor_key``, ``hall_factor_uncertainty_key``), and ``dopants`` (the
+        dopants the net-doping claims are taken to come from, for a single point's
+        ionization check).
 
     Returns
     -------
@@ -164,11 +201,23 @@ def measure_wafer(job: dict) -> dict:
         return out
     material = job.get("material")
     material_file = job.get("material_file")
+    stated = job.get("hall_factor")
+    hall_kw = {} if stated is None else {"hall_factor": float(stated)}
+    lot_hall = None if stated is None else {
+        "value": float(stated), "stderr": float(job.get("hall_factor_uncertainty") or 0.0),
+        "source": _hall_source(job)}
     try:
-        run = api.load_run(run_path, hall_factor=FIT_OPTIONS["hall_factor"])
+        run = api.load_run(run_path, **hall_kw)
         if run.n_points == 1:
+            hall = lot_hall
+            if hall is None:  # the run's own r_H (its # hall_factor line, else 1)
+                hall = {"value": float(run.hall_factor), "stderr": 0.0,
+                        "source": "the run's # hall_factor line" if "hall_factor"
+                        in run.metadata else "default 1: neither the lot file nor the run "
+                        "states one"}
             mat = api.load_material(None if material_file else material, material_file)
-            out["measured"] = single_point_measurement(run, mat)
+            out["measured"] = single_point_measurement(
+                run, mat, dopants=tuple(job.get("dopants") or (None,)), hall_factor=hall)
             out["how"] = "single room-temperature result"
             return out
     except InputError as exc:
@@ -176,12 +225,15 @@ def measure_wafer(job: dict) -> dict:
         return out
     try:
         result = api.fit_file(run_path, material=None if material_file else material,
-                              material_file=material_file, **FIT_OPTIONS)
+                              material_file=material_file, **FIT_OPTIONS, **hall_kw)
     except (InputError, FitError) as exc:
         out["reason"] = _reason_from(exc, name, "the fit of")
         return out
     d = result.to_dict()
-    out.update(how="fit", fit=d, measured=measured_from_fit(d))
+    measured = measured_from_fit(d)
+    if lot_hall is not None:
+        measured["hall_factor"] = lot_hall
+    out.update(how="fit", fit=d, measured=measured)
     return out
 
 
@@ -244,11 +296,18 @@ def _fit_summary(fit: dict) -> dict:
 
 def lot_options() -> dict:
     """The options that, with the lot's input files, determine a qualification."""
-    from freezeout.claims.evaluate import DEFAULT_TEMPERATURE_TOLERANCE_K
+    from freezeout.claims.evaluate import (
+        DEFAULT_TEMPERATURE_TOLERANCE_K,
+        RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K,
+    )
+    from freezeout.claims.single_point import FULL_IONIZATION
 
     return {"fit": dict(FIT_OPTIONS),
             "temperature_tolerance_K": DEFAULT_TEMPERATURE_TOLERANCE_K,
-            "room_temperature_range_K": list(ROOM_TEMPERATURE_RANGE_K)}
+            "room_temperature_range_K": list(ROOM_TEMPERATURE_RANGE_K),
+            "full_ionization_fraction": FULL_IONIZATION,
+            "resistivity_temperature_coefficient_per_K":
+                RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K}
 
 
 def build_lot_document(lot, verdict, outcomes: dict[str, dict], sha256: str) -> dict:
@@ -261,6 +320,7 @@ def build_lot_document(lot, verdict, outcomes: dict[str, dict], sha256: str) -> 
     doc["certificate"] = lot.certificate
     doc["note"] = lot.note
     doc["claims"] = [c.to_dict() for c in lot.claims]
+    doc["measurement"] = lot.measurement.to_dict()
     base = lot.path.parent
     by_id = {w.wafer_id: w for w in lot.wafers}
     for w in doc["wafers"]:
@@ -275,6 +335,7 @@ def build_lot_document(lot, verdict, outcomes: dict[str, dict], sha256: str) -> 
             "how": o["how"],
             "reason": o["reason"],
             "fit": None if o["fit"] is None else _fit_summary(o["fit"]),
+            "hall_factor": None if o["measured"] is None else o["measured"].get("hall_factor"),
             "note": wafer.note,
         }
     doc["provenance"] = {
@@ -301,6 +362,21 @@ def _open_store(db: str | None):
         raise InputError(f"--db: history database: {exc}") from None
 
 
+def _net_doping_dopants(lot) -> list[str | None]:
+    """The dopants the lot's claims that rest on a net doping are taken to come from."""
+    from freezeout.claims import silicon
+    from freezeout.claims.lotfile import claim_dopant
+
+    out: list[str | None] = []
+    for c in lot.claims:
+        if c.quantity == "net_doping" or (c.quantity == "resistivity"
+                                          and c.dopant in silicon.DOPANTS):
+            d = claim_dopant(c, lot.claims)
+            if d not in out:
+                out.append(d)
+    return out or [None]
+
+
 def qualify_command(
     lot: Annotated[Path, typer.Argument(metavar="LOT.toml",
                                         help="Lot file (TOML; see docs/lot_format.md).")],
@@ -324,7 +400,12 @@ def qualify_command(
     store = _open_store(db)
     try:
         jobs = [{"id": w.wafer_id, "run": str(w.run), "material": w.material,
-                 "material_file": None if w.material_file is None else str(w.material_file)}
+                 "material_file": None if w.material_file is None else str(w.material_file),
+                 "hall_factor": w.hall_factor.value,
+                 "hall_factor_uncertainty": w.hall_factor.stderr,
+                 "hall_factor_key": w.hall_factor.value_key,
+                 "hall_factor_uncertainty_key": w.hall_factor.stderr_key,
+                 "dopants": _net_doping_dopants(lot_file)}
                 for w in lot_file.wafers]
         n_workers = min(workers or os.cpu_count() or 1, len(jobs))
         progress = not json_output and sys.stderr.isatty()
