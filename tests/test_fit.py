@@ -245,3 +245,21 @@ def test_absurd_options_are_bad_input():
         fit_run(run, si, fix={"N_A": 1e99})
     with pytest.raises(InputError, match="degeneracy"):
         fit_run(run, si, degeneracy=0.0)
+
+
+def test_temperature_uncertainty_enters_as_effective_variance():
+    """Thermometry noise of 0.3 K in freeze-out moves ln n by (d ln n/dT) dT, several % at
+    20-40 K: with T_err given the fit is consistent (reduced chi^2 near 1) and recovers E_D;
+    without, the stated density errors alone are far too small (effective-variance method;
+    ISO/IEC Guide 98-3, 5.1.2)."""
+    from dataclasses import replace
+
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 300, n=40, noise=0.005, seed=8)
+    rng = np.random.default_rng(9)
+    u_t = np.full(run.temperature.size, 0.3)
+    shifted = replace(run, temperature=run.temperature + rng.normal(0, 0.3, run.temperature.size))
+    plain = fit_run(shifted, get_material("Si"))
+    with_t = fit_run(replace(shifted, temperature_err=u_t), get_material("Si"))
+    assert plain.reduced_chi2 > 5
+    assert with_t.reduced_chi2 < 2
+    assert _within(with_t.levels[0].energy, 0.045)

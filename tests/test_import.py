@@ -155,3 +155,9 @@ def test_unused_and_contradicting_columns_are_said(tmp_path):
     assert run.carrier == "p" and run.density_err is None
     text = " ".join(run.notes)
     assert "p_eror" in text and "'# carrier: n'" in text
+
+
+def test_temperature_uncertainty_column(tmp_path):
+    p = _write(tmp_path, "T [K],T_err [mK],n [cm^-3]\n30,200,1e12\n40,100,1e13\n")
+    run = read_run_csv(p)
+    np.testing.assert_allclose(run.temperature_err, [0.2, 0.1])

@@ -136,6 +136,29 @@ class _Problem:
             r = r + 1e3 * penalty * np.sign(r + 1e-300)
         return np.where(np.isfinite(r), r, 1e6)
 
+    def log_slope(self, values: dict) -> np.ndarray:
+        """d ln(density)/dT of the model at the data temperatures, by central difference."""
+        model = self.model
+        t = model.temperature
+        h = 1e-4 * t
+        out = []
+        for tt in (t + h, t - h):
+            bands = BandState.from_material(model.material, tt)
+            res = model.solve(values, bands=bands, warm=False)
+            out.append(res.log_n if model.carrier == "n" else res.log_p)
+        return (out[0] - out[1]) / (2.0 * h)
+
+    def include_temperature(self, values: dict, base_sigma: np.ndarray,
+                            temperature_err: np.ndarray) -> None:
+        """Effective variance sigma^2 + (d ln n/dT u_T)^2, the slope from the model at values.
+
+        The uncertainty of the independent variable is carried into the residual by the
+        law of propagation of uncertainty (ISO/IEC Guide 98-3 (GUM), 5.1.2) applied to the
+        model's temperature dependence.
+        """
+        slope = self.log_slope(values)
+        self.sigma = np.sqrt(base_sigma**2 + (slope * temperature_err) ** 2)
+
     def batch_cost(self, starts: list[dict]) -> np.ndarray:
         """Sum of squared residuals for many starts in one vectorized solve."""
         names = starts[0].keys()
@@ -295,6 +318,13 @@ def fit_run(
             s[k] = float(np.clip(s[k], lo, hi))
     costs, start_fermi = problem.batch_cost(starts)
     order = np.argsort(costs)
+    u_t = None
+    if weighted and run.temperature_err is not None and np.any(run.temperature_err[used] > 0):
+        u_t = run.temperature_err[used]
+        base_sigma = sigma.copy()
+        problem.include_temperature(starts[order[0]], base_sigma, u_t)
+        costs, start_fermi = problem.batch_cost(starts)
+        order = np.argsort(costs)
     best = None
     stalled = None  # best of the starts that stopped without converging
     failures = []
@@ -331,6 +361,14 @@ def fit_run(
     if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
         raise FitError("no starting point converged to a fit of this carrier type",
                        optimizer_message="; ".join(dict.fromkeys(failures)) or None)
+    if u_t is not None and not not_converged:
+        # the slope of the first pass came from a start: take it from the fit and refit once
+        problem.include_temperature(best.params.valuesdict(), base_sigma, u_t)
+        again = lmfit.minimize(problem.residual, best.params.copy(), method="leastsq",
+                               scale_covar=False, max_nfev=MAX_EVALUATIONS)
+        if again.success and not again.aborted and problem.type_penalty(
+                again.params.valuesdict()) == 0:
+            best = again
     profile_upper = None
     mn = "A" if run.carrier == "n" else "D"
     cname = f"log10_N_{mn}"

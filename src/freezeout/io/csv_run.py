@@ -89,6 +89,17 @@ def _classify(header: str) -> tuple[str, bool, str | None, str] | None:
     return None
 
 
+def _all_or_none(values, fname, line_nos, cols, key):
+    """An optional uncertainty column: given on every row, or on none."""
+    if values is None or np.all(np.isnan(values)):
+        return None
+    bad = np.nonzero(np.isnan(values))[0]
+    if bad.size:
+        raise InputError("uncertainty must be given on every row or none", file=fname,
+                         line=line_nos[bad[0]], column=cols[key][2])
+    return values
+
+
 def _is_forward_model_column(header: str) -> bool:
     """Columns that ``freezeout simulate`` writes besides the densities (E_F, fractions)."""
     name = header.strip().lower()
@@ -457,4 +468,6 @@ def read_run_csv(path: str | Path, *, hall_factor: float | None = None,
         ignored_columns=tuple(ignored),
         scale_uncertainty=scale,
         hall_factor=float(hall_factor),
+        temperature_err=_all_or_none(arr.get(("temperature", True)), fname, line_nos, cols,
+                                     ("temperature", True)),
     )

@@ -53,6 +53,8 @@ class RunData:
         the fit adds it to the concentrations afterwards. [1]
     hall_factor
         Hall scattering factor r_H the densities carry. [1]
+    temperature_err
+        Standard uncertainty of each temperature, or None. [K]
     """
 
     source: str
@@ -76,6 +78,7 @@ class RunData:
     ignored_columns: tuple[str, ...] = ()
     scale_uncertainty: float = 0.0
     hall_factor: float = 1.0
+    temperature_err: np.ndarray | None = None
 
     @property
     def n_points(self) -> int:
