@@ -343,7 +343,7 @@ def test_is_raw_file(tmp_path):
 # reduced CSV
 # ---------------------------------------------------------------------------------------
 
-EXPECTED_COLUMNS = ["T [K]", "rho [ohm cm]", "rho_err [ohm cm]", "R_H [cm^3/C]",
+EXPECTED_COLUMNS = ["T [K]", "T_err [K]", "rho [ohm cm]", "rho_err [ohm cm]", "R_H [cm^3/C]",
                     "R_H_err [cm^3/C]", "p [cm^-3]", "p_err [cm^-3]", "mu_H [cm^2/(V s)]",
                     "mu_H_err [cm^2/(V s)]", "flags"]
 

@@ -62,7 +62,5 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
         findings=tuple(reduced.findings),
         scale_uncertainty=scale,
         hall_factor=float(reduced.hall_factor),
-        # the readings of a set point spread over temperature_spread: a rectangular
-        # distribution of that width has standard uncertainty width/sqrt(12) (GUM 4.3.7)
-        temperature_err=np.asarray(reduced.temperature_spread, dtype=float) / np.sqrt(12.0),
+        temperature_err=np.asarray(reduced.temperature_err, dtype=float),
     )

@@ -274,6 +274,15 @@ class ReducedRun:
     geometry: str
 
     @property
+    def temperature_err(self) -> np.ndarray:
+        """Standard uncertainty of each set-point temperature. [K]
+
+        The readings spread over ``temperature_spread``, taken as a rectangular
+        distribution of that width: width/sqrt(12) (GUM, JCGM 100:2008, 4.3.7).
+        """
+        return self.temperature_spread / np.sqrt(12.0)
+
+    @property
     def n_points(self) -> int:
         """Number of temperature points."""
         return int(self.temperature.size)
@@ -335,7 +344,8 @@ def reduced_columns(run: ReducedRun) -> dict[str, list]:
     Returns
     -------
     dict
-        Column header -> list of values, in the order ``T [K]``, ``rho [ohm cm]``,
+        Column header -> list of values, in the order ``T [K]``, ``T_err [K]`` (the set
+        point's spread over sqrt(12)), ``rho [ohm cm]``,
         ``rho_err [ohm cm]``, ``R_H [cm^3/C]``, ``R_H_err [cm^3/C]``, ``n [cm^-3]`` or
         ``p [cm^-3]`` (the run's majority carrier; unsigned), its ``_err``, ``mu_H
         [cm^2/(V s)]``, ``mu_H_err [cm^2/(V s)]``, ``flags`` (codes joined by ``;``, the
@@ -351,6 +361,7 @@ def reduced_columns(run: ReducedRun) -> dict[str, list]:
         flags.append(";".join(code + mark for code, mark in codes.items()))
     return {
         "T [K]": run.temperature.tolist(),
+        "T_err [K]": run.temperature_err.tolist(),
         "rho [ohm cm]": run.resistivity.tolist(),
         "rho_err [ohm cm]": run.resistivity_err.tolist(),
         "R_H [cm^3/C]": run.hall_coefficient.tolist(),
