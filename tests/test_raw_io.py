@@ -459,7 +459,7 @@ def test_cli_bad_options_exit_2(tmp_path, args):
     result = CliRunner().invoke(cli(), ["reduce", str(SAMPLE), "--out",
                                         str(tmp_path / "o.csv"), *args])
     assert result.exit_code == 2
-    assert result.stderr.startswith("error:")
+    assert result.stderr.startswith("freezeout: error:")
     assert not (tmp_path / "o.csv").exists()
 
 

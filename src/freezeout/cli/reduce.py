@@ -155,10 +155,11 @@ def reduce_command(
         target = out if out is not None else default_output(raw)
         write_reduced_csv(run, target, raw_source=raw)
     except InputError as exc:
-        typer.echo(f"error: {exc}", err=True)
+        typer.echo(f"freezeout: error: {exc}", err=True)
         raise typer.Exit(code=2) from None
     except OSError as exc:
-        typer.echo(f"error: cannot write {exc.filename or ''}: {exc.strerror or exc}", err=True)
+        typer.echo(f"freezeout: error: cannot write {exc.filename or ''}: {exc.strerror or exc}",
+                   err=True)
         raise typer.Exit(code=2) from None
 
     n_severe = int(run.severe.sum())

@@ -284,7 +284,8 @@ def read_run_csv(path: str | Path, *, hall_factor: float | None = None,
             if flag_col is not None and len(row) == len(header) - 1 and flag_col == len(header) - 1:
                 row = [*row, ""]
             else:
-                raise InputError(f"row has {len(row)} cells, the header has {len(header)} "
+                cells = "cell" if len(row) == 1 else "cells"
+                raise InputError(f"row has {len(row)} {cells}, the header has {len(header)} "
                                  "(truncated line?)", file=fname, line=lineno)
         if len(row) > len(header) and any(c.strip() for c in row[len(header):]):
             raise InputError(f"row has {len(row)} cells, the header has {len(header)}",

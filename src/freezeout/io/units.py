@@ -36,6 +36,16 @@ _DIMENSIONS: dict[str, dict[str, tuple[float, float]]] = {
     "dimensionless": {"": (1.0, 0.0), "1": (1.0, 0.0), "%": (0.01, 0.0)},
 }
 
+# how each normalized key is written back to a person
+_SPELLING = {
+    "k": "K", "mk": "mK", "degc": "degC", "c": "C (degC)", "cm^-3": "cm^-3", "m^-3": "m^-3",
+    "cm^3/c": "cm^3/C", "m^3/c": "m^3/C", "cm^2/(vs)": "cm^2/(V s)", "m^2/(vs)": "m^2/(V s)",
+    "ohmcm": "ohm cm", "ohmm": "ohm m", "mohmcm": "mohm cm", "kohmcm": "kohm cm", "t": "T",
+    "mt": "mT", "g": "G", "kg": "kG", "a": "A", "ma": "mA", "ua": "uA", "na": "nA", "v": "V",
+    "mv": "mV", "uv": "uV", "nv": "nV", "cm": "cm", "m": "m", "mm": "mm", "um": "um",
+    "nm": "nm", "ev": "eV", "mev": "meV", "1": "1", "%": "%",
+}
+
 CANONICAL = {
     "temperature": "K",
     "density": "cm^-3",
@@ -107,7 +117,7 @@ def parse_unit(unit: str, dimension: str) -> Unit:
     table = _DIMENSIONS[dimension]
     key = normalize_unit(unit)
     if key not in table:
-        known = ", ".join(sorted(k for k in table if k))
+        known = ", ".join(_SPELLING.get(k, k) for k in table if k)
         what = dimension.replace("_", " ")
         raise ValueError(f"unknown unit {unit!r} for {what} (known: {known})")
     scale, offset = table[key]
