@@ -83,14 +83,18 @@ def fit_command(
 
         folder = out if out is not None else Path("reports") / Path(run).stem
         written = write_fit_report(result, folder)
+    saved = None
     if not no_history:
         from freezeout.cli.history_store import store_fit
 
-        store_fit(result, db, run)
+        saved = store_fit(result, db, run)
     if json_output:
         print_json(result.to_dict())
     else:
         _print_summary(result, written)
+        if saved is not None:
+            how = "stored" if saved.created else "already stored for this input and options"
+            typer.echo(f"history: fit record {saved.record_id} ({how})")
     return 0
 
 
