@@ -135,7 +135,8 @@ def test_qualified_lot_shows_in_history(monkeypatch, capsys, tmp_path):
         '# synthetic\nsupplier = "Kestrel Ridge Wafers"\nlot = "KRW-E2E-1"\n'
         'date = 2026-11-21\n[decision]\nrule = "guarded"\n'
         '[[claim]]\nquantity = "net_doping"\nnominal = 9e14\ntolerance = "30%"\n'
-        'unit = "cm^-3"\n[[wafer]]\nid = "W1"\nmaterial = "Si"\nrun = "r.csv"\n')
+        'unit = "cm^-3"\ndopant = "phosphorus"\n[[wafer]]\nid = "W1"\nmaterial = "Si"\n'
+        'run = "r.csv"\n')
     code, _, _ = cli(monkeypatch, capsys, "qualify", tmp_path / "lot.toml", "--json")
     assert code == 0
     code, out, _ = cli(monkeypatch, capsys, "history", "--json", "--supplier",

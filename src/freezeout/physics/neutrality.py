@@ -323,7 +323,8 @@ def solve_levels(
 
     for iterations in range(1, max_iterations + 1):  # noqa: B007
         h, slope, lp, ln_ = residual(u)
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # a flat residual gives an infinite step: bisection takes over below
             newton = np.where(slope < 0, -h / slope, np.inf)
         # converged: balance exact to rounding, or the step below the tolerance or below the
         # floating-point resolution of u itself
