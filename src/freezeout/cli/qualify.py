@@ -237,6 +237,13 @@ def measure_wafer(job: dict) -> dict:
     return out
 
 
+def _ignore_interrupts() -> None:
+    """Worker start-up: leave Ctrl-C to the parent, which stops the workers itself."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
 def _measure_all(jobs: list[dict], workers: int, progress: bool) -> dict[str, dict]:
     """Measure every wafer, in worker processes when there is more than one to do."""
     from rich.console import Console
@@ -264,7 +271,8 @@ def _measure_all(jobs: list[dict], workers: int, progress: bool) -> dict[str, di
         from concurrent.futures import ProcessPoolExecutor, as_completed
 
         ctx = multiprocessing.get_context("spawn")
-        pool = ProcessPoolExecutor(max_workers=workers, mp_context=ctx)
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=ctx,
+                                   initializer=_ignore_interrupts)
         try:
             futures = {pool.submit(measure_wafer, job): job["id"] for job in jobs}
             for fut in as_completed(futures):
@@ -273,7 +281,14 @@ def _measure_all(jobs: list[dict], workers: int, progress: bool) -> dict[str, di
                 bar.update(task, description=f"measured wafer {wid}")
                 bar.advance(task)
         except BaseException:
+            # Ctrl-C or an error: stop the workers now rather than wait for their fits
+            # (otherwise the interpreter joins them at exit and the command seems to hang)
+            processes = list(getattr(pool, "_processes", {}).values())
             pool.shutdown(wait=False, cancel_futures=True)
+            for proc in processes:
+                proc.terminate()
+            for proc in processes:
+                proc.join(timeout=5)
             raise
         pool.shutdown(wait=True)
     return results
