@@ -45,6 +45,14 @@ td.note{color:#5b6675;font-size:.86rem}
 """
 
 
+
+def _claim_label(key, quantity_of: dict) -> str:
+    """``claim[2] (resistivity)`` for a claim key, or a dash."""
+    if not key:
+        return "—"
+    q = quantity_of.get(key)
+    return f"{key} ({q})" if q else str(key)
+
 def _num(x) -> float | None:
     if x is None or isinstance(x, bool | str):
         return None
@@ -260,13 +268,15 @@ def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> s
     rule = str(decision.get("rule"))
     k = _g(decision.get("coverage_factor"))
     counts = lot.get("counts") or {}
+    quantity_of = {c.get("key"): str(c.get("quantity", "")).replace("_", " ")
+                   for c in lot.get("claims") or []}
     summary = []
     for w in lot.get("wafers") or []:
         m = _num(w.get("margin_U"))
         wid = esc(str(w.get("id")))
         summary.append(
             f"<tr><td><a href='#wafer-{wid}'>{wid}</a></td><td>{_badge(str(w.get('verdict')))}"
-            f"</td><td>{esc(str(w.get('decided_by') or '—'))}</td>"
+            f"</td><td>{esc(_claim_label(w.get('decided_by'), quantity_of))}</td>"
             f"<td class=num>{'—' if m is None else f'{m:+.2f}'}</td>"
             f"<td>{esc(str((w.get('input') or {}).get('how') or ''))}</td></tr>")
     claims = []
@@ -300,6 +310,8 @@ def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> s
     sub.append(f"{len(lot.get('wafers') or [])} wafers")
     sub.append(f"{esc(rule)} rule, k = {k}")
     note = f"<p>{esc(str(lot['note']))}</p>" if lot.get("note") else ""
+    # the deference sentence stands once, in bold under the rule
+    sentence = str(lot.get("sentence") or "").replace(DEFERENCE, "").strip()
     return f"""<!doctype html>
 <html lang="en"><head><meta charset="utf-8">
 <title>freezeout lot qualification — {esc(str(lot.get('lot')))}</title>
@@ -308,7 +320,7 @@ def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> s
 <p class=sub>{' · '.join(sub)}</p>{note}
 <div class=lotverdict>Lot verdict: {_badge(str(lot.get('verdict')))}
 ({counts.get('accept', 0)} accepted, {counts.get('indeterminate', 0)} indeterminate,
-{counts.get('reject', 0)} rejected). {esc(str(lot.get('sentence') or ''))}</div>
+{counts.get('reject', 0)} rejected). {esc(sentence)}</div>
 <h2>Decision rule</h2>
 <div class=rule>{esc(RULE_IN_WORDS.get(rule, rule))} Here k = {k}. Each verdict reports its
 margin, the signed distance from the measured value to the nearest specification limit in units
