@@ -45,7 +45,6 @@ td.note{color:#5b6675;font-size:.86rem}
 """
 
 
-
 def _claim_label(key, quantity_of: dict) -> str:
     """``claim[2] (resistivity)`` for a claim key, or a dash."""
     if not key:
