@@ -161,3 +161,13 @@ def test_temperature_uncertainty_column(tmp_path):
     p = _write(tmp_path, "T [K],T_err [mK],n [cm^-3]\n30,200,1e12\n40,100,1e13\n")
     run = read_run_csv(p)
     np.testing.assert_allclose(run.temperature_err, [0.2, 0.1])
+
+
+def test_carrier_type_from_the_cold_points(tmp_path):
+    """A p-type run whose Hall sign turns negative over most of a hot range is still p-type:
+    the extrinsic (cold) points carry the doping type (common practice, no source)."""
+    rows = [(100, 50.0), (150, 40.0), (200, 30.0), (400, -1.0), (450, -2.0), (500, -3.0),
+            (550, -3.0), (600, -3.0)]
+    p = _write(tmp_path, "T [K],R_H [cm^3/C]\n" + "\n".join(f"{t},{r}" for t, r in rows) + "\n")
+    run = read_run_csv(p)
+    assert run.carrier == "p" and run.mixed.sum() == 5

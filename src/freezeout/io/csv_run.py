@@ -151,11 +151,19 @@ def _dialect(header_line: str) -> str:
 
 
 def majority_carrier(point_carrier, temperature, stated: str | None = None):
-    """The run's carrier type (the type of most points) and a note if the sign changes."""
-    n_n = sum(c == "n" for c in point_carrier)
-    n_p = len(point_carrier) - n_n
-    carrier = "n" if n_n > n_p else "p" if n_p > n_n else point_carrier[0]
-    if stated in ("n", "p") and n_n and n_p:
+    """The run's carrier type: the type of most points in the colder half of the run.
+
+    The cold (extrinsic) points carry the doping type; at the hot end intrinsic electrons,
+    more mobile than holes in most hosts, can turn the Hall sign of a p-type sample
+    (common practice, no source). A type stated in the file decides a mixed run.
+    """
+    types = np.asarray(point_carrier)
+    t = np.asarray(temperature, dtype=float)
+    cold = types[t <= np.median(t)] if t.size > 2 else types
+    n_n = int(np.sum(cold == "n"))
+    n_p = int(cold.size - n_n)
+    carrier = "n" if n_n > n_p else "p" if n_p > n_n else str(types[np.argmin(t)])
+    if stated in ("n", "p") and len(set(point_carrier)) > 1:
         carrier = stated
     return carrier
 
