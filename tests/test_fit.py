@@ -263,3 +263,14 @@ def test_temperature_uncertainty_enters_as_effective_variance():
     assert plain.reduced_chi2 > 5
     assert with_t.reduced_chi2 < 2
     assert _within(with_t.levels[0].energy, 0.045)
+
+
+def test_information_criteria_prefer_the_right_number_of_levels():
+    """With stated uncertainties AIC = chi^2 + 2k, BIC = chi^2 + k ln N (Akaike 1974; Schwarz
+    1978); the two-level truth is preferred over one level by both."""
+    run = _run("4H-SiC", [(4e15, 0.052), (6e15, 0.092)], [(3e14, None)], 40, 800, noise=0.01)
+    one = fit_run(run, get_material("4H-SiC"), donors=1)
+    two = fit_run(run, get_material("4H-SiC"), donors=2)
+    assert two.aic < one.aic and two.bic < one.bic
+    assert two.aic == pytest.approx(two.chi2 + 2 * 5)
+    assert two.bic == pytest.approx(two.chi2 + 5 * np.log(two.n_points))

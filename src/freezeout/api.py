@@ -47,7 +47,11 @@ def load_run(path: str | Path, *, hall_factor: float | None = None,
         from freezeout.io import raw as raw_io
     else:  # pragma: no cover - the reduction layer is being added
         raw_io = None
-    if raw_io is not None and raw_io.is_raw_file(path):
+    is_raw = raw_io is not None and raw_io.is_raw_file(path)
+    if thickness is not None and not is_raw:
+        raise InputError("--thickness applies to raw readings only (a reduced run already has "
+                         "its densities)", file=str(path))
+    if is_raw:
         from freezeout.io.reduced_run import run_from_reduction
 
         if hall_factor is not None and not (0.1 <= hall_factor <= 10.0):

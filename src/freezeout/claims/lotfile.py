@@ -442,9 +442,10 @@ def _parse_decision(ctx: _Ctx, d: dict) -> Decision:
     k = _number(ctx, d, "coverage_factor", "decision", None)
     if k is None:
         k = 2.0
-    if not k > 0:
-        raise ctx.error(f"coverage_factor must be > 0, got {k:g}", "decision.coverage_factor",
-                        "decision", None, "coverage_factor")
+    if not 0 < k <= 10:
+        # k = 2 for about 95 % is usual; beyond 10 the value is a typing slip, not a choice
+        raise ctx.error(f"coverage_factor must be above 0 and at most 10, got {k:g}",
+                        "decision.coverage_factor", "decision", None, "coverage_factor")
     return Decision(rule=rule, coverage_factor=k)
 
 

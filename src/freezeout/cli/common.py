@@ -11,6 +11,8 @@ import typer
 
 from freezeout.errors import InputError
 
+SimMaterialOpt = Annotated[str | None, typer.Option(
+    "--material", "-m", help="Host from the library (see 'freezeout materials'); default Si.")]
 MaterialOpt = Annotated[str | None, typer.Option(
     "--material", "-m", help="Host from the library (see 'freezeout materials'); default: the "
     "file's '# material:' line, else Si.")]

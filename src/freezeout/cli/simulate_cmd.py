@@ -11,7 +11,7 @@ import typer
 from freezeout.cli.common import (
     JsonOpt,
     MaterialFileOpt,
-    MaterialOpt,
+    SimMaterialOpt,
     StatisticsOpt,
     parse_level,
     parse_number,
@@ -26,7 +26,7 @@ HELP = ("Simulate n, p, E_F and ionized fractions versus temperature for given l
 def simulate_command(
     temperatures: Annotated[str, typer.Option(
         "--temperatures", "-t", help="TMIN:TMAX:N, N points evenly spaced in 1000/T [K].")],
-    material: MaterialOpt = None,
+    material: SimMaterialOpt = None,
     material_file: MaterialFileOpt = None,
     donor: Annotated[list[str] | None, typer.Option(
         "--donor", help="CONC,ENERGY_EV[,G] (cm^-3, eV below E_c; energy 'none' for fully "

@@ -637,8 +637,8 @@ def _build_result(run, material, model_all, model_used, out, used, weighted, sta
         net_doping=net_est,
         chi2=float(out.chisqr),
         reduced_chi2=float(out.redchi),
-        aic=float(out.aic),
-        bic=float(out.bic),
+        aic=_information_criteria(out, weighted)[0],
+        bic=_information_criteria(out, weighted)[1],
         n_points=int(out.ndata),
         n_parameters=int(out.nvarys),
         weighted=weighted,
@@ -679,6 +679,20 @@ def _runs_z(residual) -> float | None:
     mean = 2.0 * n1 * n2 / n + 1.0
     var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1))
     return float((runs - mean) / math.sqrt(var)) if var > 0 else None
+
+
+def _information_criteria(out, weighted: bool) -> tuple[float, float]:
+    """AIC and BIC of a fit, up to a constant shared by models of the same data.
+
+    With stated uncertainties the log-likelihood is -chi^2/2, so AIC = chi^2 + 2k and
+    BIC = chi^2 + k ln N; without them the variance is estimated too and the usual
+    N ln(chi^2/N) forms apply (lmfit's). H. Akaike, IEEE Trans. Autom. Control 19, 716 (1974);
+    G. Schwarz, Ann. Stat. 6, 461 (1978).
+    """
+    if not weighted:
+        return float(out.aic), float(out.bic)
+    k, n = int(out.nvarys), int(out.ndata)
+    return float(out.chisqr + 2 * k), float(out.chisqr + k * math.log(n))
 
 
 def _list_or_none(a):

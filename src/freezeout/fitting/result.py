@@ -85,7 +85,8 @@ class FitResult:
         |N_D - N_A| (majority minus minority). [cm^-3]
     chi2, reduced_chi2, aic, bic
         Fit statistics of the residuals in ln(density) (weighted by ln-uncertainties when
-        the run gives them).
+        the run gives them). With stated uncertainties AIC = chi^2 + 2k and BIC = chi^2 +
+        k ln N; without, N ln(chi^2/N) + 2k and N ln(chi^2/N) + k ln N.
     n_points, n_parameters
         Points used and free parameters.
     weighted
