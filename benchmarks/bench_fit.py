@@ -26,7 +26,7 @@ from scipy import integrate, optimize
 import freezeout
 from freezeout.fitting.fit import fit_run, guess
 from freezeout.fitting.model import CarrierModel
-from freezeout.io.run import RunData
+from freezeout.records.run import RunData
 from freezeout.physics.constants import K_B_EV
 from freezeout.physics.materials import get_material
 

@@ -8,7 +8,7 @@ import pytest
 import freezeout
 from freezeout.errors import InputError
 from freezeout.fitting.fit import fit_run, guess
-from freezeout.io.run import RunData
+from freezeout.records.run import RunData
 from freezeout.physics.materials import get_material
 
 

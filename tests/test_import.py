@@ -125,7 +125,7 @@ def test_missing_file_and_binary(tmp_path):
 
 
 def test_units_parser_edge_cases():
-    from freezeout.io.units import parse_unit, split_header
+    from freezeout.numbers.units import parse_unit, split_header
 
     assert split_header("mu_H [cm^2/(V s)]") == ("mu_H", "cm^2/(V s)")
     assert split_header("n (cm-3)") == ("n", "cm-3")

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from freezeout import __version__
+from freezeout._version import __version__
 from freezeout.errors import InputError
 from freezeout.physics.materials import Material, get_material
 

@@ -59,7 +59,7 @@ from freezeout.claims import silicon
 from freezeout.claims.conformity import RULES, SpecWindow
 from freezeout.errors import InputError
 from freezeout.io.material_file import read_material_file
-from freezeout.io.units import CANONICAL, parse_unit
+from freezeout.numbers.units import CANONICAL, parse_unit
 from freezeout.physics.materials import get_material
 
 QUANTITIES = ("net_doping", "resistivity", "type")

@@ -78,7 +78,7 @@ def single_point_measurement(run, material, *, dopants=(None,), hall_factor=None
     Parameters
     ----------
     run
-        The run (:class:`freezeout.io.run.RunData`) with exactly one point.
+        The run (:class:`freezeout.records.run.RunData`) with exactly one point.
     material
         The :class:`freezeout.physics.materials.Material` (for n_i and the ionization).
     dopants
@@ -329,7 +329,7 @@ def build_lot_document(lot, verdict, outcomes: dict[str, dict], sha256: str) -> 
     """The lot JSON: the verdict dict plus claims, each wafer's input and provenance."""
     import datetime as dt
 
-    from freezeout import __version__
+    from freezeout._version import __version__
 
     doc = verdict.to_dict()
     doc["certificate"] = lot.certificate
@@ -438,7 +438,7 @@ def qualify_command(
             folder = out if out is not None else Path("reports") / _folder_name(lot_file.lot)
             written = write_lot_report(doc, folder)
 
-        from freezeout import __version__
+        from freezeout._version import __version__
 
         fits_new = 0
         for o in outcomes.values():

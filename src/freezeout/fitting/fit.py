@@ -18,7 +18,7 @@ from scipy import stats
 from freezeout.errors import FitError, InputError
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
-from freezeout.io.run import RunData
+from freezeout.records.run import RunData
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import BandState

@@ -33,8 +33,8 @@ from pathlib import Path
 import numpy as np
 
 from freezeout.errors import InputError
-from freezeout.io.run import RunData
-from freezeout.io.units import parse_unit, split_header
+from freezeout.records.run import RunData
+from freezeout.numbers.units import parse_unit, split_header
 from freezeout.physics.constants import Q
 
 _NAMES = {

@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from freezeout.errors import InputError
-from freezeout.io.units import parse_unit, split_header
+from freezeout.numbers.units import parse_unit, split_header
 from freezeout.reduction import (
     DEFAULT_TEMPERATURE_TOLERANCE,
     QualityThresholds,

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from freezeout import __version__
+from freezeout._version import __version__
 from freezeout.io.atomic import atomic_write_text
 from freezeout.reduction import SEVERE_MARK, ReducedRun, reduced_columns
 

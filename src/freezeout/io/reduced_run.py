@@ -8,7 +8,7 @@ import numpy as np
 
 from freezeout.errors import InputError
 from freezeout.io.csv_run import majority_carrier, mixed_note, sha256_of, split_scale_uncertainty
-from freezeout.io.run import RunData
+from freezeout.records.run import RunData
 
 
 def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData:

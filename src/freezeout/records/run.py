@@ -1,4 +1,5 @@
-"""The in-memory form of a temperature run, whatever file it came from."""
+"""The in-memory form of a temperature run, whatever file it came from, and the one rule
+that decides a run's carrier type."""
 
 from __future__ import annotations
 
@@ -89,3 +90,34 @@ class RunData:
     def mixed(self) -> np.ndarray:
         """True where the point's carrier type differs from the run's majority carrier."""
         return np.array([c != self.carrier for c in self.point_carrier], dtype=bool)
+
+
+def run_carrier(point_carrier, temperature, stated: str | None = None) -> str:
+    """The run's carrier type: the type of most points in the colder half of the run.
+
+    The one rule every path uses (a reduced CSV's ``# carrier`` line, a raw file reduced on
+    the way into a fit, a reduced CSV read back). The cold (extrinsic) points carry the
+    doping type; at the hot end intrinsic electrons, more mobile than holes in most hosts,
+    can turn the Hall sign of a p-type sample (common practice, no source). A tie in the
+    colder half goes to the coldest point. A type stated in the file decides a mixed run.
+
+    Parameters
+    ----------
+    point_carrier
+        ``"n"`` or ``"p"`` per point, from the sign of the Hall coefficient.
+    temperature
+        Temperature per point. [K]
+    stated
+        The type the file states (``"n"``/``"p"``), or None.
+    """
+    types = np.asarray(point_carrier)
+    t = np.asarray(temperature, dtype=float)
+    if types.size == 0:
+        raise ValueError("a run needs at least one point to have a carrier type")
+    cold = types[t <= np.median(t)] if t.size > 2 else types
+    n_n = int(np.sum(cold == "n"))
+    n_p = int(cold.size - n_n)
+    carrier = "n" if n_n > n_p else "p" if n_p > n_n else str(types[np.argmin(t)])
+    if stated in ("n", "p") and len(set(types.tolist())) > 1:
+        carrier = stated
+    return carrier

@@ -1,0 +1,28 @@
+"""File fingerprints and file-name slugs: one way each."""
+
+from __future__ import annotations
+
+import hashlib
+import re
+from pathlib import Path
+
+_CHUNK = 1 << 20
+
+
+def sha256_file(path: str | Path) -> str:
+    """SHA-256 (hex) of a file's bytes, read in chunks. Raises OSError as ``open`` does."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(_CHUNK), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def sha256_bytes(data: bytes) -> str:
+    """SHA-256 (hex) of bytes already in memory."""
+    return hashlib.sha256(data).hexdigest()
+
+
+def slug(text: str, default: str = "item") -> str:
+    """A file-name-safe form of ``text``: runs of other characters become ``_``."""
+    return re.sub(r"[^A-Za-z0-9._-]+", "_", str(text)).strip("._") or default
