@@ -1,5 +1,7 @@
-"""Plain numbers, units, cells and fingerprints shared by every layer (no physics, no files
-beyond hashing one)."""
+"""Plain numbers, units, cells and fingerprints shared by every layer.
+
+No physics here, and no files beyond hashing one.
+"""
 
 from freezeout.numbers.cells import MISSING_CELLS, is_missing, parse_number_cell
 from freezeout.numbers.digest import sha256_bytes, sha256_file, slug

@@ -1,5 +1,7 @@
-"""The in-memory form of a temperature run, whatever file it came from, and the one rule
-that decides a run's carrier type."""
+"""The run record and the one rule that decides a run's carrier type.
+
+A run in memory, whatever file it came from.
+"""
 
 from __future__ import annotations
 
