@@ -1,8 +1,9 @@
 """The ``freezeout`` command line: a thin layer over :mod:`freezeout.api`.
 
-Heavy modules (numpy, scipy, lmfit, matplotlib) are imported inside the commands so that
-``freezeout --help`` answers at once. Exit codes: 0 success, 1 fit failure, 2 bad input;
-``qualify`` adds 3 (lot rejected) and 4 (indeterminate).
+Each command parses its options, calls the API, renders the result and maps errors to exit
+codes: 0 success, 1 fit failure, 2 bad input; ``qualify`` adds 3 (lot rejected) and 4
+(indeterminate). The API imports the numerical stack only when a call runs, so
+``freezeout --help`` answers at once.
 """
 
 from __future__ import annotations
@@ -12,7 +13,15 @@ import sys
 
 import typer
 
-from freezeout.cli import fit_cmd, materials_cmd, simulate_cmd
+from freezeout.cli import (
+    fit_cmd,
+    history_cmd,
+    materials_cmd,
+    qualify_cmd,
+    reduce_cmd,
+    simulate_cmd,
+)
+from freezeout.errors import FitError, InputError
 
 app = typer.Typer(
     name="freezeout",
@@ -27,29 +36,13 @@ app = typer.Typer(
 app.command("fit", help=fit_cmd.HELP)(fit_cmd.fit_command)
 app.command("simulate", help=simulate_cmd.HELP)(simulate_cmd.simulate_command)
 app.command("materials", help=materials_cmd.HELP)(materials_cmd.materials_command)
-
-
-def _register_optional() -> None:
-    """Commands whose modules live beside this one (reduction, qualification, history)."""
-    import importlib.util
-
-    for module, name, func in (("freezeout.cli.reduce", "reduce", "reduce_command"),
-                               ("freezeout.cli.qualify", "qualify", "qualify_command"),
-                               ("freezeout.cli.history", "history", "history_command")):
-        if importlib.util.find_spec(module) is None:  # pragma: no cover
-            continue
-        mod = importlib.import_module(module)
-        fn = getattr(mod, func)
-        app.command(name, help=getattr(mod, "HELP", None) or fn.__doc__)(fn)
-
-
-_register_optional()
+app.command("reduce", help=reduce_cmd.HELP)(reduce_cmd.reduce_command)
+app.command("qualify", help=qualify_cmd.HELP)(qualify_cmd.qualify_command)
+app.command("history", help=history_cmd.HELP)(history_cmd.history_command)
 
 
 def main() -> None:
     """Console-script entry point: run the app, turning errors into messages and exit codes."""
-    from freezeout.errors import FitError, InputError
-
     try:
         rv = app(standalone_mode=False)
     except InputError as exc:

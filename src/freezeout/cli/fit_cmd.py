@@ -7,6 +7,7 @@ from typing import Annotated
 
 import typer
 
+from freezeout import api
 from freezeout.cli.common import (
     DbOpt,
     JsonOpt,
@@ -62,8 +63,6 @@ def fit_command(
         "--no-history", help="Do not store the fit in the history database.")] = False,
 ) -> int:
     """Fit a run; see HELP."""
-    from freezeout import api
-
     fixes = {k: parse_number(v, f"--fix {k}") for k, v in
              parse_assignments(fix, "--fix").items()}
     bounds = {}
@@ -79,15 +78,9 @@ def fit_command(
                           thickness=thickness)
     written = {}
     if out is not None or not json_output:
-        from freezeout.reporting.fit_report import write_fit_report
-
-        folder = out if out is not None else Path("reports") / Path(run).stem
-        written = write_fit_report(result, folder)
-    saved = None
-    if not no_history:
-        from freezeout.cli.history_store import store_fit
-
-        saved = store_fit(result, db, run)
+        folder = out if out is not None else api.default_report_folder(run)
+        written = api.write_fit_report(result, folder)
+    saved = None if no_history else api.record_fit(result, db)
     if json_output:
         print_json(result.to_dict())
     else:

@@ -6,6 +6,7 @@ from typing import Annotated
 
 import typer
 
+from freezeout import api
 from freezeout.cli.common import JsonOpt, print_json
 
 HELP = "List the materials library, or show one material with the source of each parameter."
@@ -19,11 +20,9 @@ def materials_command(
     from rich.console import Console
     from rich.table import Table
 
-    from freezeout.physics.materials import get_material, library
-
     con = Console()
     if name is None:
-        lib = library()
+        lib = api.list_materials()
         if json_output:
             print_json({k: m.to_dict() for k, m in lib.items()})
             return 0
@@ -37,7 +36,7 @@ def materials_command(
                           f"{m.hole_dos_mass:g}", f"{m.relative_permittivity or '—'}")
         con.print(table)
         return 0
-    m = get_material(name)
+    m = api.load_material(name)
     if json_output:
         print_json(m.to_dict())
         return 0

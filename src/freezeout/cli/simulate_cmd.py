@@ -8,6 +8,7 @@ from typing import Annotated
 
 import typer
 
+from freezeout import api
 from freezeout.cli.common import (
     JsonOpt,
     MaterialFileOpt,
@@ -39,9 +40,6 @@ def simulate_command(
     json_output: JsonOpt = False,
 ) -> int:
     """Simulate a run; see HELP."""
-    from freezeout import api
-    from freezeout.io.writers import format_csv, write_csv
-
     parts = temperatures.split(":")
     if len(parts) != 3:
         raise InputError(f"--temperatures {temperatures!r}: expected TMIN:TMAX:N")
@@ -56,21 +54,12 @@ def simulate_command(
     sim = api.simulate(material=material, material_file=material_file, donors=donors,
                        acceptors=acceptors, temperatures=(t_min, t_max, n),
                        statistics=statistics)
-    meta = {"source": "freezeout simulate (synthetic)", "material": sim.material.name,
-            "statistics": statistics}
-    for i, lv in enumerate(sim.donors, 1):
-        meta[f"donor_{i}"] = f"{lv.concentration:g} cm^-3, " + (
-            "fully ionized" if lv.energy is None else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
-    for i, lv in enumerate(sim.acceptors, 1):
-        meta[f"acceptor_{i}"] = f"{lv.concentration:g} cm^-3, " + (
-            "fully ionized" if lv.energy is None else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
+    if out is not None:
+        api.write_simulation_csv(sim, statistics, out)
     if json_output:
-        if out is not None:
-            write_csv(out, sim.columns(), meta)
         print_json(sim.to_dict())
     elif out is not None:
-        write_csv(out, sim.columns(), meta)
         sys.stderr.write(f"wrote {out}\n")
     else:
-        sys.stdout.write(format_csv(sim.columns(), meta))
+        sys.stdout.write(api.simulation_csv(sim, statistics))
     return 0

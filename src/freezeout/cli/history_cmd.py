@@ -2,42 +2,17 @@
 
 from __future__ import annotations
 
-import re
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
+from freezeout import api
 from freezeout.cli.common import DbOpt, JsonOpt, print_json
-from freezeout.errors import InputError
 
 HELP = ("List the fits and lot qualifications stored in the history database, and draw the "
         "trend of measured over claimed values per lot for each supplier (a PNG per "
         "supplier).")
-
-_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
-
-
-def parse_since(text: str | None):
-    """``--since YYYY-MM-DD`` as a date, or an InputError naming the option."""
-    import datetime as dt
-
-    if text is None:
-        return None
-    t = text.strip()
-    try:
-        if not _DATE.match(t):
-            raise ValueError(t)
-        return dt.date.fromisoformat(t)
-    except ValueError:
-        raise InputError(f"--since: {text!r} is not a date; write YYYY-MM-DD, e.g. "
-                         "2026-11-03") from None
-
-
-def supplier_file_name(supplier: str) -> str:
-    """The trend PNG's file name for a supplier, e.g. ``trend_Kestrel_Ridge_Wafers.png``."""
-    slug = re.sub(r"[^A-Za-z0-9._-]+", "_", supplier).strip("._") or "supplier"
-    return f"trend_{slug}.png"
 
 
 def _result_text(rec) -> str:
@@ -50,20 +25,6 @@ def _result_text(rec) -> str:
         return head or "—"
     se = "" if rec.net_doping_stderr is None else f" ± {rec.net_doping_stderr:.2g}"
     return f"{head}: {abs(rec.net_doping):.4g}{se}" if head else f"{abs(rec.net_doping):.4g}{se}"
-
-
-def _trend_targets(out: Path | None, suppliers: list[str], json_output: bool
-                   ) -> dict[str, Path | None]:
-    if out is None:
-        folder = None if json_output else Path("reports") / "history"
-        return {s: None if folder is None else folder / supplier_file_name(s)
-                for s in suppliers}
-    if out.suffix.lower() == ".png":
-        if len(suppliers) > 1:
-            raise InputError(f"--out {out} names one file, but {len(suppliers)} suppliers have "
-                             "trends; give a folder, or choose one with --supplier")
-        return {s: out for s in suppliers}
-    return {s: out / supplier_file_name(s) for s in suppliers}
 
 
 def history_command(
@@ -83,52 +44,12 @@ def history_command(
     json_output: JsonOpt = False,
 ) -> int:
     """List history records and draw trends; see HELP."""
-    from freezeout.storage.db import StorageError, open_store
-
-    day = parse_since(since)
-    if kind is not None and kind not in ("fit", "lot"):
-        raise InputError(f"--kind must be 'fit' or 'lot', got {kind!r}")
-    try:
-        store = open_store(db)
-    except StorageError as exc:
-        raise InputError(f"--db: history database: {exc}") from None
-    try:
-        records = store.list_records(supplier=supplier, since=day, kind=kind)
-        if supplier is not None:
-            suppliers = [supplier]
-        elif kind == "fit":
-            suppliers = []
-        else:
-            suppliers = sorted({r.supplier for r in records if r.kind == "lot" and r.supplier})
-        trends = {}
-        for s in suppliers:
-            pts = [p for p in store.trend(s) if day is None or p.lot_date >= day]
-            if pts:
-                trends[s] = [p.to_dict() for p in pts]
-    finally:
-        store.close()
-
-    targets = _trend_targets(out, list(trends), json_output)
-    figures: dict[str, Path | None] = {}
-    for s, pts in trends.items():
-        path = targets[s]
-        if path is not None:
-            from freezeout.io.atomic import atomic_write_bytes
-            from freezeout.reporting.figures import png_bytes
-            from freezeout.reporting.lot_figures import trend_axes
-
-            ax = trend_axes(pts, s)
-            atomic_write_bytes(path, png_bytes(ax))
-        figures[s] = path
-
+    result = api.history(supplier=supplier, since=since, kind=kind, db=db, out=out,
+                         draw=not json_output)
     if json_output:
-        print_json({
-            "records": [r.to_dict() for r in records],
-            "trends": {s: {"points": pts, "figure": None if figures[s] is None
-                           else str(figures[s])} for s, pts in trends.items()},
-        })
+        print_json(result.to_dict())
         return 0
-    _print(records, suppliers, trends, figures)
+    _print(result.records, result.suppliers, result.trends, result.figures)
     return 0
 
 

@@ -1,0 +1,195 @@
+"""The qualification pipeline: lot -> runs -> fits -> verdicts -> record -> report -> store.
+
+Each wafer's run is fitted (in worker processes when that helps) or, for a single
+room-temperature result, read directly; the claims are decided under the lot file's decision
+rule; the lot report (HTML, JSON, CSV) is written and the qualification and every fit are
+stored in the history database. Verdicts defer to the purchase contract's specification
+(:data:`freezeout.records.verdicts.DEFERENCE`).
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from freezeout._version import __version__
+from freezeout.api.wafers import FIT_OPTIONS, Progress, WaferJob, WaferOutcome, measure_wafers
+from freezeout.errors import InputError
+
+if TYPE_CHECKING:
+    from freezeout.records.lot import LotFile
+    from freezeout.records.qualification import LotQualification
+    from freezeout.storage import SaveOutcome
+
+#: Exit code of ``freezeout qualify`` per lot verdict.
+EXIT_CODES = {"accept": 0, "reject": 3, "indeterminate": 4}
+
+
+def lot_options() -> dict:
+    """The options that, with the lot's input files, determine a qualification."""
+    from freezeout.claims import (
+        DEFAULT_TEMPERATURE_TOLERANCE_K,
+        FULL_IONIZATION,
+        RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K,
+        ROOM_TEMPERATURE_RANGE_K,
+    )
+
+    return {"fit": dict(FIT_OPTIONS),
+            "temperature_tolerance_K": DEFAULT_TEMPERATURE_TOLERANCE_K,
+            "room_temperature_range_K": list(ROOM_TEMPERATURE_RANGE_K),
+            "full_ionization_fraction": FULL_IONIZATION,
+            "resistivity_temperature_coefficient_per_K":
+                RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K}
+
+
+def _relative(path: Path, base: Path) -> str:
+    try:
+        return path.relative_to(base).as_posix()
+    except ValueError:
+        return str(path)
+
+
+def _jobs(lot: LotFile) -> list[WaferJob]:
+    from freezeout.claims import net_doping_dopants
+
+    dopants = tuple(net_doping_dopants(lot))
+    return [WaferJob(w.wafer_id, str(w.run), w.material,
+                     None if w.material_file is None else str(w.material_file),
+                     w.hall_factor.value, w.hall_factor.stderr,
+                     tuple(k for k in (w.hall_factor.value_key, w.hall_factor.stderr_key) if k),
+                     dopants)
+            for w in lot.wafers]
+
+
+def _fit_summary(fit):
+    from freezeout.records.qualification import FitSummary
+
+    nd, comp = fit.net_doping, fit.compensation_ratio
+    return FitSummary(nd.value, nd.stderr, tuple(nd.ci95), comp.value, comp.stderr,
+                      tuple(comp.ci95), fit.n_points, fit.reduced_chi2, tuple(fit.warnings))
+
+
+def build_qualification(lot: LotFile, outcomes: dict[str, WaferOutcome],
+                        sha256: str) -> LotQualification:
+    """Decide the lot's claims from the wafers' outcomes and make the qualification record."""
+    import datetime as dt
+
+    from freezeout.claims import evaluate_lot
+    from freezeout.records.qualification import LotProvenance, LotQualification, WaferInput
+
+    measured = {wid: o.measurement for wid, o in outcomes.items() if o.measurement is not None}
+    unmeasured = {wid: o.reason for wid, o in outcomes.items() if o.measurement is None}
+    verdict = evaluate_lot(lot, measured, unmeasured=unmeasured)
+    base = lot.path.parent
+    inputs = {}
+    for w in lot.wafers:
+        o = outcomes[w.wafer_id]
+        inputs[w.wafer_id] = WaferInput(
+            run=_relative(w.run, base), run_sha256=o.run_sha256, material=w.material,
+            material_file=None if w.material_file is None else _relative(w.material_file, base),
+            how=o.how, reason=o.reason, fit=None if o.fit is None else _fit_summary(o.fit),
+            hall_factor=None if o.measurement is None else o.measurement.hall_factor,
+            note=w.note)
+    provenance = LotProvenance(
+        lot_file=lot.path.name, lot_input_sha256=sha256, tool_version=__version__,
+        date=dt.datetime.now(dt.UTC).replace(microsecond=0).isoformat(),
+        options=lot_options())
+    return LotQualification(lot, verdict, inputs, provenance)
+
+
+@dataclass(frozen=True)
+class QualificationOutcome:
+    """What :func:`qualify_lot` did.
+
+    Attributes
+    ----------
+    qualification
+        The qualified lot (verdicts, inputs, provenance).
+    written
+        Report files written, name -> path (empty when no report was asked for).
+    lot_record
+        The history record of the qualification.
+    fits_new
+        Fit records newly stored (a fit stored before for the same input and options is not
+        stored again).
+    """
+
+    qualification: LotQualification
+    written: dict[str, Path] = field(default_factory=dict)
+    lot_record: SaveOutcome | None = None
+    fits_new: int = 0
+
+    @property
+    def verdict(self) -> str:
+        """The lot's verdict: ``"accept"``, ``"reject"`` or ``"indeterminate"``."""
+        return self.qualification.verdict.verdict
+
+    @property
+    def exit_code(self) -> int:
+        """0 accepted, 3 rejected, 4 indeterminate."""
+        return EXIT_CODES[self.verdict]
+
+    def to_dict(self) -> dict:
+        """The lot JSON (what ``freezeout qualify --json`` prints)."""
+        return self.qualification.to_dict()
+
+
+def default_lot_folder(lot_id: str) -> Path:
+    """Where ``qualify`` writes a lot's report by default: ``reports/<lot>/``."""
+    from freezeout.numbers import slug
+
+    return Path("reports") / slug(lot_id, "lot")
+
+
+def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool = True,
+                db: str | None = None, workers: int | None = None,
+                progress: Progress | None = None) -> QualificationOutcome:
+    """Qualify a lot: measure every wafer, decide every claim, report and store.
+
+    Parameters
+    ----------
+    path
+        The lot file (TOML; ``docs/lot_format.md``).
+    out
+        Report folder (default ``reports/<lot>/``).
+    report
+        False: write no report unless ``out`` is given.
+    db
+        History database URL (default ``$FREEZEOUT_DB``, else the user data folder).
+    workers
+        Processes fitting wafers at once (default: the number of CPUs, at most one per
+        wafer; 1 fits in this process).
+    progress
+        Called after each wafer with (done, total, wafer id).
+
+    Raises
+    ------
+    InputError
+        A bad lot file, option or database URL.
+    """
+    from freezeout.claims import load_lot, lot_input_sha256
+    from freezeout.storage import open_history
+
+    if workers is not None and workers < 1:
+        raise InputError(f"--workers must be at least 1, got {workers}")
+    lot = load_lot(path)
+    sha = lot_input_sha256(lot)
+    store = open_history(db)
+    try:
+        jobs = _jobs(lot)
+        n_workers = min(workers or os.cpu_count() or 1, len(jobs))
+        outcomes = measure_wafers(jobs, n_workers, progress)
+        qualification = build_qualification(lot, outcomes, sha)
+        written = {}
+        if out is not None or report:
+            from freezeout.reporting.lot_report import write_lot_report
+
+            folder = Path(out) if out is not None else default_lot_folder(lot.lot)
+            written = write_lot_report(qualification, folder)
+        fits = [o.fit for o in outcomes.values() if o.fit is not None]
+        saved_lot, fits_new = store.save_qualification(qualification, fits)
+    finally:
+        store.close()
+    return QualificationOutcome(qualification, written, saved_lot, fits_new)

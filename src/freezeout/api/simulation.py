@@ -1,0 +1,136 @@
+"""The forward simulation behind ``freezeout simulate``, and the CSV run it writes."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from freezeout.api.materials import load_material
+from freezeout.errors import InputError
+
+if TYPE_CHECKING:
+    from freezeout.physics.materials import Material
+
+#: A level as the API takes it: (concentration [cm^-3], energy [eV] or None, degeneracy
+#: [1] or None).
+LevelSpec = tuple
+
+#: Highest temperature the simulation accepts (project choice: beyond any cryostat or
+#: heated stage, and beyond where constant density-of-states masses mean anything). [K]
+MAX_TEMPERATURE_K = 5000.0
+
+#: Highest level concentration the simulation accepts (project choice: a few percent of a
+#: host's atomic density, past which a dopant is an alloy constituent). [cm^-3]
+MAX_CONCENTRATION = 1e22
+
+
+def _levels(kind: str, specs: Sequence[LevelSpec]):
+    from freezeout.physics.neutrality import DopantLevel
+
+    out = []
+    for spec in specs:
+        spec = tuple(spec)
+        if not 2 <= len(spec) <= 3:
+            raise InputError(f"{kind} {spec!r}: give (concentration, energy[, degeneracy])")
+        g = None if len(spec) < 3 or spec[2] is None else float(spec[2])
+        try:
+            out.append(DopantLevel(kind, float(spec[0]),
+                                   None if spec[1] is None else float(spec[1]), g))
+        except (TypeError, ValueError) as exc:
+            raise InputError(f"{kind} {spec!r}: {exc}") from None
+    return out
+
+
+def check_statistics(statistics: str) -> str:
+    """The statistics name, lower case, or an InputError listing the valid ones."""
+    s = str(statistics).strip().lower()
+    if s not in ("fermi-dirac", "boltzmann"):
+        raise InputError(f"unknown statistics {statistics!r}; valid: fermi-dirac, boltzmann")
+    return s
+
+
+def simulate(
+    material: str | Material | None = None,
+    material_file: str | Path | None = None,
+    donors: Sequence[LevelSpec] = (),
+    acceptors: Sequence[LevelSpec] = (),
+    temperatures=(10.0, 700.0, 60),
+    statistics: str = "fermi-dirac",
+):
+    """Simulate a run: n, p, E_F and ionized fractions versus temperature.
+
+    Parameters
+    ----------
+    material, material_file
+        Library name (default ``Si``) or TOML file.
+    donors, acceptors
+        Levels as ``(concentration [cm^-3], energy [eV] or None, degeneracy [1] or None)``.
+    temperatures
+        ``(t_min, t_max, n)``, n points evenly spaced in 1000/T, or an array of
+        temperatures. [K]
+    statistics
+        ``"fermi-dirac"`` or ``"boltzmann"``.
+
+    Returns
+    -------
+    Simulation
+        The simulated run (:mod:`freezeout.physics.simulation`).
+    """
+    import numpy as np
+
+    from freezeout.physics.simulation import simulate as _simulate
+    from freezeout.physics.simulation import temperature_grid
+
+    mat = load_material(material, material_file)
+    if isinstance(temperatures, tuple) and len(temperatures) == 3:
+        try:
+            t = temperature_grid(float(temperatures[0]), float(temperatures[1]),
+                                 int(temperatures[2]))
+        except ValueError as exc:
+            raise InputError(f"temperatures: {exc}") from None
+    else:
+        t = np.asarray(temperatures, dtype=float)
+    if t.size == 0 or not np.all(np.isfinite(t)) or np.any(t <= 0) or np.any(
+            t > MAX_TEMPERATURE_K):
+        raise InputError(f"temperatures must be above 0 K and at most {MAX_TEMPERATURE_K:g} K")
+    statistics = check_statistics(statistics)
+    gap = float(np.min(mat.band_gap(t)))
+    if not gap > 0:
+        raise InputError(f"the band gap of {mat.name} closes within these temperatures")
+    levels = {"donor": _levels("donor", donors), "acceptor": _levels("acceptor", acceptors)}
+    for kind, lvs in levels.items():
+        for lv in lvs:
+            if not lv.concentration <= MAX_CONCENTRATION:
+                raise InputError(f"{kind} concentration {lv.concentration:g} cm^-3 is above "
+                                 f"{MAX_CONCENTRATION:g} cm^-3, beyond the model")
+            if lv.energy is not None and not lv.energy < gap:
+                raise InputError(f"{kind} ionization energy {lv.energy:g} eV is not below the "
+                                 f"band gap ({gap:.4g} eV)")
+    return _simulate(mat, t, levels["donor"], levels["acceptor"], statistics)
+
+
+def simulation_metadata(sim, statistics: str) -> dict[str, str]:
+    """The ``# key: value`` lines of a simulated run's CSV (material, statistics, levels)."""
+    meta = {"source": "freezeout simulate (synthetic)", "material": sim.material.name,
+            "statistics": statistics}
+    for kind, levels in (("donor", sim.donors), ("acceptor", sim.acceptors)):
+        for i, lv in enumerate(levels, 1):
+            meta[f"{kind}_{i}"] = f"{lv.concentration:g} cm^-3, " + (
+                "fully ionized" if lv.energy is None
+                else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
+    return meta
+
+
+def simulation_csv(sim, statistics: str) -> str:
+    """A simulated run as CSV text (a valid input to ``freezeout fit``)."""
+    from freezeout.io.writers import format_csv
+
+    return format_csv(sim.columns(), simulation_metadata(sim, statistics))
+
+
+def write_simulation_csv(sim, statistics: str, path: str | Path) -> Path:
+    """Write :func:`simulation_csv` to ``path`` (temporary file, then rename)."""
+    from freezeout.io.atomic import atomic_write_text
+
+    return atomic_write_text(path, simulation_csv(sim, statistics))

@@ -1,0 +1,84 @@
+"""``freezeout qualify``: check a lot's certificate claims against the measured wafers.
+
+Parses the options, runs :func:`freezeout.api.qualify_lot` with a progress bar on stderr,
+prints the verdicts and maps the lot verdict to the exit code: 0 accepted, 3 rejected,
+4 indeterminate (2 bad input).
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.table import Table
+from rich.text import Text
+
+from freezeout import api
+from freezeout.cli.common import DbOpt, JsonOpt, print_json
+
+HELP = ("Qualify a wafer lot: fit every wafer's run, decide each certificate claim with the "
+        "measurement uncertainty (lot file's decision rule), write lot_report.html, lot.json "
+        "and lot.csv, and store the result in the history. Exit 0 accepted, 3 rejected, "
+        "4 indeterminate, 2 bad input.")
+
+
+def qualify_command(
+    lot: Annotated[Path, typer.Argument(metavar="LOT.toml",
+                                        help="Lot file (TOML; see docs/lot_format.md).")],
+    out: Annotated[Path | None, typer.Option(
+        "--out", "-o", help="Report folder (default: reports/<lot>/; with --json, no report "
+        "unless --out is given).")] = None,
+    db: DbOpt = None,
+    json_output: JsonOpt = False,
+    workers: Annotated[int | None, typer.Option(
+        "--workers", "-j", help="Processes fitting wafers at once (default: the number of "
+        "CPUs, at most one per wafer; 1 fits in this process).")] = None,
+) -> int:
+    """Qualify a lot; see HELP."""
+    show = not json_output and sys.stderr.isatty()
+    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+               TimeElapsedColumn())
+    with Progress(*columns, console=Console(stderr=True), disable=not show,
+                  transient=True) as bar:
+        task = bar.add_task("measuring wafers", total=None)
+
+        def progress(done: int, total: int, wafer_id: str) -> None:
+            bar.update(task, total=total, completed=done,
+                       description=f"measured wafer {wafer_id}")
+
+        outcome = api.qualify_lot(lot, out=out, report=not json_output, db=db,
+                                  workers=workers, progress=progress)
+    if json_output:
+        print_json(outcome.to_dict())
+    else:
+        _print_summary(outcome)
+    return outcome.exit_code
+
+
+def _print_summary(outcome) -> None:
+    doc = outcome.to_dict()
+    con = Console()
+    table = Table(title=Text(f"Lot {doc['lot']} ({doc['supplier']}, {doc['date']}), "
+                             f"{doc['decision']['rule']} rule"), title_justify="left")
+    for col in ("wafer", "verdict", "decided by", "margin [U]", "measured from"):
+        table.add_column(col, justify="right" if col == "margin [U]" else "left")
+    for w in doc["wafers"]:
+        m = w["margin_U"]
+        how = w["input"]["how"]
+        if w["input"]["reason"]:
+            how += f": {w['input']['reason']}"
+        table.add_row(*(Text(x) for x in (w["id"], w["verdict"], w["decided_by"] or "—",
+                                          "—" if m is None else f"{m:+.2f}", how)))
+    con.print(table)
+    con.print(doc["sentence"], highlight=False, markup=False)
+    if outcome.written:
+        con.print(f"report: {outcome.written['lot_report.html']}", highlight=False,
+                  markup=False)
+    saved = outcome.lot_record
+    state = "stored" if saved.created else "already stored, nothing new"
+    con.print(f"history: lot record {saved.record_id} ({state}); {outcome.fits_new} new fit "
+              "record(s)", highlight=False, markup=False)

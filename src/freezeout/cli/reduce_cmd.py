@@ -1,0 +1,117 @@
+"""``freezeout reduce``: raw van der Pauw / Hall readings to a reduced CSV that ``fit`` reads."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+from rich.markup import escape
+from rich.table import Table
+
+from freezeout import api
+from freezeout.cli.common import parse_assignments, parse_number
+
+__all__ = ["HELP", "reduce_command"]
+
+HELP = ("Reduce raw van der Pauw and Hall readings (one row per reading) to a reduced run "
+        "that fit reads, with data-quality findings per temperature.")
+
+_SEVERITY_STYLE = {"info": "cyan", "warning": "yellow", "severe": "bold red"}
+
+
+def _parse_thresholds(items: list[str] | None) -> dict[str, float]:
+    return {name: parse_number(value, f"--threshold {name}")
+            for name, value in parse_assignments(items, "--threshold").items()}
+
+
+def _fmt(value: float, err: float | None = None) -> str:
+    if not math.isfinite(value):
+        return str(value)
+    text = f"{value:.4g}"
+    if err is not None and math.isfinite(err):
+        text += f"±{err:.2g}"
+    return text
+
+
+def _summary_table(run) -> Table:
+    c = run.majority_carrier
+    table = Table(title=f"Reduced run ({run.n_points} set points)",
+                  caption="flags: yellow = warning, red ! = severe, cyan = info")
+    for name in ("T [K]", "rho [ohm cm]", "R_H [cm^3/C]", f"{c} [cm^-3]", "mu_H [cm^2/(V s)]",
+                 "flags"):
+        table.add_column(escape(name), justify="left" if name == "flags" else "right")
+    for i in range(run.n_points):
+        marks = []
+        for f in run.findings_at(i):
+            bang = "!" if f.severity == "severe" else ""
+            marks.append(f"[{_SEVERITY_STYLE[f.severity]}]{f.code}{bang}[/]")
+        table.add_row(
+            f"{run.temperature[i]:.4g}",
+            _fmt(run.resistivity[i], run.resistivity_err[i]),
+            _fmt(run.hall_coefficient[i], run.hall_coefficient_err[i]),
+            _fmt(run.density[i], run.density_err[i]) + ("" if run.carrier[i] == c
+                                                         else f" ({run.carrier[i]})"),
+            _fmt(run.mobility[i], run.mobility_err[i]),
+            " ".join(marks) if marks else "[green]clean[/]",
+        )
+    return table
+
+
+def reduce_command(
+    raw: Annotated[Path, typer.Argument(help="Raw-readings CSV (see docs/raw_format.md).")],
+    out: Annotated[
+        Path | None,
+        typer.Option("--out", "-o",
+                     help="Reduced CSV to write (default: <raw stem>_reduced.csv next to RAW)."),
+    ] = None,
+    thickness: Annotated[
+        str | None,
+        typer.Option(help="Thickness, overrides the file's, e.g. 350um or '0.35 mm +- 5 um'."),
+    ] = None,
+    temperature_tolerance: Annotated[
+        float | None,
+        typer.Option(help="Readings within this many K of a set point's mean join it "
+                     f"(default {api.DEFAULT_GROUPING_TOLERANCE_K:g} K)."),
+    ] = None,
+    hall_factor: Annotated[
+        float, typer.Option(help="Hall scattering factor r_H for the density r_H/(q|R_H|).")
+    ] = 1.0,
+    json_output: Annotated[
+        bool, typer.Option("--json", help="Print the result as JSON instead of tables.")
+    ] = False,
+    threshold: Annotated[
+        list[str] | None,
+        typer.Option(help="Override a quality threshold, NAME=VALUE (repeatable), e.g. "
+                     "reciprocity_warning=0.05."),
+    ] = None,
+) -> None:
+    """Reduce raw van der Pauw and Hall readings to a reduced run that `fit` reads."""
+    outcome = api.reduce_file(raw, out=out, thickness=thickness, hall_factor=hall_factor,
+                              temperature_tolerance=temperature_tolerance,
+                              thresholds=_parse_thresholds(threshold))
+    if json_output:
+        typer.echo(json.dumps(outcome.to_dict(), allow_nan=False))
+        return
+    run = outcome.run
+    console = Console()
+    console.print(_summary_table(run))
+    if run.findings:
+        detail = Table(title="Data-quality findings")
+        detail.add_column("T [K]", justify="right")
+        detail.add_column("severity")
+        detail.add_column("code")
+        detail.add_column("finding")
+        for f in run.findings:
+            style = _SEVERITY_STYLE[f.severity]
+            detail.add_row(f"{f.temperature:.4g}", f"[{style}]{f.severity}[/]", f.code,
+                           escape(f.message))
+        console.print(detail)
+    console.print(
+        f"wrote {outcome.output} ({run.n_points} points, {outcome.n_flagged} flagged, "
+        f"{outcome.n_severe} severe; severe points are kept but left out of fit unless asked)",
+        markup=False, highlight=False,
+    )
