@@ -34,10 +34,10 @@ import math
 from pathlib import Path
 
 import numpy as np
-from scipy.constants import elementary_charge
 from scipy.optimize import brentq
 
 import freezeout
+from freezeout.physics.constants import Q as elementary_charge
 
 SEED = 20240611
 OUTPUT = Path(__file__).resolve().parent.parent / "sample_data" / "harrowgate_raw_vdp_run.csv"

@@ -11,9 +11,8 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy import constants as _c
 
-from freezeout.physics.constants import K_B_EV, M0, H
+from freezeout.physics.constants import K_B, K_B_EV, M0, H
 
 
 def thermal_energy(temperature):
@@ -52,7 +51,7 @@ def effective_density_of_states(temperature, dos_mass):
     [2], Eq. (1.15).
     """
     t = np.asarray(temperature, dtype=float)
-    per_m3 = 2.0 * (2.0 * np.pi * dos_mass * M0 * _c.k * t / H**2) ** 1.5  # [2] Eq. 1.15
+    per_m3 = 2.0 * (2.0 * np.pi * dos_mass * M0 * K_B * t / H**2) ** 1.5  # [2] Eq. 1.15
     return per_m3 * 1e-6
 
 

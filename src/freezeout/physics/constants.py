@@ -1,9 +1,14 @@
-"""Physical constants in the units freezeout uses, all taken from scipy.constants (CODATA)."""
+"""Physical constants in the units freezeout uses, all taken from scipy.constants (CODATA).
+
+Every other module takes its constants from here, never from scipy.constants directly.
+"""
 
 from __future__ import annotations
 
 from scipy import constants as _c
 
+#: Boltzmann constant. [J/K]
+K_B = _c.k
 #: Boltzmann constant. [eV/K]
 K_B_EV = _c.k / _c.e
 #: Elementary charge. [C]

@@ -18,7 +18,8 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy.constants import elementary_charge
+
+from freezeout.physics.constants import Q
 
 __all__ = [
     "CM2_PER_M2",
@@ -132,7 +133,7 @@ def hall_density(r_h, hall_factor=1.0):
     """
     r = np.abs(np.asarray(r_h, dtype=float))
     with np.errstate(divide="ignore"):
-        return np.asarray(hall_factor, dtype=float) / (elementary_charge * r)
+        return np.asarray(hall_factor, dtype=float) / (Q * r)
 
 
 def hall_mobility(r_h, rho):
@@ -184,5 +185,5 @@ def sheet_density(current, field, hall_voltage, hall_factor=1.0):
     b = np.abs(np.asarray(field, dtype=float))
     v = np.abs(np.asarray(hall_voltage, dtype=float))
     with np.errstate(divide="ignore"):
-        per_m2 = np.asarray(hall_factor, dtype=float) * i * b / (elementary_charge * v)
+        per_m2 = np.asarray(hall_factor, dtype=float) * i * b / (Q * v)
     return per_m2 / CM2_PER_M2
