@@ -7,7 +7,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from freezeout.fitting.result import FitResult
-from freezeout.physics.materials import material_from_mapping
 from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
 
 
@@ -52,25 +51,21 @@ class ModelCurves:
 
 def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     """Evaluate a fit's model from a bit below to a bit above the data's temperatures."""
-    mat_dict = {k: v for k, v in result.material.items() if k not in ("description", "sources")}
-    if mat_dict.get("relative_permittivity") is None:
-        mat_dict.pop("relative_permittivity", None)
-    material = material_from_mapping(mat_dict)
-    t_data = np.asarray(result.data["temperature_K"])
+    material = result.material
+    t_data = result.data.temperature
     t = np.geomspace(0.9 * t_data.min(), 1.05 * t_data.max(), n_points)
-    donors, acceptors, names, kinds = [], [], [], []
+    named = {"donor": [], "acceptor": []}  # (name, level), donors first in the curves
     for lv in result.levels:
         e = None if lv.energy is None else lv.energy.value
-        g = lv.degeneracy
-        dl = DopantLevel(lv.kind, lv.concentration.value, e, g)
-        (donors if lv.kind == "donor" else acceptors).append((lv.name, dl))
-    for name, _ in (*donors, *acceptors):
-        names.append(name)
+        named[lv.kind].append((lv.name, DopantLevel(lv.kind, lv.concentration.value, e,
+                                                     lv.degeneracy)))
+    donors = [d for _, d in named["donor"]]
+    acceptors = [a for _, a in named["acceptor"]]
+    names = [name for name, _ in (*named["donor"], *named["acceptor"])]
     kinds = ["donor"] * len(donors) + ["acceptor"] * len(acceptors)
-    res = solve_charge_neutrality(t, material, [d for _, d in donors], [a for _, a in acceptors],
-                                  result.statistics_model)
+    res = solve_charge_neutrality(t, material, donors, acceptors, result.statistics_model)
     fractions = (*res.donor_ionized, *res.acceptor_ionized)
-    levels = [d for _, d in donors] + [a for _, a in acceptors]
+    levels = donors + acceptors
     dens = tuple(f * lv.concentration for f, lv in zip(fractions, levels, strict=True))
     energies = []
     for lv in levels:

@@ -36,6 +36,11 @@ class ParameterSpec:
 class CarrierModel:
     """Majority-carrier levels plus an optional fully ionized compensating species.
 
+    The model keeps the Fermi level of its last warm solve on its own temperature grid and
+    starts the next warm solve from it (a warm start: far fewer Newton steps between nearby
+    parameter sets). :meth:`warm_start` sets that starting point from outside (e.g. from a
+    batch solve), :meth:`clear_warm_start` forgets it, :attr:`warm_fermi` reads it.
+
     Parameters
     ----------
     material
@@ -70,12 +75,14 @@ class CarrierModel:
         self.statistics = statistics
         self.major_kind = "donor" if carrier == "n" else "acceptor"
         self.minor_kind = "acceptor" if carrier == "n" else "donor"
+        #: Letter of the majority and of the compensating species in parameter names.
+        self.major_symbol = "D" if carrier == "n" else "A"
+        self.minor_symbol = "A" if carrier == "n" else "D"
         default_g = (DEFAULT_DONOR_DEGENERACY if carrier == "n"
                      else DEFAULT_ACCEPTOR_DEGENERACY)
         self.degeneracy = float(default_g if degeneracy is None else degeneracy)
         self.bands = BandState.from_material(material, self.temperature)
-        ms = "D" if carrier == "n" else "A"
-        mn = "A" if carrier == "n" else "D"
+        ms, mn = self.major_symbol, self.minor_symbol
         specs = []
         for i in range(1, self.n_levels + 1):
             specs.append(ParameterSpec(f"N_{ms}{i}", f"log10_N_{ms}{i}", "concentration", i - 1))
@@ -84,23 +91,65 @@ class CarrierModel:
             specs.append(ParameterSpec(f"N_{mn}", f"log10_N_{mn}", "concentration",
                                        self.n_levels))
         self.specs = tuple(specs)
-        self._last_fermi = None
+        self._warm_fermi: np.ndarray | None = None
 
     @property
     def names(self) -> tuple[str, ...]:
         """Public parameter names in order."""
         return tuple(s.name for s in self.specs)
 
+    @property
+    def major_concentration_names(self) -> tuple[str, ...]:
+        """Internal names of the majority-level concentrations (``log10_N_D1``...)."""
+        return tuple(f"log10_N_{self.major_symbol}{i}" for i in range(1, self.n_levels + 1))
+
+    @property
+    def compensation_name(self) -> str:
+        """Internal name of the compensating concentration (``log10_N_A`` for n-type).
+
+        The name exists whether or not the model includes compensation.
+        """
+        return f"log10_N_{self.minor_symbol}"
+
+    # ---- warm start ---------------------------------------------------------------------
+    @property
+    def warm_fermi(self) -> np.ndarray | None:
+        """Fermi level E_F - E_v the next warm solve starts from, or None (cold). [eV]"""
+        return self._warm_fermi
+
+    def warm_start(self, fermi_level) -> None:
+        """Start the next warm solve from ``fermi_level`` (E_F - E_v on the model's grid).
+
+        Parameters
+        ----------
+        fermi_level
+            One Fermi level per temperature of the model (a copy is kept). [eV]
+
+        Raises
+        ------
+        ValueError
+            When the shape differs from the model's temperature grid.
+        """
+        ef = np.array(fermi_level, dtype=float)
+        if ef.shape != self.temperature.shape:
+            raise ValueError(f"warm start of shape {ef.shape} for a grid of shape "
+                             f"{self.temperature.shape}")
+        self._warm_fermi = ef
+
+    def clear_warm_start(self) -> None:
+        """Forget the kept Fermi level: the next solve starts cold (mid-gap)."""
+        self._warm_fermi = None
+
+    # ---- evaluation ---------------------------------------------------------------------
     def levels(self, values: dict[str, np.ndarray | float]):
         """Donor and acceptor level lists for a set of internal parameter values."""
+        ms, mn = self.major_symbol, self.minor_symbol
         major = []
         for i in range(1, self.n_levels + 1):
-            ms = "D" if self.carrier == "n" else "A"
             major.append(DopantLevel(self.major_kind, 10.0 ** values[f"log10_N_{ms}{i}"],
                                      values[f"E_{ms}{i}"], self.degeneracy))
         minor = []
         if self.compensated:
-            mn = "A" if self.carrier == "n" else "D"
             minor.append(DopantLevel(self.minor_kind, 10.0 ** values[f"log10_N_{mn}"], None))
         if self.carrier == "n":
             return major, minor
@@ -108,15 +157,32 @@ class CarrierModel:
 
     def solve(self, values: dict, bands: BandState | None = None,
               warm: bool = True) -> NeutralityResult:
-        """Solve neutrality for the parameter values (arrays broadcast as a batch)."""
+        """Solve neutrality for the parameter values (arrays broadcast as a batch).
+
+        With ``warm`` the solve starts from :attr:`warm_fermi` (cold when None) and, on the
+        model's own grid, keeps its solution as the next warm start; without, it starts cold
+        and keeps nothing.
+        """
         donors, acceptors = self.levels(values)
-        init = self._last_fermi if warm else None
+        init = self._warm_fermi if warm else None
         res = solve_levels(bands or self.bands, donors, acceptors, self.statistics, init)
         if warm and res.fermi_level.shape == self.temperature.shape:
-            self._last_fermi = res.fermi_level
+            self._warm_fermi = res.fermi_level
         return res
 
     def log_density(self, values: dict, warm: bool = True) -> np.ndarray:
         """ln of the majority-carrier density (cm^-3) at the data temperatures."""
-        res = self.solve(values, warm=warm)
+        return self.majority_log(self.solve(values, warm=warm))
+
+    # ---- reading a solution in majority/minority terms ------------------------------------
+    def majority_log(self, res: NeutralityResult) -> np.ndarray:
+        """ln of the majority-carrier density of a solution (cm^-3). [1]"""
         return res.log_n if self.carrier == "n" else res.log_p
+
+    def minority_log(self, res: NeutralityResult) -> np.ndarray:
+        """ln of the minority-carrier density of a solution (cm^-3). [1]"""
+        return res.log_p if self.carrier == "n" else res.log_n
+
+    def majority_ionized(self, res: NeutralityResult) -> tuple[np.ndarray, ...]:
+        """Ionized fraction of each majority level of a solution, in level order. [1]"""
+        return res.donor_ionized if self.carrier == "n" else res.acceptor_ionized

@@ -8,9 +8,9 @@ from typing import Any
 import numpy as np
 
 from freezeout.numbers import finite_or_none
+from freezeout.physics.materials import Material
 
 SCHEMA_VERSION = 1
-
 
 
 @dataclass(frozen=True)
@@ -70,6 +70,101 @@ class LevelEstimate:
 
 
 @dataclass(frozen=True)
+class FitData:
+    """The points of a fitted run, the model at them, and which points the fit used.
+
+    A point is left out of the fit when its Hall sign differs from the run's carrier type
+    (:attr:`mixed`) or when it failed a severe data-quality check (:attr:`flagged`, unless
+    the fit was told to include those).
+
+    Attributes
+    ----------
+    carrier
+        Majority carrier of the run, ``"n"`` or ``"p"`` (not serialized: the fit's own).
+    temperature
+        Temperatures. [K]
+    density
+        Measured majority-carrier density. [cm^-3]
+    density_err
+        Its point-to-point standard uncertainty, or None. [cm^-3]
+    model_density
+        The fitted model at every point, used or not. [cm^-3]
+    used
+        True for the points the fit used.
+    point_carrier
+        Carrier type per point from the Hall sign.
+    flags
+        Data-quality finding codes per point (empty string when clean).
+    severe
+        True for points that failed a severe data-quality check.
+    resistivity, resistivity_err
+        Per point, or None (NaN where a point has none). [ohm cm]
+    mobility, mobility_err
+        Hall mobility per point, or None. [cm^2/(V s)]
+    hall_coefficient
+        Hall coefficient per point, or None. [cm^3/C]
+    findings
+        Data-quality findings of the reduction (objects with ``to_dict()``).
+    scale_uncertainty
+        Relative uncertainty common to every density, added to the concentrations. [1]
+    """
+
+    carrier: str
+    temperature: np.ndarray
+    density: np.ndarray
+    density_err: np.ndarray | None
+    model_density: np.ndarray
+    used: np.ndarray
+    point_carrier: tuple[str, ...]
+    flags: tuple[str, ...]
+    severe: np.ndarray
+    resistivity: np.ndarray | None = None
+    resistivity_err: np.ndarray | None = None
+    mobility: np.ndarray | None = None
+    mobility_err: np.ndarray | None = None
+    hall_coefficient: np.ndarray | None = None
+    findings: tuple = ()
+    scale_uncertainty: float = 0.0
+
+    @property
+    def mixed(self) -> np.ndarray:
+        """True where the point's Hall sign differs from the run's carrier type."""
+        return np.array([c != self.carrier for c in self.point_carrier], dtype=bool)
+
+    @property
+    def flagged(self) -> np.ndarray:
+        """True for points left out for a failed quality check (not for their Hall sign)."""
+        return ~self.used & ~self.mixed
+
+    def to_dict(self) -> dict:
+        """JSON form (the ``data`` member of the fit document), lists in canonical units."""
+        return {
+            "temperature_K": self.temperature.tolist(),
+            "density_cm3": self.density.tolist(),
+            "density_err_cm3": None if self.density_err is None else self.density_err.tolist(),
+            "model_density_cm3": self.model_density.tolist(),
+            "used": self.used.tolist(),
+            "point_carrier": list(self.point_carrier),
+            "flags": list(self.flags),
+            "severe": [bool(x) for x in self.severe],
+            "resistivity_ohm_cm": _list_or_none(self.resistivity),
+            "resistivity_err_ohm_cm": _list_or_none(self.resistivity_err),
+            "mobility_cm2_per_Vs": _list_or_none(self.mobility),
+            "mobility_err_cm2_per_Vs": _list_or_none(self.mobility_err),
+            "hall_coefficient_cm3_per_C": _list_or_none(self.hall_coefficient),
+            "findings": [f.to_dict() for f in self.findings],
+            "scale_uncertainty": self.scale_uncertainty,
+        }
+
+
+def _list_or_none(a) -> list | None:
+    """A list with None for every non-finite value, or None for no array."""
+    if a is None:
+        return None
+    return [None if not np.isfinite(x) else float(x) for x in a]
+
+
+@dataclass(frozen=True)
 class FitResult:
     """Outcome of fitting a run to the carrier model.
 
@@ -102,11 +197,12 @@ class FitResult:
     statistics_model
         ``"fermi-dirac"`` or ``"boltzmann"``.
     material
-        The material's parameters and sources (dict).
+        The host material fitted with (parameters and sources).
     provenance
-        Input name, sha256, metadata, tool version, date, options.
+        Input name, sha256, metadata, tool version, date, options (a JSON-like dict, as
+        given by the caller).
     data
-        Points of the run and the model at them (lists, canonical units).
+        Points of the run, the model at them, and which points were used.
     fixed
         Parameters held fixed, public name -> value.
     optimizer_message
@@ -134,9 +230,9 @@ class FitResult:
     warnings: tuple[str, ...]
     hall_factor: float
     statistics_model: str
-    material: dict
+    material: Material
     provenance: dict
-    data: dict
+    data: FitData
     fixed: dict = field(default_factory=dict)
     optimizer_message: str = ""
     error_inflation: float = 1.0
@@ -161,8 +257,8 @@ class FitResult:
             "fixed": {k: finite_or_none(v) for k, v in self.fixed.items()},
             "warnings": list(self.warnings),
             "hall_factor": self.hall_factor,
-            "material": self.material,
+            "material": self.material.to_dict(),
             "provenance": self.provenance,
-            "data": self.data,
+            "data": self.data.to_dict(),
             "optimizer_message": self.optimizer_message,
         }

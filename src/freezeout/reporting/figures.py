@@ -32,23 +32,25 @@ STYLE = {
 }
 
 
-def _new_axes(ax, size=(7.0, 4.6)):
+def new_axes(ax=None, size=(7.0, 4.6)):
+    """``ax`` itself, or the Axes of a new Figure of ``size`` (inches) when ``ax`` is None.
+
+    The Figure is not attached to pyplot (no global state, nothing to close).
+    """
     if ax is not None:
         return ax
     fig = Figure(figsize=size, layout="constrained")
     return fig.add_subplot()
 
 
+def level_colour(i: int) -> str:
+    """Accent colour of the i-th level (the palette repeats)."""
+    return LEVEL_COLOURS[i % len(LEVEL_COLOURS)]
+
+
 def _points(result: FitResult):
     d = result.data
-    t = np.asarray(d["temperature_K"], dtype=float)
-    y = np.asarray(d["density_cm3"], dtype=float)
-    err = d.get("density_err_cm3")
-    err = None if err is None else np.asarray(err, dtype=float)
-    used = np.asarray(d["used"], dtype=bool)
-    mixed = np.array([c != result.carrier for c in d["point_carrier"]], dtype=bool)
-    flagged = ~used & ~mixed
-    return t, y, err, used, mixed, flagged
+    return d.temperature, d.density, d.density_err, d.used, d.mixed, d.flagged
 
 
 _NICE_T = (2, 3, 5, 10, 15, 20, 30, 50, 75, 100, 150, 200, 300, 500, 700, 1000, 1500)
@@ -81,9 +83,8 @@ def _add_temperature_axis(ax):
 
     sec = ax.secondary_xaxis("top", functions=(fwd, fwd))
     lo, hi = sorted(ax.get_xlim())
-    candidates = [2, 3, 5, 10, 15, 20, 30, 50, 75, 100, 150, 200, 300, 500, 700, 1000, 1500]
     ticks, last = [], None
-    for t in sorted(candidates, reverse=True):  # left to right on a 1000/T axis
+    for t in sorted(_NICE_T, reverse=True):  # left to right on a 1000/T axis
         x = 1000.0 / t
         if lo <= x <= hi and (last is None or x - last >= 0.1 * (hi - lo)):
             ticks.append(t)
@@ -96,7 +97,7 @@ def _add_temperature_axis(ax):
 def density_axes(result: FitResult, curves: ModelCurves, ax=None):
     """Carrier density versus 1000/T (log axis): data, fit and each contribution."""
     with plt.rc_context(STYLE):
-        ax = _new_axes(ax)
+        ax = new_axes(ax)
         t, y, err, used, mixed, flagged = _points(result)
         x = 1000.0 / t
         carrier = "electron" if result.carrier == "n" else "hole"
@@ -104,7 +105,7 @@ def density_axes(result: FitResult, curves: ModelCurves, ax=None):
         xc = 1000.0 / curves.temperature
         ax.plot(xc, curves.majority, color=INK, lw=2.0, label=f"fit: {carrier} density", zorder=3)
         for i, name in enumerate(curves.level_names):
-            col = LEVEL_COLOURS[i % len(LEVEL_COLOURS)]
+            col = level_colour(i)
             if np.all(curves.ionized_fraction[i] == 1.0):
                 ax.plot(xc, curves.ionized_density[i], color=col, lw=1.2, ls=":",
                         label=f"N_{name} (compensating, fully ionized)")
@@ -143,9 +144,9 @@ def density_axes(result: FitResult, curves: ModelCurves, ax=None):
 def residual_axes(result: FitResult, ax=None):
     """Relative residual (measured/fitted - 1, in %) versus temperature."""
     with plt.rc_context(STYLE):
-        ax = _new_axes(ax, (7.0, 3.0))
+        ax = new_axes(ax, (7.0, 3.0))
         t, y, err, used, mixed, flagged = _points(result)
-        model = np.asarray(result.data["model_density_cm3"], dtype=float)
+        model = result.data.model_density
         r = 100.0 * (y / model - 1.0)
         e = None if err is None else 100.0 * err / model
         ax.axhline(0.0, color=MUTED, lw=1)
@@ -163,7 +164,7 @@ def residual_axes(result: FitResult, ax=None):
 def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
     """Fermi level in the gap versus temperature, with band edges and level energies."""
     with plt.rc_context(STYLE):
-        ax = _new_axes(ax)
+        ax = new_axes(ax)
         t = curves.temperature
         ax.plot(t, curves.band_gap, color=INK, lw=1.6, label="E_c")
         ax.plot(t, np.zeros_like(t), color=INK, lw=1.6, ls="-", alpha=0.6, label="E_v")
@@ -171,7 +172,7 @@ def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
             e = curves.level_energy[i]
             if np.all(np.isnan(e)):
                 continue
-            ax.plot(t, e, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)], lw=1.1, ls="--",
+            ax.plot(t, e, color=level_colour(i), lw=1.1, ls="--",
                     label=f"E_{name}")
         ax.plot(t, curves.fermi_level, color=FLAG, lw=2.0, label="E_F")
         ax.set_xlabel("temperature [K]")
@@ -190,7 +191,7 @@ def fermi_axes(result: FitResult, curves: ModelCurves, ax=None):
 def edge_axes(result: FitResult, curves: ModelCurves, ax=None):
     """Fermi level and level energies measured from the majority band edge (a zoom)."""
     with plt.rc_context(STYLE):
-        ax = _new_axes(ax)
+        ax = new_axes(ax)
         t = curves.temperature
         n_type = result.carrier == "n"
         edge = curves.band_gap if n_type else np.zeros_like(t)
@@ -202,7 +203,7 @@ def edge_axes(result: FitResult, curves: ModelCurves, ax=None):
                 continue
             d = sign * (edge - e)
             tops.append(float(np.nanmax(d)))
-            ax.plot(t, d, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)], lw=1.1, ls="--",
+            ax.plot(t, d, color=level_colour(i), lw=1.1, ls="--",
                     label=f"E_{name}")
         d_f = sign * (edge - curves.fermi_level)
         ax.plot(t, d_f, color=FLAG, lw=2.0, label="E_F")
@@ -229,15 +230,15 @@ def fermi_figure(result: FitResult, curves: ModelCurves):
 def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):
     """Ionized fraction of each level versus temperature."""
     with plt.rc_context(STYLE):
-        ax = _new_axes(ax, (7.0, 3.6))
+        ax = new_axes(ax, (7.0, 3.6))
         for i, name in enumerate(curves.level_names):
             f = curves.ionized_fraction[i]
             style = ":" if np.all(f == 1.0) else "-"
             suffix = " (fully ionized by assumption)" if style == ":" else ""
-            ax.plot(curves.temperature, f, color=LEVEL_COLOURS[i % len(LEVEL_COLOURS)],
+            ax.plot(curves.temperature, f, color=level_colour(i),
                     lw=1.6, ls=style, label=f"{name}{suffix}")
-        t_data = np.asarray(result.data["temperature_K"], dtype=float)
-        used = np.asarray(result.data["used"], dtype=bool)
+        t_data = result.data.temperature
+        used = result.data.used
         tmin = float(t_data[used].min()) if used.any() else float(t_data.min())
         ax.axvline(tmin, color=MUTED, lw=0.8, ls="--")
         ax.annotate("lowest fitted T", (tmin, 1.0), xytext=(4, -14), textcoords="offset points",
@@ -252,8 +253,7 @@ def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):
 def transport_figure(result: FitResult):
     """Resistivity and Hall mobility versus temperature, or None if the run has neither."""
     d = result.data
-    rho = d.get("resistivity_ohm_cm")
-    mu = d.get("mobility_cm2_per_Vs")
+    rho, mu = d.resistivity, d.mobility
     if rho is None and mu is None:
         return None
     with plt.rc_context(STYLE):
@@ -261,15 +261,13 @@ def transport_figure(result: FitResult):
         axes = fig.subplots(1, 2)
         t, _, _, used, _, _ = _points(result)
         for ax, vals, errs, label in (
-            (axes[0], rho, d.get("resistivity_err_ohm_cm"), "resistivity [Ω cm]"),
-            (axes[1], mu, d.get("mobility_err_cm2_per_Vs"), "Hall mobility [cm$^2$/(V s)]"),
+            (axes[0], rho, d.resistivity_err, "resistivity [Ω cm]"),
+            (axes[1], mu, d.mobility_err, "Hall mobility [cm$^2$/(V s)]"),
         ):
             if vals is None:
                 ax.set_visible(False)
                 continue
-            v = np.array([np.nan if x is None else x for x in vals], dtype=float)
-            e = None if errs is None else np.array([np.nan if x is None else x for x in errs],
-                                                   dtype=float)
+            v, e = _finite_or_nan(vals), None if errs is None else _finite_or_nan(errs)
             ok = np.isfinite(v) & (v > 0)
             ax.errorbar(t[ok & used], v[ok & used], yerr=None if e is None else e[ok & used],
                         fmt="o", ms=4, color=INK, mfc="white", elinewidth=0.8)
@@ -281,6 +279,12 @@ def transport_figure(result: FitResult):
             ax.set_xlabel("temperature [K]")
             ax.set_ylabel(label)
         return fig
+
+
+def _finite_or_nan(values) -> np.ndarray:
+    """Float array with NaN for every non-finite value."""
+    a = np.asarray(values, dtype=float)
+    return np.where(np.isfinite(a), a, np.nan)
 
 
 def png_bytes(fig_or_ax) -> bytes:

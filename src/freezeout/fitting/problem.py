@@ -1,0 +1,142 @@
+"""The residual problem of one fit: residuals in ln(density), batch costs, chi^2 profiles.
+
+Residuals are ln(model density) - ln(measured density), divided by the uncertainty of
+ln(density) (= density_err/density) when the run gives per-point uncertainties, else by 1.
+"""
+
+from __future__ import annotations
+
+import math
+
+import lmfit
+import numpy as np
+
+from freezeout.fitting.model import CarrierModel
+from freezeout.physics.neutrality import BandState
+
+
+class Problem:
+    """Residuals and bookkeeping for one fit.
+
+    Parameters
+    ----------
+    model
+        The model on the temperatures of the points used.
+    y
+        ln of the measured densities (cm^-3) of those points. [1]
+    sigma
+        Standard uncertainty of each ``y`` (1 for an unweighted fit). [1]
+    """
+
+    def __init__(self, model: CarrierModel, y: np.ndarray, sigma: np.ndarray) -> None:
+        self.model = model
+        self.y = y
+        self.sigma = sigma
+        self._major = list(model.major_concentration_names)
+        self._minor = model.compensation_name if model.compensated else None
+
+    def type_penalty(self, values) -> float:
+        """Positive when the compensating species reaches the majority total.
+
+        That would be a run of the other carrier type, which a single-carrier fit of this
+        type must not wander into.
+        """
+        if self._minor is None:
+            return 0.0
+        major = math.log10(sum(10.0 ** values[k] for k in self._major))
+        excess = values[self._minor] - major + 1e-3  # keep N_min below 0.998 N_maj
+        return max(excess, 0.0)
+
+    def residual(self, params: lmfit.Parameters) -> np.ndarray:
+        """Weighted residuals at lmfit parameters (1e6 where the model cannot be solved)."""
+        values = params.valuesdict()
+        try:
+            ln_model = self.model.log_density(values)
+        except (RuntimeError, ValueError, FloatingPointError):
+            return np.full(self.y.shape, 1e6)
+        r = (ln_model - self.y) / self.sigma
+        penalty = self.type_penalty(values)
+        if penalty > 0:
+            r = r + 1e3 * penalty * np.sign(r + 1e-300)
+        return np.where(np.isfinite(r), r, 1e6)
+
+    def log_slope(self, values: dict) -> np.ndarray:
+        """d ln(density)/dT of the model at the data temperatures, by central difference."""
+        model = self.model
+        t = model.temperature
+        h = 1e-4 * t
+        out = []
+        for tt in (t + h, t - h):
+            bands = BandState.from_material(model.material, tt)
+            out.append(model.majority_log(model.solve(values, bands=bands, warm=False)))
+        return (out[0] - out[1]) / (2.0 * h)
+
+    def include_temperature(self, values: dict, base_sigma: np.ndarray,
+                            temperature_err: np.ndarray) -> None:
+        """Effective variance sigma^2 + (d ln n/dT u_T)^2, the slope from the model at values.
+
+        The uncertainty of the independent variable is carried into the residual by the
+        law of propagation of uncertainty (ISO/IEC Guide 98-3 (GUM), 5.1.2) applied to the
+        model's temperature dependence.
+        """
+        slope = self.log_slope(values)
+        self.sigma = np.sqrt(base_sigma**2 + (slope * temperature_err) ** 2)
+
+    def batch_cost(self, starts: list[dict]) -> tuple[np.ndarray, np.ndarray]:
+        """Sum of squared residuals for many starts in one vectorized solve.
+
+        Returns the cost of each start (inf where not finite) and the Fermi levels of the
+        solve, one row per start (each a warm start for a local fit of that start).
+        """
+        names = starts[0].keys()
+        batch = {k: np.array([s[k] for s in starts])[:, None] for k in names}
+        t = self.model.temperature
+        bands = self.model.bands
+        bb = BandState(t[None, :], bands.kt[None, :], bands.band_gap[None, :],
+                       bands.log_nc[None, :], bands.log_nv[None, :])
+        res = self.model.solve(batch, bands=bb, warm=False)
+        r = (self.model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
+        cost = np.sum(r * r, axis=1)
+        return np.where(np.isfinite(cost), cost, np.inf), res.fermi_level
+
+
+def profile_upper(problem: Problem, best, name: str, weighted: bool) -> float:
+    """Upper 95 % limit of one log10 concentration by profiling chi^2.
+
+    The parameter is held at trial values above its best fit while the others are refitted;
+    the limit is where chi^2 rises by 2.71 (a one-sided 95 % limit for one parameter; the
+    rise is scaled by the reduced chi^2 when the fit is unweighted or when it exceeds 1,
+    as the standard errors are). Returns the upper bound of the parameter when the data
+    never exclude larger values. Each refit starts cold.
+    """
+    base = best.params
+    # in units of the residual variance: the stated one (weighted fit, inflated when the
+    # reduced chi^2 exceeds 1) or the fitted one (unweighted)
+    scale = max(best.redchi, 1.0) if weighted else max(best.redchi, 1e-300)
+    threshold = best.chisqr + 2.71 * scale
+    hi_bound = base[name].max
+
+    def chi2_at(x: float) -> float:
+        params = base.copy()
+        params[name].set(value=x, vary=False)
+        problem.model.clear_warm_start()
+        out = lmfit.minimize(problem.residual, params, method="leastsq")
+        return float(out.chisqr)
+
+    lo = base[name].value
+    x = lo
+    while True:
+        x = min(x + 0.5, hi_bound)
+        if chi2_at(x) > threshold:
+            hi = x
+            break
+        lo = x
+        if x >= hi_bound:
+            return hi_bound
+    for _ in range(7):
+        mid = 0.5 * (lo + hi)
+        if chi2_at(mid) > threshold:
+            hi = mid
+        else:
+            lo = mid
+    return 0.5 * (lo + hi)
