@@ -1,7 +1,7 @@
 """The uncertainty budget of a claim: claim temperature, Hall factor, sign and ionization.
 
 Measured quantities here are invented numbers (synthetic), passed to
-:func:`freezeout.claims.evaluate.evaluate_claim` as the plain dict it consumes; the lot is a
+:func:`freezeout.claims.evaluate.evaluate_claim` as the Measurement it consumes; the lot is a
 synthetic one of the fictional supplier "Kestrel Ridge Wafers". Every expected number is
 worked by hand in the comment beside it.
 """
@@ -14,13 +14,16 @@ import textwrap
 import pytest
 
 from freezeout.claims import silicon
-from freezeout.claims.evaluate import (
-    RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K,
-    evaluate_claim,
-    evaluate_wafer,
-    temperature_term,
+from freezeout.claims.budget import RESISTIVITY_TEMPERATURE_COEFFICIENT_PER_K, temperature_term
+from freezeout.claims.dopants import claim_dopant
+from freezeout.claims.evaluate import evaluate_claim, evaluate_wafer
+from freezeout.claims.lot_reader import load_lot
+from freezeout.records.measurement import (
+    HallFactorUsed,
+    IonizationCheck,
+    Measurement,
+    ResistivityPoint,
 )
-from freezeout.claims.lotfile import claim_dopant, load_lot
 
 LOT = """\
 supplier = "Kestrel Ridge Wafers"
@@ -60,13 +63,14 @@ def lot_at(tmp_path, t_claim=296.15, extra=""):
 
 
 def measured(n=5.0e14, u=5.0e12, carrier="n", rho=None, hall=None, ionization=None):
-    d = {"material": "Si", "carrier": carrier, "net_doping_cm3": {"value": n, "stderr": u},
-         "resistivity_ohm_cm_at_T": rho, "compensation_ratio": None}
-    if hall is not None:
-        d["hall_factor"] = hall
-    if ionization is not None:
-        d["ionization"] = ionization
-    return d
+    """A synthetic Measurement; ``rho``, ``hall`` and ``ionization`` as plain dicts."""
+    points = [] if rho is None else [rho] if isinstance(rho, dict) else rho
+    return Measurement(
+        material="Si", carrier=carrier, net_doping=n, net_doping_stderr=u,
+        resistivity=tuple(ResistivityPoint(**p) for p in points),
+        hall_factor=None if hall is None else HallFactorUsed(**hall),
+        ionization=None if ionization is None else {
+            k: IonizationCheck(**v) for k, v in ionization.items()})
 
 
 # ---------------------------------------------------------------------------------------------

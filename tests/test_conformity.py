@@ -17,15 +17,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.stats import norm
 
-from freezeout.claims.conformity import (
-    DEFERENCE,
-    SpecWindow,
-    aggregate_lot,
-    aggregate_wafer,
-    conformance_probability,
-    decide,
-    decide_type,
-)
+from freezeout.claims.aggregate import aggregate_lot, aggregate_wafer
+from freezeout.claims.decide import conformance_probability, decide, decide_type
+from freezeout.records.verdicts import DEFERENCE, SpecWindow
 
 W = SpecWindow(8.0, 12.0, unit="ohm cm")  # specification 8 to 12 ohm cm
 

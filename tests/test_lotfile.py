@@ -15,14 +15,12 @@ import textwrap
 import pytest
 
 from freezeout.claims import silicon
-from freezeout.claims.evaluate import (
-    evaluate_claim,
-    evaluate_lot,
-    evaluate_wafer,
-    measured_from_fit,
-)
-from freezeout.claims.lotfile import Decision, load_lot, lot_input_sha256, parse_lot
+from freezeout.claims.evaluate import evaluate_claim, evaluate_lot, evaluate_wafer
+from freezeout.claims.lot_hash import lot_input_sha256
+from freezeout.claims.lot_reader import load_lot, parse_lot
 from freezeout.errors import InputError
+from freezeout.records.lot import Decision
+from freezeout.records.measurement import Measurement, ResistivityPoint
 
 HEAD = """\
 supplier = "Kestrel Ridge Wafers"
@@ -316,9 +314,11 @@ def test_input_hash_covers_runs_but_not_location(lotdir, tmp_path_factory):
 
 
 def measured(n=5.0e14, u=5.0e12, carrier="n", rho=None, material="Si", comp=None):
-    return {"material": material, "carrier": carrier,
-            "net_doping_cm3": {"value": n, "stderr": u},
-            "resistivity_ohm_cm_at_T": rho, "compensation_ratio": comp}
+    """A synthetic Measurement; ``rho`` one point's dict or a list of them."""
+    points = [] if rho is None else [rho] if isinstance(rho, dict) else rho
+    return Measurement(material=material, carrier=carrier, net_doping=n, net_doping_stderr=u,
+                       resistivity=tuple(ResistivityPoint(**p) for p in points),
+                       compensation_ratio=comp)
 
 
 def lot_of(lotdir, claims=CLAIMS, rule="guarded"):
@@ -425,31 +425,10 @@ def test_type_claim_and_missing_measurements(lotdir):
     with pytest.raises(InputError, match="no carrier type"):
         evaluate_claim(lot.claims[0], measured(carrier=None), lot.decision)
     with pytest.raises(InputError, match="no net doping"):
-        evaluate_claim(lot.claims[2], {"material": "Si", "carrier": "n"}, lot.decision)
+        evaluate_claim(lot.claims[2], Measurement(material="Si", carrier="n"), lot.decision)
     # a non-finite fitted uncertainty is "unknown", never replaced by an invented one
     v = evaluate_claim(lot.claims[2], measured(u=math.nan), lot.decision)
     assert v.stderr is None and v.verdict == "indeterminate"
-
-
-def test_measured_from_fit_json():
-    fit = {
-        "schema_version": 1, "carrier": "p", "material": {"name": "Si"},
-        "net_doping_cm3": {"value": -1.2e15, "stderr": 3e13, "ci95": [-1.26e15, -1.14e15]},
-        "compensation_ratio": {"value": 0.05, "stderr": 0.01, "ci95": [0.03, 0.07]},
-        "warnings": ["synthetic warning"],
-        "provenance": {"input": "w01.csv", "sha256": "0" * 64, "tool_version": "0.1.0"},
-        "data": {"temperature_K": [100.0, 296.0], "density_cm3": [1e15, 1.2e15],
-                 "resistivity_ohm_cm": [2.0, 11.0], "resistivity_err_ohm_cm": [0.02, 0.1]},
-    }
-    m = measured_from_fit(fit)
-    assert m["material"] == "Si" and m["carrier"] == "p" and m["compensation_ratio"] == 0.05
-    assert m["resistivity_ohm_cm_at_T"][1] == {"temperature_K": 296.0, "value": 11.0,
-                                               "stderr": 0.1}
-    # a point that failed a severe data-quality check is not used
-    fit["data"]["severe"] = [False, True]
-    assert len(measured_from_fit(fit)["resistivity_ohm_cm_at_T"]) == 1
-    fit["data"]["resistivity_ohm_cm"] = None
-    assert measured_from_fit(fit)["resistivity_ohm_cm_at_T"] is None
 
 
 def test_whole_lot(lotdir):

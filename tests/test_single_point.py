@@ -264,16 +264,16 @@ def test_lot_hall_factor_applies_to_a_single_point(monkeypatch, capsys, tmp_path
 
 
 def test_lot_hall_factor_is_passed_to_the_fit_only_when_stated(monkeypatch, capsys, tmp_path):
-    from freezeout import api
+    from freezeout.api import fits
 
     seen = []
-    real = api.fit_file
+    real = fits.fit_file
 
     def recording(*args, **kwargs):
         seen.append(kwargs)
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(api, "fit_file", recording)
+    monkeypatch.setattr(fits, "fit_file", recording)
     shutil.copy(SAMPLE_RUN, tmp_path / "w.csv")
     lot = write_lot(tmp_path, N_CLAIMS, [("F1", "Si", "w.csv")])
     code, out, err = cli(monkeypatch, capsys, "qualify", lot, "--json", "--workers", 1)

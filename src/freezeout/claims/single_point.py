@@ -36,67 +36,19 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 from freezeout.claims import silicon
-from freezeout.claims.lotfile import is_silicon
+from freezeout.claims.dopants import is_silicon
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import BandState, DopantLevel, solve_levels
+from freezeout.records.measurement import IonizationCheck
 
 #: A single room-temperature point is taken as the net doping when at least this fraction of
 #: the majority dopant is ionized; the un-ionized rest (at most 1 %) is small against the
-#: usual few per cent of a Hall density's uncertainty. The review's choice, no source. [1]
+#: usual few per cent of a Hall density's uncertainty. Project choice, no source. [1]
 FULL_IONIZATION = 0.99
 
 _KIND = {"boron": "acceptor", "phosphorus": "donor"}
-
-
-@dataclass(frozen=True)
-class IonizationCheck:
-    """Whether a single room-temperature Hall density gives the net doping.
-
-    Attributes
-    ----------
-    dopant
-        The dopant checked (``"boron"``, ``"phosphorus"``, another name, or None).
-    material
-        The host's name.
-    temperature_K
-        The point's temperature. [K]
-    density_cm3
-        The measured majority density. [cm^-3]
-    energy_eV
-        The dopant's ionization energy used, or None when none is known. [eV]
-    fraction
-        Ionized fraction of the majority dopant at the measured density, or None when it
-        could not be computed. [1]
-    reason
-        None when the point gives the net doping; else why it does not, in plain words.
-    """
-
-    dopant: str | None
-    material: str
-    temperature_K: float
-    density_cm3: float
-    energy_eV: float | None
-    fraction: float | None
-    reason: str | None
-
-    def note(self) -> str | None:
-        """The remark for a verdict that uses the point, or None."""
-        if self.reason is not None or self.fraction is None:
-            return None
-        return (f"{self.dopant} ({1e3 * self.energy_eV:g} meV) is {100 * self.fraction:.2f} % "
-                f"ionized at {self.temperature_K:g} K at the measured density "
-                f"{self.density_cm3:.3g} cm^-3 (charge neutrality of the tool's model): the "
-                f"single point is taken as the net doping, its un-ionized "
-                f"{100 * (1 - self.fraction):.2g} % not corrected")
-
-    def to_dict(self) -> dict:
-        """Plain-JSON form."""
-        return {"dopant": self.dopant, "material": self.material,
-                "temperature_K": self.temperature_K, "density_cm3": self.density_cm3,
-                "energy_eV": self.energy_eV, "fraction": self.fraction, "reason": self.reason}
 
 
 def ionized_fraction(material: Material, kind: str, energy_eV: float, majority_density: float,
@@ -171,7 +123,7 @@ def check_single_point(material: Material, dopant: str | None, carrier: str,
     material
         The wafer's host.
     dopant
-        The claimed dopant (see :func:`freezeout.claims.lotfile.claim_dopant`), or None.
+        The claimed dopant (see :func:`freezeout.claims.dopants.claim_dopant`), or None.
     carrier
         The point's majority carrier, ``"n"`` or ``"p"``.
     majority_density
