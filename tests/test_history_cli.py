@@ -13,7 +13,7 @@ import pytest
 
 import conftest_storage as cs
 from cli_runner import cli
-from freezeout.storage.db import open_store
+from freezeout.storage import open_store
 
 OTHER = "Fenwick Hollow Silicon"  # a second fictional supplier
 

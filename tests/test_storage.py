@@ -18,21 +18,24 @@ from sqlalchemy import create_engine, event, func, inspect, select, text
 from sqlalchemy.engine import make_url
 
 import conftest_storage as cs
-from freezeout.storage import db
-from freezeout.storage.db import (
+from freezeout.errors import InputError
+from freezeout.storage import (
     LATEST_VERSION,
     MIGRATIONS,
     Migration,
     StorageError,
-    claim_records,
-    fit_records,
-    lot_records,
+    canonical_json,
+    default_url,
     make_engine,
     migrate,
     normalize_url,
+    open_history,
     open_store,
     options_hash,
 )
+from freezeout.storage import engine as engine_module
+from freezeout.storage.rows import claim_rows, claim_rows_from_document
+from freezeout.storage.schema import claim_records, fit_records, lot_records, schema_version
 
 PG_ENV = "FREEZEOUT_TEST_POSTGRES_URL"
 
@@ -69,29 +72,30 @@ def count(store, table) -> int:
         return conn.execute(select(func.count()).select_from(table)).scalar_one()
 
 
-def save_lot(store, result=None, key="lot-a", options=None):
-    return store.save_lot(result or cs.lot_result(), input_name="lot.toml",
-                          input_sha256=cs.sha(key), options=options or {"rule": "guarded"},
-                          tool_version=cs.TOOL_VERSION)
+def save_lot(store, qualification=None):
+    return store.save_lot(qualification or cs.lot_qualification())
 
 
 # ---------------------------------------------------------------------------------------------
 
 
 def test_fit_round_trip_and_idempotence(store):
-    result = cs.fit_result()
-    kw = {"input_name": "w01.csv", "input_sha256": cs.sha("w01"),
-          "options": {"model": "donor", "hall_factor": 1.0}, "tool_version": "0.1.0"}
-    first = store.save_fit(result, **kw)
+    def fit(key="w01", options=None):
+        return cs.fit_result(name="w01.csv", key=key,
+                             options=options or {"model": "donor", "hall_factor": 1.0})
+
+    result = fit()
+    first = store.save_fit(result)
     assert first.created
-    assert store.get_result("fit", first.record_id) == result  # full JSON kept, exactly
+    # full JSON kept, exactly
+    assert store.get_result("fit", first.record_id) == result.to_dict()
     # the same input and options: nothing stored twice, same record returned
-    again = store.save_fit(result, **{**kw, "options": {"hall_factor": 1.0, "model": "donor"}})
+    again = store.save_fit(fit(options={"hall_factor": 1.0, "model": "donor"}))
     assert (again.record_id, again.created) == (first.record_id, False)
     assert count(store, fit_records) == 1
     # other options, or another input: a new record
-    assert store.save_fit(result, **{**kw, "options": {"model": "two donors"}}).created
-    assert store.save_fit(result, **{**kw, "input_sha256": cs.sha("w02")}).created
+    assert store.save_fit(fit(options={"model": "two donors"})).created
+    assert store.save_fit(fit(key="w02")).created
     assert count(store, fit_records) == 3
     (rec, *_) = store.list_records(kind="fit")
     assert (rec.kind, rec.input_name, rec.input_sha256, rec.tool_version) == (
@@ -111,10 +115,10 @@ def test_options_hash_is_canonical():
 
 
 def test_lot_round_trip_with_claim_rows(store):
-    result = cs.lot_result()
+    result = cs.lot_qualification()
     first = save_lot(store, result)
     assert first.created
-    assert store.get_result("lot", first.record_id) == result
+    assert store.get_result("lot", first.record_id) == result.to_dict()
     assert not save_lot(store, result).created  # nothing stored twice
     assert count(store, lot_records) == 1
     rows = store.claim_rows(first.record_id)
@@ -129,16 +133,26 @@ def test_lot_round_trip_with_claim_rows(store):
     (rec,) = store.list_records()
     assert (rec.kind, rec.supplier, rec.lot, rec.lot_date, rec.verdict, rec.decision_rule) == (
         "lot", cs.SUPPLIER, "KRW-2611-07", dt.date(2026, 11, 3), "reject", "guarded")
+    # provenance from the qualification: <folder>/<file> of the lot file, its input SHA-256,
+    # options and tool version
+    assert (rec.input_name, rec.input_sha256, rec.options, rec.tool_version) == (
+        "lots/lot.toml", cs.sha("lot-a"), {"rule": "guarded"}, cs.TOOL_VERSION)
+
+
+def test_typed_claim_rows_equal_the_rows_from_the_stored_json():
+    # the claim rows written from the verdict records are those the schema step 2 backfill
+    # derives from the stored lot JSON (project choice, no source: one meaning per column)
+    for q in (cs.lot_qualification(), cs.lot_qualification(rule="simple",
+                                                           resistivities=(7.0, 12.1))):
+        assert claim_rows(q.verdict, 7) == claim_rows_from_document(q.to_dict(), 7)
 
 
 def test_list_filters(store):
-    save_lot(store, cs.lot_result(lot="L1", date="2026-09-01"), key="L1")
-    save_lot(store, cs.lot_result(lot="L2", date="2026-11-01"), key="L2")
-    other = cs.lot_result(lot="X1", date="2026-10-01")
-    other["supplier"] = "Another Fictional Supplier"
-    save_lot(store, other, key="X1")
-    store.save_fit(cs.fit_result(), input_name="w.csv", input_sha256=cs.sha("w"), options={},
-                   tool_version="0.1.0")
+    save_lot(store, cs.lot_qualification(lot="L1", date="2026-09-01", key="L1"))
+    save_lot(store, cs.lot_qualification(lot="L2", date="2026-11-01", key="L2"))
+    save_lot(store, cs.lot_qualification(lot="X1", date="2026-10-01", key="X1",
+                                         supplier="Another Fictional Supplier"))
+    store.save_fit(cs.fit_result(name="w.csv", options={}))
     assert [r.lot for r in store.list_records(kind="lot")] == ["L1", "X1", "L2"]
     assert [r.lot for r in store.list_records(supplier=cs.SUPPLIER)] == ["L1", "L2"]
     assert [r.lot for r in store.list_records(supplier=cs.SUPPLIER, since="2026-10-15")] == [
@@ -152,13 +166,13 @@ def test_trend_of_measured_over_claimed(store):
     # resistivity claim 8..12 (claimed 10 = midpoint): lot L1 measured 10, 11, 12 -> ratios
     # 1.0, 1.1, 1.2, mean 1.1; lot L2 measured 11, 12.5 -> 1.1, 1.25, mean 1.175.
     # Net doping claimed nominal 5e14, measured 5e14 -> ratio 1.
-    save_lot(store, cs.lot_result(lot="L1", date="2026-09-01",
-                                  resistivities=(10.0, 11.0, 12.0)), key="L1")
-    save_lot(store, cs.lot_result(lot="L2", date="2026-11-01", resistivities=(11.0, 12.5)),
-             key="L2")
+    save_lot(store, cs.lot_qualification(lot="L1", date="2026-09-01",
+                                         resistivities=(10.0, 11.0, 12.0), key="L1"))
+    save_lot(store, cs.lot_qualification(lot="L2", date="2026-11-01",
+                                         resistivities=(11.0, 12.5), key="L2"))
     # L1 qualified again with other options: the latest record counts (one wafer, 9.0)
-    save_lot(store, cs.lot_result(lot="L1", date="2026-09-01", resistivities=(9.0,),
-                                  rule="simple"), key="L1", options={"rule": "simple"})
+    save_lot(store, cs.lot_qualification(lot="L1", date="2026-09-01", resistivities=(9.0,),
+                                         rule="simple", key="L1"))
     points = store.trend(cs.SUPPLIER)
     res = [p for p in points if p.quantity == "resistivity"]
     assert [(p.lot, p.n_wafers) for p in res] == [("L1", 1), ("L2", 2)]
@@ -176,8 +190,8 @@ def test_trend_of_measured_over_claimed(store):
 
 def test_schema_version_table_records_each_step(store):
     with store.engine.begin() as conn:
-        rows = conn.execute(select(db.schema_version.c.version, db.schema_version.c.description)
-                            .order_by(db.schema_version.c.version)).all()
+        rows = conn.execute(select(schema_version.c.version, schema_version.c.description)
+                            .order_by(schema_version.c.version)).all()
     assert [v for v, _ in rows] == [m.version for m in MIGRATIONS] == [1, 2]
     assert store.schema_version() == LATEST_VERSION == 2
 
@@ -191,7 +205,7 @@ def test_opening_a_v1_database_migrates_and_backfills(store_url):
             assert "decision_rule" not in cols
             assert not inspect(conn).has_table("claim_records")
             # a lot record as version 1 wrote it
-            result = cs.lot_result()
+            result = cs.lot_qualification().to_dict()
             conn.execute(text(
                 "INSERT INTO lot_records (created_at, supplier, lot, lot_date, verdict, "
                 "input_name, input_sha256, options_json, options_hash, tool_version, "
@@ -199,7 +213,7 @@ def test_opening_a_v1_database_migrates_and_backfills(store_url):
                 ":r)"), {"t": dt.datetime(2026, 11, 4, tzinfo=dt.UTC), "s": cs.SUPPLIER,
                          "l": "KRW-2611-07", "d": dt.date(2026, 11, 3), "v": "reject",
                          "h": cs.sha("v1"), "oh": options_hash({}),
-                         "r": db.canonical_json(result)})
+                         "r": canonical_json(result)})
     finally:
         engine.dispose()
     with open_store(store_url) as store:
@@ -209,14 +223,12 @@ def test_opening_a_v1_database_migrates_and_backfills(store_url):
         assert len(store.claim_rows(rec.record_id)) == 9  # backfilled from result_json
         assert [p.lot for p in store.trend(cs.SUPPLIER)][:1] == ["KRW-2611-07"]
         # and the v1 record still deduplicates new saves of the same input and options
-        assert not store.save_lot(cs.lot_result(), input_name="lot.toml",
-                                  input_sha256=cs.sha("v1"), options={},
-                                  tool_version="0.1.0").created
+        assert not store.save_lot(cs.lot_qualification(key="v1", options={})).created
 
 
 def test_newer_database_is_refused(store):
     with store.engine.begin() as conn:
-        conn.execute(db.schema_version.insert().values(
+        conn.execute(schema_version.insert().values(
             version=99, description="from the future", applied_at=dt.datetime.now(dt.UTC)))
     with pytest.raises(StorageError, match="newer"):
         open_store(str(store.engine.url.render_as_string(hide_password=False)))
@@ -253,6 +265,45 @@ def test_exception_mid_transaction_leaves_no_partial_record(store):
     assert outcome.created and len(store.claim_rows(outcome.record_id)) == 9
 
 
+def test_qualification_and_its_fits_in_one_transaction(store):
+    q = cs.lot_qualification()
+    fits = [cs.fit_result(name=f"W0{i}.csv", key=f"fit-{i}") for i in (1, 2, 3)]
+    store.save_fit(fits[0])  # one of them stored before: not new
+    lot, fits_new = store.save_qualification(q, fits)
+    assert lot.created and fits_new == 2
+    assert count(store, fit_records) == 3 and len(store.claim_rows(lot.record_id)) == 9
+    assert store.get_result("lot", lot.record_id) == q.to_dict()
+    again = store.save_qualification(q, fits)
+    assert (again.lot, again.fits_new) == (type(lot)(lot.record_id, False), 0)
+
+
+def test_failed_qualification_save_leaves_no_fit_either(store):
+    def fail_on_claims(conn, cursor, statement, parameters, context, executemany):
+        if statement.lstrip().upper().startswith("INSERT INTO CLAIM_RECORDS"):
+            raise RuntimeError("disk full (simulated)")
+
+    fits = [cs.fit_result(name="W01.csv", key="fit-1")]
+    event.listen(store.engine, "before_cursor_execute", fail_on_claims)
+    try:
+        with pytest.raises(RuntimeError, match="disk full"):
+            store.save_qualification(cs.lot_qualification(), fits)
+    finally:
+        event.remove(store.engine, "before_cursor_execute", fail_on_claims)
+    assert count(store, fit_records) == count(store, lot_records) == 0
+
+
+def test_fit_without_provenance_is_refused(store):
+    from dataclasses import replace
+
+    fit = cs.fit_result()
+    with pytest.raises(InputError, match="'options'"):
+        store.save_fit(replace(fit, provenance={k: v for k, v in fit.provenance.items()
+                                                if k != "options"}))
+    with pytest.raises(InputError, match="64-digit"):
+        store.save_fit(replace(fit, provenance={**fit.provenance, "sha256": "abc"}))
+    assert count(store, fit_records) == 0
+
+
 def test_writer_killed_mid_transaction_leaves_no_partial_record(store_url):
     ctx = multiprocessing.get_context("spawn")
     ready = ctx.Event()
@@ -267,9 +318,7 @@ def test_writer_killed_mid_transaction_leaves_no_partial_record(store_url):
     with open_store(store_url) as store:
         assert count(store, lot_records) == 0 and count(store, claim_records) == 0
         # the record the child was writing can be written whole now
-        outcome = store.save_lot(cs.lot_result(), input_name="lot.toml",
-                                 input_sha256=cs.sha("killed"), options={},
-                                 tool_version=cs.TOOL_VERSION)
+        outcome = store.save_lot(cs.lot_qualification(key="killed", options={}))
         assert outcome.created and len(store.claim_rows(outcome.record_id)) == 9
 
 
@@ -307,12 +356,16 @@ def test_urls(tmp_path, monkeypatch):
     assert normalize_url("postgres://u@h/d") == "postgresql+psycopg://u@h/d"
     assert normalize_url(str(tmp_path / "h.db")) == f"sqlite:///{tmp_path / 'h.db'}"
     monkeypatch.setenv("FREEZEOUT_DB", str(tmp_path / "env.sqlite3"))
-    assert db.default_url() == f"sqlite:///{tmp_path / 'env.sqlite3'}"
+    assert default_url() == f"sqlite:///{tmp_path / 'env.sqlite3'}"
     with open_store() as s:
         assert s.schema_version() == 2
     assert (tmp_path / "env.sqlite3").exists()
     monkeypatch.delenv("FREEZEOUT_DB")
-    monkeypatch.setattr(db.platformdirs, "user_data_dir", lambda app: str(tmp_path / app))
-    assert db.default_url() == f"sqlite:///{tmp_path / 'freezeout' / 'history.sqlite3'}"
+    monkeypatch.setattr(engine_module.platformdirs, "user_data_dir",
+                        lambda app: str(tmp_path / app))
+    assert default_url() == f"sqlite:///{tmp_path / 'freezeout' / 'history.sqlite3'}"
     with pytest.raises(StorageError, match="unsupported"):
         make_engine("mysql://u@h/d")
+    # the same refusal as bad input, naming the option (what the commands report)
+    with pytest.raises(InputError, match=r"^--db: history database: unsupported database"):
+        open_history("mysql://u@h/d")
