@@ -28,8 +28,8 @@ def test_raw_file_is_fitted_and_severe_points_left_out():
 
 def test_reduced_csv_fits_like_the_raw_file(tmp_path):
     """The reduced CSV written by reduce is read by fit unchanged, flags included."""
-    from freezeout.io.raw import load_raw_run
-    from freezeout.io.reduced import write_reduced_csv
+    from freezeout.io.reduced_csv_writer import write_reduced_csv
+    from test_raw_io import load_raw_run
 
     out = tmp_path / "run.csv"
     write_reduced_csv(load_raw_run(RAW), out, raw_source=RAW)

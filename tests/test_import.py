@@ -7,7 +7,7 @@ import pytest
 from scipy import constants as sc
 
 from freezeout.errors import InputError
-from freezeout.io.csv_run import read_run_csv
+from freezeout.io.reduced_csv_reader import read_reduced_csv as read_run_csv
 
 
 def _write(tmp_path, text, name="run.csv"):

@@ -6,18 +6,21 @@ import importlib.util
 import json
 import math
 import re
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pytest
-import typer
-from typer.testing import CliRunner
 
-from freezeout.cli.reduce import default_output, reduce_command
+from cli_runner import cli
+from freezeout.api import default_reduced_output as default_output
 from freezeout.errors import InputError
-from freezeout.io.raw import is_raw_file, load_raw_run, parse_length, read_raw
-from freezeout.io.reduced import severe_from_flags, write_reduced_csv
-from freezeout.reduction import reduced_columns
+from freezeout.io.raw_reader import is_raw_file, parse_length
+from freezeout.io.raw_reader import read_raw as read_raw_table
+from freezeout.io.reduced_csv_layout import reduced_columns, severe_from_flags
+from freezeout.io.reduced_csv_writer import write_reduced_csv
+from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K
+from freezeout.reduction import readings_from_table, reduce_readings
 from test_hall_reduction import reduce_rows, synth_rows
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -43,6 +46,19 @@ def raw_text(rows, *, units=("K", "T", "A", "V"), meta=None):
         lines.append(f"{t_out!r},{b * TO_UNIT[ub]!r},{i * TO_UNIT[ui]!r},{int(ip)},{int(im)},"
                      f"{int(vp)},{int(vm)},{v * TO_UNIT[uv]!r}")
     return "\n".join(lines) + "\n"
+
+
+def read_raw(path, *, temperature_tolerance=DEFAULT_GROUPING_TOLERANCE_K, thickness=None):
+    """Read a raw file (io) and check and group its readings (reduction)."""
+    return readings_from_table(read_raw_table(path, thickness=thickness),
+                               temperature_tolerance=temperature_tolerance)
+
+
+def load_raw_run(path, *, thickness=None, hall_factor=1.0,
+                 temperature_tolerance=DEFAULT_GROUPING_TOLERANCE_K, thresholds=None):
+    """Read a raw file and reduce it: the composition the API makes of io and reduction."""
+    readings = read_raw(path, temperature_tolerance=temperature_tolerance, thickness=thickness)
+    return reduce_readings(readings, hall_factor=hall_factor, thresholds=thresholds)
 
 
 def write(tmp_path, text, name="run.csv"):
@@ -364,9 +380,9 @@ def test_reduced_csv_layout_and_read_back(tmp_path):
     assert list(cols) == EXPECTED_COLUMNS
     assert severe_from_flags(cols["flags"]).tolist() == run.severe.tolist()
     # the reduced-run reader of the fit reads it unchanged
-    from freezeout.io.csv_run import read_run_csv
+    from freezeout.io.reduced_csv_reader import read_reduced_csv
 
-    back = read_run_csv(out)
+    back = read_reduced_csv(out)
     assert np.allclose(back.temperature, run.temperature, rtol=1e-9)
     assert np.allclose(back.resistivity, run.resistivity, rtol=1e-9)
     assert np.allclose(back.density, run.density, rtol=1e-9)
@@ -391,15 +407,23 @@ def test_electron_run_writes_n_column_and_replaces(tmp_path):
 # ---------------------------------------------------------------------------------------
 
 
-def cli():
-    app = typer.Typer()
-    app.command("reduce")(reduce_command)
+@dataclass(frozen=True)
+class CliResult:
+    exit_code: int
+    stdout: str
+    stderr: str
 
-    @app.command("other")
-    def other() -> None:  # a second command so that "reduce" is a subcommand
-        """Do nothing."""
+    @property
+    def output(self):
+        return self.stdout + self.stderr
 
-    return app
+
+@pytest.fixture
+def reduce_cli(monkeypatch, capsys):
+    """Run ``freezeout reduce ARGS`` through the console-script entry point, in-process."""
+    def run(*args):
+        return CliResult(*cli(monkeypatch, capsys, "reduce", *args))
+    return run
 
 
 def test_cli_module_is_light_and_defaults_agree():
@@ -407,20 +431,24 @@ def test_cli_module_is_light_and_defaults_agree():
     import subprocess
     import sys
 
-    out = subprocess.run([sys.executable, "-c", "import sys, freezeout.cli.reduce; "
+    out = subprocess.run([sys.executable, "-c", "import sys, freezeout.cli.reduce_cmd; "
                           "print('numpy' in sys.modules)"], capture_output=True, text=True,
                          check=True)
     assert out.stdout.strip() == "False"
-    from freezeout.cli.reduce import TEMPERATURE_TOLERANCE
-    from freezeout.reduction import DEFAULT_TEMPERATURE_TOLERANCE
+    import inspect
 
-    assert TEMPERATURE_TOLERANCE == DEFAULT_TEMPERATURE_TOLERANCE
+    from freezeout import api
+    from freezeout.reduction import readings_from_arrays
+
+    default = inspect.signature(readings_from_arrays).parameters["temperature_tolerance"].default
+    assert api.DEFAULT_GROUPING_TOLERANCE_K == default == DEFAULT_GROUPING_TOLERANCE_K
 
 
-def test_cli_reduce_default_output_and_summary(tmp_path):
+def test_cli_reduce_default_output_and_summary(tmp_path, reduce_cli, monkeypatch):
     raw = tmp_path / "harrowgate_raw.csv"
     raw.write_bytes(SAMPLE.read_bytes())
-    result = CliRunner().invoke(cli(), ["reduce", str(raw)], env={"COLUMNS": "200"})
+    monkeypatch.setenv("COLUMNS", "200")
+    result = reduce_cli(str(raw))
     assert result.exit_code == 0, result.output
     out = default_output(raw)
     assert out == tmp_path / "harrowgate_raw_reduced.csv" and out.exists()
@@ -428,10 +456,9 @@ def test_cli_reduce_default_output_and_summary(tmp_path):
     assert "3 severe" in result.stdout
 
 
-def test_cli_reduce_out_thickness_json(tmp_path):
+def test_cli_reduce_out_thickness_json(tmp_path, reduce_cli):
     out = tmp_path / "sub.csv"
-    result = CliRunner().invoke(cli(), ["reduce", str(SAMPLE), "--out", str(out),
-                                        "--thickness", "700um", "--json"])
+    result = reduce_cli(str(SAMPLE), "--out", str(out), "--thickness", "700um", "--json")
     assert result.exit_code == 0, result.output
     payload = json.loads(result.stdout)
     assert payload["output"] == str(out) and payload["severe"] == 3
@@ -441,10 +468,10 @@ def test_cli_reduce_out_thickness_json(tmp_path):
     assert out.exists()
 
 
-def test_cli_thresholds(tmp_path):
-    result = CliRunner().invoke(cli(), [
-        "reduce", str(SAMPLE), "--out", str(tmp_path / "o.csv"), "--json",
-        "--threshold", "reciprocity_severe=1", "--threshold", "current-reversal-severe=1"])
+def test_cli_thresholds(tmp_path, reduce_cli):
+    result = reduce_cli(
+        str(SAMPLE), "--out", str(tmp_path / "o.csv"), "--json",
+        "--threshold", "reciprocity_severe=1", "--threshold", "current-reversal-severe=1")
     assert result.exit_code == 0, result.output
     assert json.loads(result.stdout)["severe"] == 0
 
@@ -455,24 +482,23 @@ def test_cli_thresholds(tmp_path):
     ["--hall-factor", "0"],
     ["--thickness", "thick"],
 ])
-def test_cli_bad_options_exit_2(tmp_path, args):
-    result = CliRunner().invoke(cli(), ["reduce", str(SAMPLE), "--out",
-                                        str(tmp_path / "o.csv"), *args])
+def test_cli_bad_options_exit_2(tmp_path, args, reduce_cli):
+    result = reduce_cli(str(SAMPLE), "--out", str(tmp_path / "o.csv"), *args)
     assert result.exit_code == 2
     assert result.stderr.startswith("freezeout: error:")
     assert not (tmp_path / "o.csv").exists()
 
 
-def test_cli_input_error_is_one_line_exit_2(tmp_path):
+def test_cli_input_error_is_one_line_exit_2(tmp_path, reduce_cli):
     bad = write(tmp_path, BAD_FILES["zero current"][0])
-    result = CliRunner().invoke(cli(), ["reduce", str(bad)])
+    result = reduce_cli(str(bad))
     assert result.exit_code == 2
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1
     assert re.search(r"run\.csv, line 7, column 'I \[A\]': current is zero", lines[0])
     assert "Traceback" not in result.output
     assert not default_output(bad).exists()
-    missing = CliRunner().invoke(cli(), ["reduce", str(tmp_path / "nope.csv")])
+    missing = reduce_cli(str(tmp_path / "nope.csv"))
     assert missing.exit_code == 2 and "cannot read file" in missing.stderr
 
 

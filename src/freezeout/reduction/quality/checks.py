@@ -1,36 +1,7 @@
-"""Data-quality checks of a reduction, one temperature set point at a time.
+"""The data-quality checks of one temperature set point, each graded against its thresholds.
 
-Checks return :class:`Finding` objects (or None when the data pass), never exceptions: a
-poor point is kept, marked, and left for the user (and ``fit``) to judge. Each check has a
-warning and a severe threshold in :class:`QualityThresholds`; a finding records the
-threshold it crossed and the values that crossed it.
-
-Finding codes (defaults in :class:`QualityThresholds`; all defaults are common practice,
-no source):
-
-``reciprocity``
-    Reciprocal resistances (R_12,43 vs R_43,12, R_23,14 vs R_14,23) differ; the
-    reciprocity theorem makes them equal for ohmic contacts on a homogeneous sample.
-``current-reversal``
-    The resistance with the current one way differs from the other way: non-ohmic
-    (rectifying) contacts, or a thermoelectric offset comparable to the signal.
-``ratio``
-    R_A/R_B (or, for a Hall bar, the ratio of the two sides) far from 1: sample shape or
-    contact placement far from symmetric, or an inhomogeneous sample.
-``hall-offset``
-    The Hall voltage is small against the offset (misalignment and thermoelectric) voltage
-    it is extracted from.
-``field-reversal``
-    The Hall coefficient from the positive field alone differs from that from the negative
-    field alone (each with both diagonals, which cancels the misalignment for a reciprocal
-    sample): a remanent field, a field-dependent offset or non-reciprocal contacts.
-``temperature-drift``
-    Temperature drifted within a set point (peak-to-peak relative to the mean).
-``non-linearity``
-    When several currents were used, V is not proportional to I.
-``single-reading``
-    A configuration was read only once per current direction; uncertainties came from the
-    spread between equivalent configurations instead (severity ``info``).
+Checks return :class:`~freezeout.records.readings.Finding` objects (or None when the data
+pass), never exceptions. The codes and thresholds are in :mod:`.thresholds`.
 
 References
 ----------
@@ -39,18 +10,16 @@ References
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, field
 
 import numpy as np
 
+from freezeout.records.readings import Finding
+from freezeout.reduction.quality.metrics import relative_difference
+from freezeout.reduction.quality.thresholds import QualityThresholds
+
 __all__ = [
-    "CODES",
-    "SEVERITIES",
-    "Finding",
-    "QualityThresholds",
     "check_current_reversal",
     "check_field_reversal",
     "check_hall_offset",
@@ -59,182 +28,7 @@ __all__ = [
     "check_reciprocity",
     "check_repeats",
     "check_temperature_drift",
-    "linear_nonlinearity",
-    "relative_difference",
 ]
-
-#: Severities, mildest first.
-SEVERITIES = ("info", "warning", "severe")
-
-#: Finding code -> (threshold attribute prefix, plain description).
-CODES: dict[str, tuple[str, str]] = {
-    "reciprocity": ("reciprocity", "reciprocal resistances disagree"),
-    "current-reversal": ("current_reversal", "current-reversal asymmetry (non-ohmic contacts)"),
-    "ratio": ("ratio", "R_A/R_B ratio far from 1 (geometry or inhomogeneity)"),
-    "hall-offset": ("hall_offset", "Hall voltage small against its offset"),
-    "field-reversal": ("field_reversal", "field-reversal asymmetry of the Hall signal"),
-    "temperature-drift": ("temperature_drift", "temperature drift within a set point"),
-    "non-linearity": ("nonlinearity", "voltage not proportional to current"),
-    "single-reading": ("min_repeats", "single readings, uncertainty from equivalent configs"),
-}
-
-
-@dataclass(frozen=True)
-class Finding:
-    """One data-quality finding at one temperature set point.
-
-    Attributes
-    ----------
-    code
-        Short kebab-case code, one of :data:`CODES`.
-    severity
-        ``"info"``, ``"warning"`` or ``"severe"``.
-    message
-        What was found, in plain words.
-    temperature
-        Mean temperature of the set point. [K]
-    values
-        The values that tripped the check (metric and its inputs), by name.
-    threshold
-        The threshold that was crossed (in the units of the metric).
-    """
-
-    code: str
-    severity: str
-    message: str
-    temperature: float
-    values: dict = field(default_factory=dict)
-    threshold: float = math.nan
-
-    def __post_init__(self) -> None:
-        if self.severity not in SEVERITIES:
-            raise ValueError(f"severity must be one of {SEVERITIES}, not {self.severity!r}")
-
-    def __hash__(self) -> int:
-        return hash((self.code, self.severity, self.message, self.temperature, self.threshold))
-
-    def to_dict(self) -> dict:
-        """Plain-Python form (JSON-serialisable when the values are numbers or strings).
-
-        Returns
-        -------
-        dict
-            Keys ``code``, ``severity``, ``message``, ``temperature``, ``values``,
-            ``threshold``.
-        """
-        return {
-            "code": self.code,
-            "severity": self.severity,
-            "message": self.message,
-            "temperature": float(self.temperature),
-            "values": {k: _plain(v) for k, v in self.values.items()},
-            "threshold": float(self.threshold),
-        }
-
-
-def _plain(value):
-    if isinstance(value, np.generic):
-        return value.item()
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    if isinstance(value, tuple | list):
-        return [_plain(v) for v in value]
-    return value
-
-
-@dataclass(frozen=True)
-class QualityThresholds:
-    """Thresholds of the data-quality checks; every default can be overridden.
-
-    Relative quantities are fractions (0.03 = 3 %). A check is graded ``severe`` past its
-    severe threshold, else ``warning`` past its warning threshold; set a threshold to
-    ``math.inf`` (``0`` for ``hall_offset_*``) to switch that grade off. All defaults are
-    common practice, no source.
-
-    Attributes
-    ----------
-    reciprocity_warning, reciprocity_severe
-        Relative difference of reciprocal resistances, |R - R'| / mean. Defaults 0.03, 0.10.
-    current_reversal_warning, current_reversal_severe
-        Relative difference of the resistance at the two current directions, per
-        configuration and current. Defaults 0.03, 0.10.
-    ratio_warning, ratio_severe
-        R_max/R_min of the two characteristic resistances. Defaults 2.0 and inf (van der
-        Pauw's equation holds for any ratio, so a large one alone is not severe).
-    hall_offset_warning, hall_offset_severe
-        Lower bounds of |V_H| / offset voltage, the offset being the mean magnitude of the
-        non-Hall part of the Hall readings. Defaults 0.1, 0.01.
-    field_reversal_warning, field_reversal_severe
-        Relative difference of the Hall slope from +B alone and from -B alone.
-        Defaults 0.05, 0.20.
-    temperature_drift_warning, temperature_drift_severe
-        Peak-to-peak temperature within a set point relative to its mean. Defaults 0.01,
-        0.05.
-    nonlinearity_warning, nonlinearity_severe
-        Largest residual of a straight-line fit of V against I, relative to the fitted
-        |R| times the largest |I|; checked only where two or more currents were used.
-        Defaults 0.01, 0.05.
-    min_repeats
-        Readings per configuration and current direction below which an ``info`` finding
-        says the uncertainty came from equivalent configurations. Default 2.
-    """
-
-    reciprocity_warning: float = 0.03
-    reciprocity_severe: float = 0.10
-    current_reversal_warning: float = 0.03
-    current_reversal_severe: float = 0.10
-    ratio_warning: float = 2.0
-    ratio_severe: float = math.inf
-    hall_offset_warning: float = 0.1
-    hall_offset_severe: float = 0.01
-    field_reversal_warning: float = 0.05
-    field_reversal_severe: float = 0.20
-    temperature_drift_warning: float = 0.01
-    temperature_drift_severe: float = 0.05
-    nonlinearity_warning: float = 0.01
-    nonlinearity_severe: float = 0.05
-    min_repeats: int = 2
-
-    def __post_init__(self) -> None:
-        for f in dataclasses.fields(self):
-            value = getattr(self, f.name)
-            if not isinstance(value, int | float) or math.isnan(value) or value < 0:
-                raise ValueError(f"threshold {f.name} must be a non-negative number, not {value!r}")
-        for prefix in ("reciprocity", "current_reversal", "ratio", "field_reversal",
-                       "temperature_drift", "nonlinearity"):
-            if getattr(self, f"{prefix}_severe") < getattr(self, f"{prefix}_warning"):
-                raise ValueError(f"{prefix}_severe must not be below {prefix}_warning")
-        if self.hall_offset_severe > self.hall_offset_warning:
-            raise ValueError("hall_offset_severe must not be above hall_offset_warning")
-
-    @classmethod
-    def from_overrides(cls, overrides: Mapping[str, float]) -> QualityThresholds:
-        """Defaults with some thresholds replaced.
-
-        Parameters
-        ----------
-        overrides
-            Threshold name -> value; names may use ``-`` for ``_``
-            (``"reciprocity-warning"``).
-
-        Returns
-        -------
-        QualityThresholds
-            The thresholds.
-
-        Raises
-        ------
-        ValueError
-            For an unknown name or an invalid value.
-        """
-        names = {f.name for f in dataclasses.fields(cls)}
-        clean = {}
-        for key, value in overrides.items():
-            name = key.strip().replace("-", "_")
-            if name not in names:
-                raise ValueError(f"unknown threshold {key!r} (known: {', '.join(sorted(names))})")
-            clean[name] = int(value) if name == "min_repeats" else float(value)
-        return cls(**clean)
 
 
 def _grade(value: float, warning: float, severe: float, *, below: bool = False):
@@ -256,56 +50,6 @@ def _grade(value: float, warning: float, severe: float, *, below: bool = False):
 
 def _pct(x: float) -> str:
     return f"{100.0 * x:.3g}%"
-
-
-def relative_difference(a, b):
-    """Relative difference ``|a - b| / |(a + b) / 2|``.
-
-    Parameters
-    ----------
-    a, b
-        Two estimates of the same quantity (any unit, the same for both).
-
-    Returns
-    -------
-    ndarray
-        The relative difference. [1]
-    """
-    a = np.asarray(a, dtype=float)
-    b = np.asarray(b, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.abs(a - b) / np.abs(0.5 * (a + b))
-
-
-def linear_nonlinearity(current, voltage):
-    """Departure of V(I) from a straight line, relative to the signal.
-
-    Fits ``V = R I + V_0`` by least squares and returns
-    ``max |residual| / (|R| max |I|)``.
-
-    Parameters
-    ----------
-    current
-        Signed currents of one configuration (canonical orientation). [A]
-    voltage
-        Voltages at those currents. [V]
-
-    Returns
-    -------
-    float
-        The relative non-linearity; NaN with fewer than three readings. [1]
-    """
-    i = np.asarray(current, dtype=float)
-    v = np.asarray(voltage, dtype=float)
-    if i.size < 3:
-        return math.nan
-    design = np.column_stack([i, np.ones_like(i)])
-    coef, *_ = np.linalg.lstsq(design, v, rcond=None)
-    residual = v - design @ coef
-    scale = abs(coef[0]) * np.max(np.abs(i))
-    if scale == 0.0:
-        return math.inf
-    return float(np.max(np.abs(residual)) / scale)
 
 
 def _worst(metrics: Mapping[str, float]) -> tuple[str, float]:

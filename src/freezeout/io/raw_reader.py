@@ -6,40 +6,35 @@ the header carry ``key: value`` metadata (``sample``, ``thickness``, ``geometry`
 ``width``, ``spacing``, ...). The format is documented in ``docs/raw_format.md``.
 
 This module is the only place where the raw format's units are converted; everything it
-returns is in canonical units (K, T, A, V, cm).
+returns is in canonical units (K, T, A, V, cm). It reads only: the checks that need the
+contact configurations, and the grouping by set point, are the reduction's
+(:func:`freezeout.reduction.readings_from_table`).
 """
 
 from __future__ import annotations
 
 import csv
-import hashlib
 import math
 import re
-from pathlib import Path
 
 import numpy as np
 
 from freezeout.errors import InputError
+from freezeout.io.text_file import read_text_lines
+from freezeout.numbers.cells import parse_number_cell
+from freezeout.numbers.digest import sha256_bytes
 from freezeout.numbers.units import parse_unit, split_header
-from freezeout.reduction import (
-    DEFAULT_TEMPERATURE_TOLERANCE,
-    QualityThresholds,
-    RawReadings,
-    ReducedRun,
-    readings_from_arrays,
-    reduce_readings,
-)
+from freezeout.records.readings import RawTable
 
 __all__ = [
     "GEOMETRY_NAMES",
     "RAW_COLUMNS",
     "is_raw_file",
-    "load_raw_run",
     "parse_length",
     "read_raw",
 ]
 
-#: Column name in the file -> role in :class:`~freezeout.reduction.RawReadings`.
+#: Column name in the file -> role in :class:`~freezeout.records.readings.RawTable`.
 RAW_COLUMNS: dict[str, str] = {
     "T": "temperature",
     "B": "field",
@@ -195,48 +190,49 @@ def _resolve_length(meta_lines: dict[str, tuple[str, int]], key: str, file: str,
     return value, err, text
 
 
-def read_raw(
-    path,
-    *,
-    temperature_tolerance: float = DEFAULT_TEMPERATURE_TOLERANCE,
-    thickness=None,
-) -> RawReadings:
-    """Read, convert and validate a raw-readings CSV.
+def _reading_value(cell: str, file: str, line: int, column: str) -> float:
+    """A number cell of a raw file by :func:`~freezeout.numbers.cells.parse_number_cell`.
+
+    A raw file has no missing values: an empty cell is an ``empty value``, and a cell that
+    is not a number says ``not a number: '...'`` (the raw format's wording).
+    """
+    if not cell:
+        raise InputError("empty value", file=file, line=line, column=column)
+    try:
+        float(cell)
+    except ValueError:
+        raise InputError(f"not a number: {cell!r}", file=file, line=line,
+                         column=column) from None
+    return parse_number_cell(cell, file=file, line=line, column=column)
+
+
+def read_raw(path, *, thickness=None) -> RawTable:
+    """Read and convert a raw-readings CSV (no grouping, no check of the configurations).
 
     Parameters
     ----------
     path
         The raw CSV.
-    temperature_tolerance
-        Readings within this distance of a set point's running mean temperature belong to
-        it. [K]
     thickness
         Overrides the file's ``# thickness:`` line: a string with unit and optional
         uncertainty (``"350um"``, ``"0.35 mm +- 5 um"``), or a number in cm.
 
     Returns
     -------
-    RawReadings
-        Grouped readings in canonical units.
+    RawTable
+        The readings in canonical units, contact labels as written; the reduction checks
+        and groups them (:func:`freezeout.reduction.readings_from_table`).
 
     Raises
     ------
     InputError
         Naming file, line and column, for: unreadable or empty files, a missing column, an
-        unknown unit, a truncated row, a value that is not a finite number, a non-positive
-        temperature, zero current, an unknown contact label, a duplicate row, a missing
-        configuration, a single current or field direction, a missing thickness.
+        unknown unit, a truncated row, a value that is not a finite number, a duplicate
+        row, unknown geometry, a missing or unreadable thickness (or Hall bar width and
+        spacing).
     """
     file = str(path)
-    try:
-        raw_bytes = Path(path).read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read file: {exc.strerror or exc}", file=file) from None
-    try:
-        text = raw_bytes.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
-    lines = text.splitlines()
+    raw_bytes, lines = read_text_lines(path)
 
     meta_lines: dict[str, tuple[str, int]] = {}
     header: list[str] | None = None
@@ -310,16 +306,7 @@ def read_raw(
             if role in _CONTACT_ROLES:
                 cells[role].append(cell)
                 continue
-            if not cell:
-                raise InputError("empty value", file=file, line=number, column=title)
-            try:
-                value = float(cell)
-            except ValueError:
-                raise InputError(f"not a number: {cell!r}", file=file, line=number,
-                                 column=title) from None
-            if not math.isfinite(value):
-                raise InputError(f"not a finite number: {cell!r}", file=file, line=number,
-                                 column=title)
+            value = _reading_value(cell, file, number, title)
             cells[role].append(units[role].to_canonical(value))
         row_lines.append(number)
     if header is None:
@@ -343,7 +330,7 @@ def read_raw(
                          "--thickness", file=file)
     metadata["thickness"] = t_text
     metadata["thickness_source"] = "file" if thickness is None else "option"
-    extra = {}
+    extra: dict[str, float] = {}
     if geometry == "hall-bar":
         for key in ("width", "spacing"):
             value, err, _ = _resolve_length(meta_lines, key, file)
@@ -352,16 +339,15 @@ def read_raw(
                                  f"'# {key}: 1 mm')", file=file)
             extra[key], extra[f"{key}_err"] = value, err
     columns = {role: header[index[key]].strip() for key, role in RAW_COLUMNS.items()}
-    metadata["raw_sha256"] = hashlib.sha256(raw_bytes).hexdigest()
-    return readings_from_arrays(
-        *(np.asarray(cells[role]) for role in ("temperature", "field", "current", "i_plus",
-                                              "i_minus", "v_plus", "v_minus", "voltage")),
+    metadata["raw_sha256"] = sha256_bytes(raw_bytes)
+    return RawTable(
+        source=file,
+        **{role: np.asarray(cells[role], dtype=float) for role in _DIMENSION},
+        **{role: np.asarray(cells[role], dtype=str) for role in _CONTACT_ROLES},
+        line=np.asarray(row_lines, dtype=int),
         thickness=t_value,
         thickness_err=t_err,
         geometry=geometry,
-        temperature_tolerance=temperature_tolerance,
-        source=file,
-        lines=row_lines,
         metadata=metadata,
         columns=columns,
         **extra,
@@ -370,41 +356,3 @@ def read_raw(
 
 def _example_unit(role: str) -> str:
     return {"temperature": "K", "field": "T", "current": "A", "voltage": "V"}[role]
-
-
-def load_raw_run(
-    path,
-    *,
-    thickness=None,
-    hall_factor: float = 1.0,
-    temperature_tolerance: float = DEFAULT_TEMPERATURE_TOLERANCE,
-    thresholds: QualityThresholds | None = None,
-) -> ReducedRun:
-    """Read a raw-readings CSV and reduce it.
-
-    Parameters
-    ----------
-    path
-        The raw CSV.
-    thickness
-        Thickness override, as for :func:`read_raw` (string with unit, or cm).
-    hall_factor
-        Hall scattering factor r_H for the density. [1]
-    temperature_tolerance
-        Set-point grouping tolerance. [K]
-    thresholds
-        Quality thresholds; defaults if None.
-
-    Returns
-    -------
-    ReducedRun
-        The reduced run; its metadata names the raw file (``reduced_from``) and its
-        SHA-256 (``raw_sha256``).
-
-    Raises
-    ------
-    InputError
-        For bad input, see :func:`read_raw`.
-    """
-    readings = read_raw(path, temperature_tolerance=temperature_tolerance, thickness=thickness)
-    return reduce_readings(readings, hall_factor=hall_factor, thresholds=thresholds)

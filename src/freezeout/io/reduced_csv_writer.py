@@ -1,11 +1,9 @@
-"""Writer of reduced runs: the CSV that ``freezeout fit`` reads.
+"""Writer of a reduced run as the reduced CSV that ``freezeout fit`` reads.
 
-Columns, in order: ``T [K]``, ``rho [ohm cm]``, ``rho_err [ohm cm]``, ``R_H [cm^3/C]``,
-``R_H_err [cm^3/C]``, ``n [cm^-3]`` or ``p [cm^-3]`` (the run's majority carrier; the
-density is unsigned), ``n_err [cm^-3]`` or ``p_err [cm^-3]``, ``mu_H [cm^2/(V s)]``,
-``mu_H_err [cm^2/(V s)]``, ``flags`` (finding codes joined by ``;``, empty when clean).
-``# key: value`` lines at the top carry the sample, thickness, provenance and a summary of
-the findings.
+The run is a :class:`~freezeout.records.readings.ReducedRun`; the columns are those of
+:func:`freezeout.io.reduced_csv_layout.reduced_columns`. ``# key: value`` lines at the top
+carry the sample, thickness, provenance, the run's carrier type and a summary of the
+findings.
 """
 
 from __future__ import annotations
@@ -15,13 +13,12 @@ import io
 import math
 from pathlib import Path
 
-import numpy as np
-
 from freezeout._version import __version__
 from freezeout.io.atomic import atomic_write_text
-from freezeout.reduction import SEVERE_MARK, ReducedRun, reduced_columns
+from freezeout.io.reduced_csv_layout import reduced_columns
+from freezeout.records.readings import ReducedRun
 
-__all__ = ["format_number", "severe_from_flags", "write_reduced_csv"]
+__all__ = ["format_number", "write_reduced_csv"]
 
 _OWN_KEYS = ("sample", "thickness", "reduced_from", "raw_sha256", "geometry", "hall_factor",
              "carrier", "findings", "produced_by", "thickness_source")
@@ -46,24 +43,6 @@ def format_number(value: float) -> str:
     if math.isinf(value):
         return "inf" if value > 0 else "-inf"
     return f"{value:.10g}"
-
-
-def severe_from_flags(flags) -> np.ndarray:
-    """Which points of a reduced CSV failed a severe check, from its ``flags`` column.
-
-    Parameters
-    ----------
-    flags
-        The ``flags`` strings, one per point (codes joined by ``;``, severe ones ending in
-        ``!``).
-
-    Returns
-    -------
-    ndarray of bool
-        True where any code carries the severe mark.
-    """
-    return np.array([any(code.strip().endswith(SEVERE_MARK) for code in str(f).split(";"))
-                     for f in flags], dtype=bool)
 
 
 def _one_line(text) -> str:
@@ -93,7 +72,7 @@ def write_reduced_csv(run: ReducedRun, path, *, raw_source=None) -> Path:
     :func:`os.replace` (:func:`freezeout.io.atomic.atomic_write_text`), so a half-written
     file is never left behind. In the ``flags`` column, codes of severe findings carry a
     trailing ``!`` (``"reciprocity!;ratio"``), so a reader can recover which points are
-    severe with :func:`severe_from_flags`.
+    severe with :func:`~freezeout.io.reduced_csv_layout.severe_from_flags`.
 
     Parameters
     ----------

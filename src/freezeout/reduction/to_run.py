@@ -1,4 +1,4 @@
-"""A reduced run from the reduction layer, in the form the fit takes."""
+"""A reduced run in the form the fit takes: :class:`ReducedRun` to :class:`RunData`."""
 
 from __future__ import annotations
 
@@ -7,12 +7,36 @@ from pathlib import Path
 import numpy as np
 
 from freezeout.errors import InputError
-from freezeout.io.csv_run import majority_carrier, mixed_note, sha256_of, split_scale_uncertainty
-from freezeout.records.run import RunData
+from freezeout.numbers.digest import sha256_file
+from freezeout.records.readings import ReducedRun
+from freezeout.records.run import RunData, run_carrier
+from freezeout.records.run_rules import mixed_note, split_scale_uncertainty
+
+__all__ = ["run_from_reduction"]
 
 
-def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData:
-    """Convert a ``ReducedRun`` (from ``freezeout.io.raw.load_raw_run``) into a RunData.
+def run_from_reduction(path, reduced: ReducedRun, *, include_mixed: bool = False) -> RunData:
+    """The run a fit takes, from the reduction of a raw file.
+
+    The run's carrier type is :func:`~freezeout.records.run.run_carrier` of the points, as
+    for the ``# carrier`` line of the reduced CSV, so a raw file and its reduced CSV fit
+    alike.
+
+    Parameters
+    ----------
+    path
+        The raw file the run was reduced from (the run's source).
+    reduced
+        Its reduction.
+    include_mixed
+        Keep points whose Hall sign differs from the run's carrier type (otherwise they are
+        marked for exclusion from a single-carrier fit).
+
+    Returns
+    -------
+    RunData
+        The run; the thickness uncertainty, common to all points, is held apart as
+        ``scale_uncertainty``.
 
     Raises
     ------
@@ -23,7 +47,7 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
     if not ok.any():
         raise InputError("no set point gave a usable Hall density", file=str(path))
     point_carrier = tuple(reduced.carrier)
-    carrier = majority_carrier(point_carrier, reduced.temperature)
+    carrier = run_carrier(point_carrier, reduced.temperature)
     notes = []
     note = mixed_note(point_carrier, carrier, reduced.temperature, include_mixed)
     if note:
@@ -43,7 +67,7 @@ def run_from_reduction(path, reduced, *, include_mixed: bool = False) -> RunData
     meta.setdefault("reduced_from", Path(path).name)
     return RunData(
         source=str(path),
-        sha256=sha256_of(Path(path)),
+        sha256=meta.get("raw_sha256") or sha256_file(path),
         temperature=np.asarray(reduced.temperature, dtype=float),
         density=density,
         density_err=density_err,
