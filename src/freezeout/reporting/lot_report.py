@@ -1,8 +1,9 @@
 """The lot report: lot.json, lot.csv (for a LIMS), charts and a self-contained HTML page.
 
-Everything is drawn from the lot JSON document that ``freezeout qualify`` builds (the
-:class:`~freezeout.claims.conformity.LotVerdict` dict plus ``claims``, per-wafer ``input`` and
-``provenance``), so a stored record can be rendered again.
+Everything is drawn from the typed record of a qualification
+(:class:`~freezeout.records.qualification.LotQualification`: the lot file, the lot's verdict
+with every wafer's and claim's, how each wafer was measured, provenance); lot.json is its
+``to_dict()``.
 """
 
 from __future__ import annotations
@@ -12,13 +13,21 @@ import csv
 import html
 import io
 import json
-import math
 import re
 from collections.abc import Mapping
 from pathlib import Path
 
-from freezeout.claims.conformity import DEFERENCE, RULE_IN_WORDS
 from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
+from freezeout.numbers import finite_or_none
+from freezeout.records.qualification import LotQualification, WaferInput
+from freezeout.records.verdicts import (
+    DEFERENCE,
+    RULE_IN_WORDS,
+    ClaimVerdict,
+    LotVerdict,
+    SpecWindow,
+    WaferVerdict,
+)
 from freezeout.reporting.fit_report import CSS
 
 #: Columns of lot.csv, one row per wafer and claim.
@@ -52,15 +61,9 @@ def _claim_label(key, quantity_of: dict) -> str:
     q = quantity_of.get(key)
     return f"{key} ({q})" if q else str(key)
 
-def _num(x) -> float | None:
-    if x is None or isinstance(x, bool | str):
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
 
 def _g(x, digits: int = 4) -> str:
-    v = _num(x)
+    v = finite_or_none(x)
     return "—" if v is None else f"{v:.{digits}g}"
 
 
@@ -83,75 +86,81 @@ def _badge(verdict: str) -> str:
     return f"<span class='verdict v-{v}'>{v}</span>"
 
 
-def _window_text(spec: Mapping, unit: str | None) -> str:
-    lo, hi = _num(spec.get("min")), _num(spec.get("max"))
-    u = _unit(unit)
+def _window_text(window: SpecWindow | None, type_value: str | None) -> str:
+    """A specification in words; a type claim (no window) as ``type n``, or a dash."""
+    if window is None:
+        return f"type {type_value}" if type_value else "—"
+    lo, hi = finite_or_none(window.lower), finite_or_none(window.upper)
+    u = _unit(window.unit)
     if lo is not None and hi is not None:
         text = f"{lo:.4g} to {hi:.4g} {u}"
     elif lo is not None:
         text = f"≥ {lo:.4g} {u}"
-    elif hi is not None:
-        text = f"≤ {hi:.4g} {u}"
     else:
-        value = spec.get("value")
-        return f"type {value}" if value else "—"
-    nominal = _num(spec.get("nominal"))
+        text = f"≤ {hi:.4g} {u}"
+    nominal = finite_or_none(window.nominal)
     if nominal is not None:
         text += f" (nominal {nominal:.4g})"
     return text
 
 
-def _measured_text(c: Mapping) -> str:
-    m = c.get("measured") or {}
-    value = m.get("value")
-    if isinstance(value, str):
-        return f"type {value}"
-    v = _num(value)
+def _claim_unit(c: ClaimVerdict) -> str | None:
+    return c.window.unit if c.window is not None else None
+
+
+def _measured_text(c: ClaimVerdict) -> str:
+    if isinstance(c.measured, str):
+        return f"type {c.measured}"
+    v = finite_or_none(c.measured)
     if v is None:
         return "no value"
-    u = _num(m.get("stderr"))
-    unit = _unit(c.get("unit"))
+    u = finite_or_none(c.stderr)
+    unit = _unit(_claim_unit(c))
     if u is None:
         return f"{v:.4g} {unit} (u unknown)"
     return f"{v:.4g} ± {u:.2g} {unit}"
 
 
-def numeric_claim_keys(lot: Mapping) -> list[str]:
+def numeric_claim_keys(verdict: LotVerdict) -> list[str]:
     """The keys of the claims that have a specification window (charted), in file order."""
     keys: list[str] = []
-    for w in lot.get("wafers") or []:
-        for c in w.get("claims") or []:
-            spec = c.get("spec") or {}
-            if (spec.get("min") is not None or spec.get("max") is not None) and \
-                    c.get("claim") not in keys:
-                keys.append(c.get("claim"))
+    for w in verdict.wafers:
+        for c in w.claims:
+            if c.window is not None and c.claim_key not in keys:
+                keys.append(c.claim_key)
     return keys
 
 
-def _slug(text: str) -> str:
-    return re.sub(r"[^A-Za-z0-9]+", "", text) or "claim"
+def chart_file_name(claim_key: str) -> str:
+    """The chart's file name: ``chart_`` and the key's letters and digits (``chart_claim2.png``).
+
+    Not :func:`freezeout.numbers.slug` (which would give ``chart_claim_2.png``): the report's
+    file names stay as they were.
+    """
+    return f"chart_{re.sub(r'[^A-Za-z0-9]+', '', claim_key) or 'claim'}.png"
 
 
-def lot_figures(lot: Mapping) -> dict[str, tuple[bytes, str]]:
+def lot_figures(qualification: LotQualification) -> dict[str, tuple[bytes, str]]:
     """One chart per claim with a specification window: file name -> (PNG bytes, caption)."""
     from freezeout.reporting import lot_figures as lf
     from freezeout.reporting.figures import png_bytes
 
+    verdict = qualification.verdict
     out = {}
-    for key in numeric_claim_keys(lot):
-        ax = lf.claim_axes(lot, key)
+    for key in numeric_claim_keys(verdict):
+        ax = lf.claim_axes(verdict, key)
         quantity = ax.get_title(loc="left").split(": ", 1)[-1]
-        k = _g((lot.get("decision") or {}).get("coverage_factor"))
+        k = _g(verdict.coverage_factor)
         caption = (f"{key}, {quantity}: measured value per wafer with its expanded "
                    f"uncertainty ±U (k = {k}, thin bars with caps) and standard uncertainty "
                    "±u (thick bars), against the specification window (shaded). Marker shape "
                    "and the word under each wafer give its verdict on this claim.")
-        out[f"chart_{_slug(key)}.png"] = (png_bytes(ax), caption)
+        out[chart_file_name(key)] = (png_bytes(ax), caption)
         ax.figure.clear()
     return out
 
 
-def lot_csv(lot: Mapping) -> str:
+def lot_csv(qualification: LotQualification) -> str:
     """lot.csv: one row per wafer and claim (:data:`CSV_COLUMNS`), numbers at full precision.
 
     Empty cells stand for "none" (no uncertainty, a one-sided window, a type claim's limits).
@@ -165,94 +174,90 @@ def lot_csv(lot: Mapping) -> str:
             return ""
         if isinstance(x, str):
             return x
-        v = _num(x)
+        v = finite_or_none(x)
         return "" if v is None else repr(v)
 
-    for wafer in lot.get("wafers") or []:
-        for c in wafer.get("claims") or []:
-            m = c.get("measured") or {}
-            spec = c.get("spec") or {}
-            value = m.get("value")
+    v = qualification.verdict
+    for wafer in v.wafers:
+        for c in wafer.claims:
+            win = c.window
+            lo, hi, nominal = (None, None, None) if win is None else (
+                win.lower, win.upper, win.nominal)
             w.writerow([cell(x) for x in (
-                lot.get("lot"), lot.get("supplier"), lot.get("date"), wafer.get("id"),
-                c.get("claim"), c.get("quantity"), c.get("unit"), c.get("temperature_K"),
-                value, m.get("stderr"), c.get("expanded_uncertainty"),
-                c.get("coverage_factor"), spec.get("min"), spec.get("max"),
-                spec.get("nominal"), spec.get("value"), c.get("verdict"), c.get("margin_U"),
-                c.get("conformance_probability"), c.get("method"), c.get("rule"))])
+                v.lot, v.supplier, v.date, wafer.wafer_id, c.claim_key, c.quantity,
+                _claim_unit(c), c.temperature_K, c.measured, c.stderr, c.expanded,
+                c.coverage_factor, lo, hi, nominal, c.claimed if win is None else None,
+                c.verdict, c.margin, c.conformance_probability, c.method, c.rule)])
     return buf.getvalue()
 
 
-def _claim_rows(wafer: Mapping) -> str:
+def _claim_rows(wafer: WaferVerdict) -> str:
     rows = []
-    for c in wafer.get("claims") or []:
-        temp = _num(c.get("temperature_K"))
-        quantity = str(c.get("quantity")).replace("_", " ")
-        if temp is not None and c.get("quantity") == "resistivity":
+    for c in wafer.claims:
+        temp = finite_or_none(c.temperature_K)
+        quantity = str(c.quantity).replace("_", " ")
+        if temp is not None and c.quantity == "resistivity":
             quantity += f" at {temp:g} K"
-        big_u = _num(c.get("expanded_uncertainty"))
-        u_text = "—" if big_u is None else f"{big_u:.2g} {_unit(c.get('unit'))}"
-        margin = _num(c.get("margin_U"))
-        p_c = _num(c.get("conformance_probability"))
+        big_u = finite_or_none(c.expanded)
+        u_text = "—" if big_u is None else f"{big_u:.2g} {_unit(_claim_unit(c))}"
+        margin = finite_or_none(c.margin)
+        p_c = finite_or_none(c.conformance_probability)
         rows.append(
-            f"<tr><td>{html.escape(str(c.get('claim')))}</td><td>{html.escape(quantity)}</td>"
+            f"<tr><td>{html.escape(str(c.claim_key))}</td><td>{html.escape(quantity)}</td>"
             f"<td class=num>{html.escape(_measured_text(c))}</td>"
             f"<td class=num>{html.escape(u_text)}</td>"
-            f"<td>{html.escape(_window_text(c.get('spec') or {}, c.get('unit')))}</td>"
-            f"<td>{_badge(str(c.get('verdict')))}</td>"
+            f"<td>{html.escape(_window_text(c.window, c.claimed))}</td>"
+            f"<td>{_badge(str(c.verdict))}</td>"
             f"<td class=num>{'—' if margin is None else f'{margin:+.2f}'}</td>"
             f"<td class=num>{_probability(p_c)}</td>"
-            f"<td>{html.escape(str(c.get('method') or '—'))}</td></tr>")
-        notes = list(c.get("notes") or [])
-        if notes:
+            f"<td>{html.escape(str(c.method or '—'))}</td></tr>")
+        if c.notes:
             rows.append(f"<tr><td></td><td class=note colspan=8>"
-                        f"{'<br>'.join(html.escape(str(n)) for n in notes)}</td></tr>")
+                        f"{'<br>'.join(html.escape(str(n)) for n in c.notes)}</td></tr>")
     return "".join(rows)
 
 
-def _wafer_section(wafer: Mapping) -> str:
+def _wafer_section(wafer: WaferVerdict, inp: WaferInput) -> str:
     esc = html.escape
-    inp = wafer.get("input") or {}
-    how = inp.get("how") or ""
-    run = inp.get("run")
+    how = inp.how or ""
     lines = []
-    if run:
-        lines.append(f"run <code>{esc(str(run))}</code>")
+    if inp.run:
+        lines.append(f"run <code>{esc(str(inp.run))}</code>")
     if how:
         lines.append(esc(how))
-    if inp.get("material"):
-        lines.append(f"material {esc(str(inp['material']))}")
-    hall = inp.get("hall_factor") or {}
-    r_h = _num(hall.get("value"))
+    if inp.material:
+        lines.append(f"material {esc(str(inp.material))}")
+    hall = inp.hall_factor
+    r_h = None if hall is None else finite_or_none(hall.value)
     if r_h is not None:
-        u_r = _num(hall.get("stderr")) or 0.0
+        u_r = finite_or_none(hall.stderr) or 0.0
         text = f"Hall factor r_H = {r_h:g}" + (f" ± {u_r:g}" if u_r > 0 else "")
-        if hall.get("source"):
-            text += f" ({hall['source']})"
+        if hall.source:
+            text += f" ({hall.source})"
         lines.append(esc(text))
-    fit = inp.get("fit") or {}
-    if fit:
-        red = _num(fit.get("reduced_chi2"))
-        lines.append(f"{fit.get('n_points')} points, reduced χ² = "
+    fit = inp.fit
+    if fit is not None:
+        red = finite_or_none(fit.reduced_chi2)
+        lines.append(f"{fit.n_points} points, reduced χ² = "
                      f"{'—' if red is None else f'{red:.3g}'}")
-    notes = [str(n) for n in wafer.get("notes") or []]
-    notes_html = "".join(f"<div class=warn>{esc(n)}</div>" for n in notes)
-    head = (f"<h3 id='wafer-{esc(str(wafer.get('id')))}'>Wafer {esc(str(wafer.get('id')))} "
-            f"{_badge(str(wafer.get('verdict')))}</h3>")
+    notes_html = "".join(f"<div class=warn>{esc(str(n))}</div>" for n in wafer.notes)
+    wid = esc(str(wafer.wafer_id))
+    head = f"<h3 id='wafer-{wid}'>Wafer {wid} {_badge(str(wafer.verdict))}</h3>"
     return (f"{head}<p class=sub>{' · '.join(lines)}</p>"
-            f"<p>{esc(str(wafer.get('sentence') or ''))}</p>"
+            f"<p>{esc(str(wafer.sentence or ''))}</p>"
             "<table><tr><th>claim</th><th>quantity</th><th>measured ± u</th><th>U</th>"
             "<th>specification</th><th>verdict</th><th>margin [U]</th><th>p<sub>c</sub></th>"
             f"<th>method</th></tr>{_claim_rows(wafer)}</table>{notes_html}")
 
 
-def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> str:
+def render_lot_html(qualification: LotQualification,
+                    figures: Mapping[str, tuple[bytes, str]]) -> str:
     """The lot report page, figures embedded as data URIs (no outside files needed).
 
     Parameters
     ----------
-    lot
-        The lot JSON document.
+    qualification
+        The qualified lot. Every text from the lot file is HTML-escaped.
     figures
         File name -> (PNG bytes, caption), e.g. from :func:`lot_figures`.
 
@@ -262,37 +267,35 @@ def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> s
         The HTML text.
     """
     esc = html.escape
-    prov = lot.get("provenance") or {}
-    decision = lot.get("decision") or {}
-    rule = str(decision.get("rule"))
-    k = _g(decision.get("coverage_factor"))
-    counts = lot.get("counts") or {}
-    quantity_of = {c.get("key"): str(c.get("quantity", "")).replace("_", " ")
-                   for c in lot.get("claims") or []}
+    lot, v, prov = qualification.lot, qualification.verdict, qualification.provenance
+    inputs = qualification.inputs
+    rule = str(v.rule)
+    k = _g(v.coverage_factor)
+    counts = v.counts()
+    quantity_of = {c.key: str(c.quantity).replace("_", " ") for c in lot.claims}
     summary = []
-    for w in lot.get("wafers") or []:
-        m = _num(w.get("margin_U"))
-        wid = esc(str(w.get("id")))
+    for w in v.wafers:
+        m = finite_or_none(w.margin)
+        wid = esc(str(w.wafer_id))
         summary.append(
-            f"<tr><td><a href='#wafer-{wid}'>{wid}</a></td><td>{_badge(str(w.get('verdict')))}"
-            f"</td><td>{esc(_claim_label(w.get('decided_by'), quantity_of))}</td>"
+            f"<tr><td><a href='#wafer-{wid}'>{wid}</a></td><td>{_badge(str(w.verdict))}"
+            f"</td><td>{esc(_claim_label(w.decided_by, quantity_of))}</td>"
             f"<td class=num>{'—' if m is None else f'{m:+.2f}'}</td>"
-            f"<td>{esc(str((w.get('input') or {}).get('how') or ''))}</td></tr>")
+            f"<td>{esc(str(inputs[w.wafer_id].how or ''))}</td></tr>")
     claims = []
-    for c in lot.get("claims") or []:
-        spec = c.get("spec") or {"value": c.get("value")}
-        temp = _num(c.get("temperature_K"))
+    for c in lot.claims:
+        temp = finite_or_none(c.temperature_K)
         extra = []
-        if c.get("dopant"):
-            extra.append(f"dopant {c['dopant']}")
-        if c.get("unit_as_written"):
-            extra.append(f"written in {c['unit_as_written']}")
-        if c.get("note"):
-            extra.append(str(c["note"]))
+        if c.dopant:
+            extra.append(f"dopant {c.dopant}")
+        if c.unit:
+            extra.append(f"written in {c.unit}")
+        if c.note:
+            extra.append(str(c.note))
         claims.append(
-            f"<tr><td>{esc(str(c.get('key')))}</td>"
-            f"<td>{esc(str(c.get('quantity')).replace('_', ' '))}</td>"
-            f"<td>{esc(_window_text(spec, (spec or {}).get('unit')))}</td>"
+            f"<tr><td>{esc(str(c.key))}</td>"
+            f"<td>{esc(str(c.quantity).replace('_', ' '))}</td>"
+            f"<td>{esc(_window_text(c.window, c.carrier))}</td>"
             f"<td class=num>{'—' if temp is None else f'{temp:g} K'}</td>"
             f"<td>{esc('; '.join(extra))}</td></tr>")
     figs = []
@@ -300,24 +303,23 @@ def render_lot_html(lot: Mapping, figures: Mapping[str, tuple[bytes, str]]) -> s
         b64 = base64.b64encode(png).decode("ascii")
         figs.append(f"<figure><img alt='{esc(caption)}' src='data:image/png;base64,{b64}'>"
                     f"<figcaption>{esc(caption)} ({esc(name)})</figcaption></figure>")
-    wafers = "".join(_wafer_section(w) for w in lot.get("wafers") or [])
-    opts = esc(json.dumps(prov.get("options", {}), sort_keys=True))
-    certificate = lot.get("certificate")
-    sub = [f"supplier {esc(str(lot.get('supplier')))}", f"lot date {esc(str(lot.get('date')))}"]
-    if certificate:
-        sub.append(f"certificate {esc(str(certificate))}")
-    sub.append(f"{len(lot.get('wafers') or [])} wafers")
+    wafers = "".join(_wafer_section(w, inputs[w.wafer_id]) for w in v.wafers)
+    opts = esc(json.dumps(dict(prov.options), sort_keys=True))
+    sub = [f"supplier {esc(str(v.supplier))}", f"lot date {esc(str(v.date))}"]
+    if lot.certificate:
+        sub.append(f"certificate {esc(str(lot.certificate))}")
+    sub.append(f"{len(v.wafers)} wafers")
     sub.append(f"{esc(rule)} rule, k = {k}")
-    note = f"<p>{esc(str(lot['note']))}</p>" if lot.get("note") else ""
+    note = f"<p>{esc(str(lot.note))}</p>" if lot.note else ""
     # the deference sentence stands once, in bold under the rule
-    sentence = str(lot.get("sentence") or "").replace(DEFERENCE, "").strip()
+    sentence = str(v.sentence or "").replace(DEFERENCE, "").strip()
     return f"""<!doctype html>
 <html lang="en"><head><meta charset="utf-8">
-<title>freezeout lot qualification — {esc(str(lot.get('lot')))}</title>
+<title>freezeout lot qualification — {esc(str(v.lot))}</title>
 <style>{CSS}{_VERDICT_CSS}</style></head><body>
-<h1>Lot qualification of {esc(str(lot.get('lot')))}</h1>
+<h1>Lot qualification of {esc(str(v.lot))}</h1>
 <p class=sub>{' · '.join(sub)}</p>{note}
-<div class=lotverdict>Lot verdict: {_badge(str(lot.get('verdict')))}
+<div class=lotverdict>Lot verdict: {_badge(str(v.verdict))}
 ({counts.get('accept', 0)} accepted, {counts.get('indeterminate', 0)} indeterminate,
 {counts.get('reject', 0)} rejected). {esc(sentence)}</div>
 <h2>Decision rule</h2>
@@ -337,11 +339,11 @@ wafers.</div>
 <h2>Measured against claimed</h2>{''.join(figs) or '<p>No claim with a numeric window.</p>'}
 <h2>Per wafer</h2>{wafers}
 <h2>Provenance</h2>
-<table><tr><th>lot file</th><td>{esc(str(prov.get('lot_file')))}</td></tr>
-<tr><th>input sha256</th><td><code>{esc(str(prov.get('lot_input_sha256')))}</code>
+<table><tr><th>lot file</th><td>{esc(str(prov.lot_file))}</td></tr>
+<tr><th>input sha256</th><td><code>{esc(str(prov.lot_input_sha256))}</code>
 (the lot file and every run and material file it names)</td></tr>
-<tr><th>tool</th><td>freezeout {esc(str(prov.get('tool_version')))}</td></tr>
-<tr><th>qualified (UTC)</th><td>{esc(str(prov.get('date')))}</td></tr>
+<tr><th>tool</th><td>freezeout {esc(str(prov.tool_version))}</td></tr>
+<tr><th>qualified (UTC)</th><td>{esc(str(prov.date))}</td></tr>
 <tr><th>options</th><td><code>{opts}</code></td></tr></table>
 <p class=sub>Exports: lot.json (this report's data) and lot.csv (one row per wafer and
 claim).</p>
@@ -349,13 +351,14 @@ claim).</p>
 """
 
 
-def write_lot_report(lot: Mapping, out_dir: str | Path) -> dict[str, Path]:
+def write_lot_report(qualification: LotQualification,
+                     out_dir: str | Path) -> dict[str, Path]:
     """Write lot.json, lot.csv, the charts and lot_report.html into ``out_dir``, each atomically.
 
     Parameters
     ----------
-    lot
-        The lot JSON document.
+    qualification
+        The qualified lot; lot.json is its ``to_dict()``.
     out_dir
         The report folder (created if needed).
 
@@ -365,14 +368,15 @@ def write_lot_report(lot: Mapping, out_dir: str | Path) -> dict[str, Path]:
         File name -> path written.
     """
     out = Path(out_dir)
-    figures = lot_figures(lot)
+    figures = lot_figures(qualification)
+    doc = qualification.to_dict()
     paths = {
         "lot.json": atomic_write_text(out / "lot.json",
-                                      json.dumps(lot, indent=2, allow_nan=False) + "\n"),
-        "lot.csv": atomic_write_text(out / "lot.csv", lot_csv(lot)),
+                                      json.dumps(doc, indent=2, allow_nan=False) + "\n"),
+        "lot.csv": atomic_write_text(out / "lot.csv", lot_csv(qualification)),
     }
     for name, (png, _) in figures.items():
         paths[name] = atomic_write_bytes(out / name, png)
     paths["lot_report.html"] = atomic_write_text(out / "lot_report.html",
-                                                 render_lot_html(lot, figures))
+                                                 render_lot_html(qualification, figures))
     return paths
