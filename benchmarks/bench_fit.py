@@ -26,9 +26,9 @@ from scipy import integrate, optimize
 import freezeout
 from freezeout.fitting.fit import fit_run, guess
 from freezeout.fitting.model import CarrierModel
-from freezeout.records.run import RunData
 from freezeout.physics.constants import K_B_EV
 from freezeout.physics.materials import get_material
+from freezeout.records.run import RunData
 
 SI = get_material("Si")
 TRUE = {"N_D": 1e16, "E_D": 0.045, "N_A": 1e14}

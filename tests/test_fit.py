@@ -8,8 +8,8 @@ import pytest
 import freezeout
 from freezeout.errors import InputError
 from freezeout.fitting.fit import fit_run, guess
-from freezeout.records.run import RunData
 from freezeout.physics.materials import get_material
+from freezeout.records.run import RunData
 
 
 def _run(material, donors, acceptors, tmin, tmax, n=40, noise=0.02, seed=1):
@@ -159,6 +159,104 @@ def test_result_dict_is_json_and_complete():
     assert set(lv["energy_eV"]) == {"value", "stderr", "ci95"}
     assert d["levels"][1]["energy_eV"] is None
     assert set(d["statistics"]) >= {"chi2", "reduced_chi2", "aic", "bic", "n_points"}
+
+
+#: The fit document's members in order, as ``freezeout fit --json`` printed them before the
+#: result became typed (captured from that version; project choice, no source).
+DOCUMENT_KEYS = ["schema_version", "carrier", "levels", "compensation_ratio", "net_doping_cm3",
+                 "statistics", "correlation", "fixed", "warnings", "hall_factor", "material",
+                 "provenance", "data", "optimizer_message"]
+DATA_KEYS = ["temperature_K", "density_cm3", "density_err_cm3", "model_density_cm3", "used",
+             "point_carrier", "flags", "severe", "resistivity_ohm_cm", "resistivity_err_ohm_cm",
+             "mobility_cm2_per_Vs", "mobility_err_cm2_per_Vs", "hall_coefficient_cm3_per_C",
+             "findings", "scale_uncertainty"]
+MATERIAL_DOC_KEYS = ["name", "band_gap_0K_eV", "varshni_alpha_eV_per_K", "varshni_beta_K",
+                     "electron_dos_mass", "hole_dos_mass", "relative_permittivity",
+                     "description", "sources"]
+
+
+def test_typed_result_serializes_to_the_same_document():
+    """FitResult holds a Material and a FitData; to_dict gives the document of before, key
+    for key and in order, and survives a JSON round trip unchanged (project choice)."""
+    import json
+
+    from freezeout.fitting.result import FitData
+    from freezeout.physics.materials import Material
+
+    si = get_material("Si")
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600)
+    res = fit_run(run, si, provenance={"input": "x.csv", "hall_factor": 1.0})
+    assert isinstance(res.material, Material) and res.material is si
+    assert isinstance(res.data, FitData)
+    d = res.to_dict()
+    assert list(d) == DOCUMENT_KEYS
+    assert list(d["data"]) == DATA_KEYS
+    assert list(d["material"]) == MATERIAL_DOC_KEYS and d["material"] == si.to_dict()
+    assert json.loads(json.dumps(d, allow_nan=False)) == d
+    data = d["data"]
+    n = run.n_points
+    assert data["temperature_K"] == run.temperature.tolist()
+    assert data["density_cm3"] == run.density.tolist()
+    assert data["density_err_cm3"] == run.density_err.tolist()
+    assert all(isinstance(x, float) for x in data["model_density_cm3"])
+    assert data["used"] == [True] * n and data["severe"] == [False] * n
+    assert data["flags"] == [""] * n and data["point_carrier"] == ["n"] * n
+    assert data["resistivity_ohm_cm"] is None and data["findings"] == []
+    assert data["scale_uncertainty"] == 0.0
+    np.testing.assert_allclose(res.data.model_density, data["model_density_cm3"], rtol=0)
+    assert d["provenance"] == {"input": "x.csv", "hall_factor": 1.0}
+
+
+def test_fit_data_says_which_points_were_left_out_and_why():
+    """A point of opposite Hall sign is 'mixed', a severe one 'flagged'; neither is used, and
+    non-finite transport values serialize as null (project choice, no source)."""
+    from dataclasses import replace
+
+    run = _run("Si", [(1e16, 0.045)], [(1e13, None)], 20, 600, n=30)
+    carriers = list(run.point_carrier)
+    carriers[-1] = "p"
+    severe = np.zeros(run.n_points, dtype=bool)
+    severe[3] = True
+    rho = np.full(run.n_points, 2.0)
+    rho[5] = np.nan
+    run = replace(run, point_carrier=tuple(carriers), severe=severe, resistivity=rho,
+                  flags=("",) * 3 + ("contact",) + ("",) * (run.n_points - 4))
+    res = fit_run(run, get_material("Si"))
+    data = res.data
+    assert data.mixed.tolist() == [False] * 29 + [True]
+    assert data.flagged.tolist() == [i == 3 for i in range(30)]
+    assert not data.used[3] and not data.used[-1] and data.used.sum() == 28
+    assert res.n_points == 28
+    d = data.to_dict()
+    assert d["severe"][3] is True and d["flags"][3] == "contact"
+    assert d["resistivity_ohm_cm"][5] is None and d["resistivity_ohm_cm"][0] == 2.0
+    with_flagged = fit_run(run, get_material("Si"), include_flagged=True)
+    assert with_flagged.data.used[3] and not with_flagged.data.flagged.any()
+
+
+def test_warm_start_is_public_and_changes_nothing_but_the_start():
+    """A warm solve gives the cold solve's densities (to the solver tolerance, 1e-11 in
+    (E_F - E_v)/kT) and keeps its Fermi level; clear_warm_start forgets it; a start of the
+    wrong shape is refused (project choice, no source)."""
+    from freezeout.fitting.model import CarrierModel
+
+    si = get_material("Si")
+    t = np.geomspace(20.0, 600.0, 30)
+    model = CarrierModel(si, t, "n", 1, True)
+    values = {"log10_N_D1": 16.0, "E_D1": 0.045, "log10_N_A": 13.0}
+    assert model.warm_fermi is None
+    cold = model.log_density(values, warm=False)
+    assert model.warm_fermi is None  # a cold solve keeps nothing
+    model.log_density(values)
+    kept = model.warm_fermi
+    assert kept is not None and kept.shape == t.shape
+    model.warm_start(kept + 0.01)
+    np.testing.assert_allclose(model.log_density(values), cold, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(model.warm_fermi, kept, rtol=0, atol=1e-9)
+    model.clear_warm_start()
+    assert model.warm_fermi is None
+    with pytest.raises(ValueError, match="shape"):
+        model.warm_start(np.zeros(3))
 
 
 def test_understated_uncertainties_inflate_the_errors():

@@ -13,7 +13,6 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy.constants import elementary_charge
 
 from freezeout.reduction import (
     carrier_type,
@@ -25,6 +24,9 @@ from freezeout.reduction import (
     reduce_readings,
     sheet_density,
 )
+
+#: Elementary charge, exact in the SI (BIPM, The International System of Units, 9th ed. 2019).
+Q_SI = 1.602176634e-19  # [C]
 
 # ---------------------------------------------------------------------------------------
 # synthetic readings (shared with test_vanderpauw.py, test_quality.py, test_raw_io.py)
@@ -168,9 +170,12 @@ def test_holes_and_electrons_signs():
 # ---------------------------------------------------------------------------------------
 
 
-def test_elementary_charge_is_the_si_value():
-    """q = 1.602176634e-19 C exactly (BIPM, The International System of Units, 9th ed. 2019)."""
-    assert elementary_charge == 1.602176634e-19
+def test_hall_density_uses_the_exact_si_charge():
+    """n = r_H / (q |R_H|), q = 1.602176634e-19 C exactly (BIPM, The International System of
+    Units, 9th ed. 2019): R_H = -1 cm^3/C is 6.2415e18 electrons per cm^3."""
+    assert hall_density(-1.0) == pytest.approx(1.0 / Q_SI, rel=1e-15)
+    assert hall_density(-1.0) == pytest.approx(6.241509074e18, rel=1e-9)
+    assert hall_density(2.0, hall_factor=1.18) == pytest.approx(1.18 / (2.0 * Q_SI), rel=1e-15)
 
 
 def test_sheet_density_worked_number():
@@ -220,7 +225,7 @@ def test_round_trip_known_hall_coefficient_and_density():
     run = reduce_rows(synth_rows(k=k, misalignment=0.3, emf=(3e-6, -1e-6, 2e-6, 0.0)),
                       thickness=t)
     assert run.hall_coefficient[0] == pytest.approx(r_h_true, rel=1e-10)
-    assert run.density[0] == pytest.approx(1.0 / (elementary_charge * r_h_true), rel=1e-10)
+    assert run.density[0] == pytest.approx(1.0 / (Q_SI * r_h_true), rel=1e-10)
     assert run.sheet_density[0] == pytest.approx(run.density[0] * t, rel=1e-12)
     assert run.mobility[0] == pytest.approx(r_h_true / run.resistivity[0], rel=1e-12)
     # V_H at the mean current and field: k B I
