@@ -25,19 +25,15 @@ def url(tmp_path):
     """A history database with two lots of one supplier, one of another, and one fit."""
     u = f"sqlite:///{tmp_path / 'hist.sqlite'}"
     with open_store(u) as store:
-        store.save_lot(cs.lot_result(lot="KRW-2610-01", date="2026-10-05",
-                                     resistivities=(9.0, 10.0, 11.0)),
-                       input_name="oct/lot.toml", input_sha256=cs.sha("oct"), options={},
-                       tool_version=cs.TOOL_VERSION)
-        store.save_lot(cs.lot_result(lot="KRW-2611-07", date="2026-11-03"),
-                       input_name="nov/lot.toml", input_sha256=cs.sha("nov"), options={},
-                       tool_version=cs.TOOL_VERSION)
-        other = cs.lot_result(lot="FHS-0042", date="2026-11-10", resistivities=(10.0,))
-        other["supplier"] = OTHER
-        store.save_lot(other, input_name="fhs/lot.toml", input_sha256=cs.sha("fhs"),
-                       options={}, tool_version=cs.TOOL_VERSION)
-        store.save_fit(cs.fit_result(), input_name="w01.csv", input_sha256=cs.sha("w01"),
-                       options={"donors": 1}, tool_version=cs.TOOL_VERSION)
+        store.save_lot(cs.lot_qualification(lot="KRW-2610-01", date="2026-10-05",
+                                            resistivities=(9.0, 10.0, 11.0), folder="oct",
+                                            key="oct", options={}))
+        store.save_lot(cs.lot_qualification(lot="KRW-2611-07", date="2026-11-03",
+                                            folder="nov", key="nov", options={}))
+        store.save_lot(cs.lot_qualification(lot="FHS-0042", date="2026-11-10",
+                                            resistivities=(10.0,), supplier=OTHER,
+                                            folder="fhs", key="fhs", options={}))
+        store.save_fit(cs.fit_result(name="w01.csv", key="w01", options={"donors": 1}))
     return u
 
 
