@@ -295,7 +295,7 @@ def test_common_scale_uncertainty_added_to_concentrations_only():
 
 
 def test_split_scale_uncertainty():
-    from freezeout.io.csv_run import split_scale_uncertainty
+    from freezeout.records.run_rules import split_scale_uncertainty
 
     d = np.array([1e15, 2e15])
     err = d * np.hypot(0.01, 0.02)
