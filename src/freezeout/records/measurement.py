@@ -4,9 +4,9 @@ A :class:`Measurement` holds, for one wafer, the quantities the certificate clai
 decided on: the majority carrier, the signed net doping N_D - N_A with its uncertainty, the
 resistivity at the temperatures measured, the compensation ratio, the Hall factor the Hall
 densities were taken with and, for a single room-temperature result, whether its dopant is
-fully ionized. It is built from a fit (:func:`freezeout.claims.measured.measured_from_fit`) or
-from a single point (:func:`freezeout.claims.room_point.single_point_measurement`) and read
-by :mod:`freezeout.claims.evaluate`. :meth:`Measurement.to_dict` is its JSON form.
+fully ionized. It is built from a fit (:func:`freezeout.claims.measured.measurement_from_fit`)
+or from a single point (:func:`freezeout.claims.room_point.room_point_measurement`) and
+read by :mod:`freezeout.claims.evaluate`. :meth:`Measurement.to_dict` is its JSON form.
 """
 
 from __future__ import annotations
