@@ -55,7 +55,7 @@ def reduce_raw_file(path: str | Path, *, thickness: str | None = None,
     """
     from freezeout.io.raw_reader import read_raw
     from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K, check_hall_factor
-    from freezeout.reduction import reduce_readings
+    from freezeout.reduction import readings_from_table, reduce_readings
 
     tol = DEFAULT_GROUPING_TOLERANCE_K if temperature_tolerance is None \
         else float(temperature_tolerance)
@@ -63,7 +63,8 @@ def reduce_raw_file(path: str | Path, *, thickness: str | None = None,
         raise InputError(f"--temperature-tolerance must be positive, got {tol:g}")
     r_h = check_hall_factor(hall_factor, "--hall-factor")
     limits = _thresholds(thresholds)
-    readings = read_raw(path, temperature_tolerance=tol, thickness=thickness)
+    readings = readings_from_table(read_raw(path, thickness=thickness),
+                                   temperature_tolerance=tol)
     return reduce_readings(readings, hall_factor=r_h, thresholds=limits)
 
 
