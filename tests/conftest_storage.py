@@ -3,7 +3,8 @@
 Child processes are started with the ``spawn`` method, so what they run must be importable
 from a module: it lives here. All data are synthetic (fictional supplier "Kestrel Ridge
 Wafers", fictional lab "Harrowgate Cryo Lab"). Records are built directly from the record
-classes (the verdicts with :mod:`freezeout.claims.conformity`), not through the command line.
+classes (the verdicts with :mod:`freezeout.claims.decide` and
+:mod:`freezeout.claims.aggregate`), not through the command line.
 """
 
 from __future__ import annotations
