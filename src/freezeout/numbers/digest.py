@@ -23,6 +23,11 @@ def sha256_bytes(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
-def slug(text: str, default: str = "item") -> str:
-    """A file-name-safe form of ``text``: runs of other characters become ``_``."""
-    return re.sub(r"[^A-Za-z0-9._-]+", "_", str(text)).strip("._") or default
+def slug(text: str, default: str = "item", *, joiner: str = "_") -> str:
+    """A file-name-safe form of ``text``.
+
+    Runs of characters other than letters, digits and ``._-`` become ``joiner``; leading and
+    trailing dots and underscores go, so the result is one path component that is not hidden.
+    ``default`` stands in for an empty result.
+    """
+    return re.sub(r"[^A-Za-z0-9._-]+", joiner, str(text)).strip("._") or default

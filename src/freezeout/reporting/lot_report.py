@@ -13,12 +13,11 @@ import csv
 import html
 import io
 import json
-import re
 from collections.abc import Mapping
 from pathlib import Path
 
 from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
-from freezeout.numbers import finite_or_none
+from freezeout.numbers import finite_or_none, slug
 from freezeout.records.qualification import LotQualification, WaferInput
 from freezeout.records.verdicts import (
     DEFERENCE,
@@ -132,12 +131,8 @@ def numeric_claim_keys(verdict: LotVerdict) -> list[str]:
 
 
 def chart_file_name(claim_key: str) -> str:
-    """The chart's file name: ``chart_`` and the key's letters and digits (``chart_claim2.png``).
-
-    Not :func:`freezeout.numbers.slug` (which would give ``chart_claim_2.png``): the report's
-    file names stay as they were.
-    """
-    return f"chart_{re.sub(r'[^A-Za-z0-9]+', '', claim_key) or 'claim'}.png"
+    """The chart's file name: ``chart_`` and the key's safe characters (``chart_claim2.png``)."""
+    return f"chart_{slug(claim_key, 'claim', joiner='')}.png"
 
 
 def lot_figures(qualification: LotQualification) -> dict[str, tuple[bytes, str]]:

@@ -10,14 +10,13 @@ gives the same rows as :func:`claim_rows` for the same lot.
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import json
 from collections.abc import Mapping
 from typing import Any
 
 from freezeout.errors import InputError
 from freezeout.fitting.result import FitResult
-from freezeout.numbers import finite_or_none
+from freezeout.numbers import finite_or_none, sha256_bytes
 from freezeout.records.qualification import LotQualification
 from freezeout.records.verdicts import ClaimVerdict, LotVerdict
 
@@ -29,7 +28,7 @@ def canonical_json(obj: Any) -> str:
 
 def options_hash(options: Mapping[str, Any]) -> str:
     """SHA-256 (hex) of the canonical JSON of an options mapping."""
-    return hashlib.sha256(canonical_json(dict(options)).encode("utf-8")).hexdigest()
+    return sha256_bytes(canonical_json(dict(options)).encode("utf-8"))
 
 
 def provenance_columns(input_name: str, input_sha256: str, options: Mapping[str, Any],
@@ -68,7 +67,7 @@ def provenance_columns(input_name: str, input_sha256: str, options: Mapping[str,
         "input_name": str(input_name),
         "input_sha256": input_sha256.lower(),
         "options_json": opts,
-        "options_hash": hashlib.sha256(opts.encode("utf-8")).hexdigest(),
+        "options_hash": sha256_bytes(opts.encode("utf-8")),
         "tool_version": str(tool_version),
         "result_json": canonical_json(dict(result)),
     }
