@@ -1,0 +1,118 @@
+"""The levels of a charge-neutrality solve in units of kT, and the bracket of its root.
+
+The bracket's ends are where holes (below E_v) or electrons (above E_c) alone outnumber
+every level: the band density grows at least like eta^(3/2) past its edge [1].
+
+References
+----------
+.. [1] J. S. Blakemore, *Semiconductor Statistics* (Pergamon, 1962), App. C (the
+   degenerate limit F_1/2(eta) -> (4 / (3 sqrt(pi))) eta^(3/2)).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import TYPE_CHECKING, NamedTuple
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from freezeout.physics.neutrality import BandState, DopantLevel
+
+
+class LevelTerms(NamedTuple):
+    """The levels of one solve in reduced units, on its broadcast shape.
+
+    Attributes
+    ----------
+    shape
+        Broadcast shape of the temperature grid and the level parameters.
+    donors
+        (ln N, ln g - (E_g - E)/kT) of each partially ionized donor. [1]
+    acceptors
+        (ln N, ln g + E/kT) of each partially ionized acceptor. [1]
+    fixed_pos, fixed_neg
+        Summed concentrations of the fully ionized donors and acceptors. [cm^-3]
+    """
+
+    shape: tuple[int, ...]
+    donors: tuple[tuple[np.ndarray, np.ndarray], ...]
+    acceptors: tuple[tuple[np.ndarray, np.ndarray], ...]
+    fixed_pos: np.ndarray
+    fixed_neg: np.ndarray
+
+
+def level_terms(bands: BandState, donors: Sequence[DopantLevel],
+                acceptors: Sequence[DopantLevel]) -> LevelTerms:
+    """Split levels into partially and fully ionized ones, in units of kT.
+
+    Parameters
+    ----------
+    bands
+        Band state of the solve.
+    donors, acceptors
+        Levels; concentrations and energies broadcast with the temperature grid.
+
+    Returns
+    -------
+    LevelTerms
+    """
+    kt = bands.kt
+    shape = np.broadcast_shapes(kt.shape, *(np.shape(lv.concentration) for lv in donors),
+                                *(np.shape(lv.concentration) for lv in acceptors),
+                                *(np.shape(lv.energy) for lv in (*donors, *acceptors)
+                                  if lv.energy is not None))
+    fixed_pos = np.zeros(shape)
+    fixed_neg = np.zeros(shape)
+    d_terms = []
+    a_terms = []
+    for lv in donors:
+        if lv.energy is None:
+            fixed_pos = fixed_pos + lv.concentration
+        else:
+            d_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
+                            np.log(lv.degeneracy) - (bands.band_gap - lv.energy) / kt))
+    for lv in acceptors:
+        if lv.energy is None:
+            fixed_neg = fixed_neg + lv.concentration
+        else:
+            a_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
+                            np.log(lv.degeneracy) + lv.energy / kt))
+    return LevelTerms(shape, tuple(d_terms), tuple(a_terms), fixed_pos, fixed_neg)
+
+
+def fermi_bracket(bands: BandState, terms: LevelTerms,
+                  gap_kt: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Ends (E_F - E_v)/kT between which the neutrality residual changes sign.
+
+    Far below E_v holes outnumber every acceptor, far above E_c electrons every donor:
+    F_1/2(eta) >= (4 / (3 sqrt(pi))) eta^(3/2) for eta > 0, so at eta = 2 r^(2/3) the band
+    holds more than twice r times its density of states (exp(eta) in the Boltzmann case
+    grows faster still); levels do not change the signs there.
+
+    Parameters
+    ----------
+    bands
+        Band state of the solve.
+    terms
+        The levels, from :func:`level_terms`.
+    gap_kt
+        E_g/kT if already at hand (else worked out from ``bands``). [1]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        (lo, hi), broadcasting to ``terms.shape``; the residual is positive at lo,
+        negative at hi. [1]
+    """
+    total = terms.fixed_pos + terms.fixed_neg + sum(
+        np.exp(t[0]) for t in (*terms.donors, *terms.acceptors))
+    total = np.maximum(total, 1.0)
+    r_v = total / np.exp(bands.log_nv)
+    r_c = total / np.exp(bands.log_nc)
+    lo = -(np.maximum(np.log(r_v), 0.0) + 2.0 * np.maximum(r_v, 1.0) ** (2.0 / 3.0) + 10.0)
+    if gap_kt is None:
+        gap_kt = bands.band_gap / bands.kt
+    hi = (gap_kt + np.maximum(np.log(r_c), 0.0)
+          + 2.0 * np.maximum(r_c, 1.0) ** (2.0 / 3.0) + 10.0)
+    return lo, hi
