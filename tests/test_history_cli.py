@@ -12,6 +12,7 @@ from pathlib import Path
 import pytest
 
 import conftest_storage as cs
+import freezeout
 from cli_runner import cli
 from freezeout.storage import open_store
 
@@ -144,3 +145,19 @@ def test_qualified_lot_shows_in_history(monkeypatch, capsys, tmp_path):
     assert pt["mean_ratio"] == pytest.approx(1.0, rel=1e-9)
     assert (pt["spec_min_ratio"], pt["spec_max_ratio"]) == (pytest.approx(0.7),
                                                             pytest.approx(1.3))
+
+
+def test_json_equals_the_api(monkeypatch, capsys, url, tmp_path):
+    """``history --json`` prints exactly ``freezeout.history(...).to_dict()``."""
+    for args, kw in (((), {}), (("--supplier", OTHER), {"supplier": OTHER}),
+                     (("--kind", "lot", "--since", "2026-11-01"),
+                      {"kind": "lot", "since": "2026-11-01"})):
+        code, out, _ = cli(monkeypatch, capsys, "history", "--db", url, "--json", *args)
+        assert code == 0
+        direct = freezeout.history(db=url, draw=False, **kw).to_dict()
+        assert json.loads(out) == json.loads(json.dumps(direct))
+    # with --out the figure path is part of the JSON, and the PNG exists
+    folder = tmp_path / "trends"
+    result = freezeout.history(db=url, out=folder, supplier=OTHER)
+    assert result.figures[OTHER] == folder / "trend_Fenwick_Hollow_Silicon.png"
+    assert result.figures[OTHER].read_bytes()[:4] == b"\x89PNG"

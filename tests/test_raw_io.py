@@ -507,3 +507,16 @@ def test_no_nan_in_clean_reduction():
     for name in ("resistivity_err", "hall_coefficient_err", "density_err", "mobility_err"):
         assert np.all(np.isfinite(getattr(run, name))), name
     assert math.isfinite(run.thickness)
+
+
+def test_cli_reduce_json_equals_the_api(tmp_path, reduce_cli):
+    """``reduce --json`` prints exactly ``freezeout.reduce_file(...).to_dict()``."""
+    out = tmp_path / "cli.csv"
+    result = reduce_cli(str(SAMPLE), "--out", str(out), "--json", "--hall-factor", "1.1")
+    assert result.exit_code == 0, result.output
+    from freezeout import reduce_file
+
+    direct = reduce_file(SAMPLE, out=out, hall_factor=1.1).to_dict()
+    assert json.loads(result.stdout) == json.loads(json.dumps(direct, allow_nan=False))
+    nothing = reduce_file(SAMPLE, write=False, hall_factor=1.1)
+    assert nothing.output is None and nothing.to_dict()["run"] == direct["run"]
