@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import datetime as _dt
 from collections.abc import Mapping
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -60,6 +59,7 @@ def fit_file(
     thickness
         Sample thickness for a raw file, e.g. ``"350um"`` (overrides the file's).
     """
+    import datetime as _dt
     from dataclasses import replace
 
     from freezeout.fitting.fit import fit_run

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import datetime as _dt
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -11,6 +10,8 @@ from typing import TYPE_CHECKING
 from freezeout.errors import InputError
 
 if TYPE_CHECKING:
+    import datetime as _dt
+
     from freezeout.storage import Record, TrendPoint
 
 _DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
@@ -19,6 +20,8 @@ KINDS = ("fit", "lot")
 
 def parse_since(text: str | _dt.date | None) -> _dt.date | None:
     """``YYYY-MM-DD`` (or a date) as a date, or an InputError naming ``--since``."""
+    import datetime as _dt
+
     if text is None or isinstance(text, _dt.date):
         return text.date() if isinstance(text, _dt.datetime) else text
     t = str(text).strip()

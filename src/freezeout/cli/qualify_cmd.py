@@ -13,7 +13,6 @@ from typing import Annotated
 
 import typer
 from rich.console import Console
-from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 from rich.text import Text
 
@@ -39,6 +38,14 @@ def qualify_command(
         "CPUs, at most one per wafer; 1 fits in this process).")] = None,
 ) -> int:
     """Qualify a lot; see HELP."""
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeElapsedColumn,
+    )
+
     show = not json_output and sys.stderr.isatty()
     columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
                TimeElapsedColumn())
