@@ -9,7 +9,6 @@ from __future__ import annotations
 import datetime as _dt
 from collections.abc import Sequence
 from pathlib import Path
-from typing import Protocol
 
 import matplotlib
 
@@ -19,6 +18,7 @@ import numpy as np  # noqa: E402
 
 from freezeout.io.atomic import atomic_write_bytes  # noqa: E402
 from freezeout.numbers import finite_or_none  # noqa: E402
+from freezeout.records.history import TrendPoint  # noqa: E402
 from freezeout.reporting.figures import INK, LEVEL_COLOURS, STYLE, new_axes, png_bytes  # noqa: E402
 
 # one accent per trend series (quantity and temperature)
@@ -26,30 +26,12 @@ _SERIES_COLOURS = (LEVEL_COLOURS[3], LEVEL_COLOURS[1], LEVEL_COLOURS[0], LEVEL_C
                    LEVEL_COLOURS[4], LEVEL_COLOURS[5])
 
 
-class TrendPointLike(Protocol):
-    """What the figure reads of a trend point: the fields of :class:`freezeout.storage.TrendPoint`.
-
-    The ratios are measured over claimed values. [1]
-    """
-
-    lot: str
-    lot_date: _dt.date | str
-    quantity: str
-    temperature_K: float | None
-    mean_ratio: float
-    min_ratio: float
-    max_ratio: float
-    spec_min_ratio: float | None
-    spec_max_ratio: float | None
-    lot_verdict: str
-
-
-def _date_text(p: TrendPointLike) -> str:
+def _date_text(p: TrendPoint) -> str:
     d = p.lot_date
     return d.isoformat() if isinstance(d, _dt.date) else str(d)
 
 
-def _series_key(p: TrendPointLike) -> tuple[str, float | None]:
+def _series_key(p: TrendPoint) -> tuple[str, float | None]:
     return (str(p.quantity), finite_or_none(p.temperature_K))
 
 
@@ -61,7 +43,7 @@ def _series_label(key: tuple[str, float | None], unit: str | None) -> str:
     return text
 
 
-def trend_axes(points: Sequence[TrendPointLike], supplier: str, ax=None):
+def trend_axes(points: Sequence[TrendPoint], supplier: str, ax=None):
     """Measured over claimed value per lot, one series per claimed quantity.
 
     For each lot (in date order along x) and each claimed quantity, the marker is the mean of
@@ -74,7 +56,7 @@ def trend_axes(points: Sequence[TrendPointLike], supplier: str, ax=None):
     ----------
     points
         Trend points (:class:`freezeout.storage.TrendPoint`, or anything with its
-        attributes, :class:`TrendPointLike`).
+        attributes).
     supplier
         For the title.
     ax
@@ -98,7 +80,7 @@ def trend_axes(points: Sequence[TrendPointLike], supplier: str, ax=None):
         if key not in lots:
             lots.append(key)
     xpos = {lot: i for i, (_, lot) in enumerate(lots)}
-    series: dict[tuple[str, float | None], list[TrendPointLike]] = {}
+    series: dict[tuple[str, float | None], list[TrendPoint]] = {}
     for p in points:
         series.setdefault(_series_key(p), []).append(p)
     keys = sorted(series, key=lambda k: (k[0], k[1] or 0.0))
@@ -153,7 +135,7 @@ def trend_axes(points: Sequence[TrendPointLike], supplier: str, ax=None):
         return ax
 
 
-def write_trend_png(points: Sequence[TrendPointLike], supplier: str,
+def write_trend_png(points: Sequence[TrendPoint], supplier: str,
                     path: str | Path) -> Path:
     """Draw a supplier's trend (:func:`trend_axes`) and write it as a PNG, atomically.
 

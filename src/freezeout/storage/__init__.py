@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from freezeout.records.history import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.storage.engine import ENV_VAR, StorageError, default_url, make_engine, normalize_url
-from freezeout.storage.history_records import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.storage.migrations import (
     LATEST_VERSION,
     MIGRATIONS,

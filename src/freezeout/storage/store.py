@@ -21,9 +21,9 @@ from sqlalchemy.engine import Connection
 
 from freezeout.errors import InputError
 from freezeout.fitting.result import FitResult
+from freezeout.records.history import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.records.qualification import LotQualification
 from freezeout.storage.engine import StorageError, default_url, make_engine
-from freezeout.storage.history_records import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.storage.migrations import migrate, schema_version_of
 from freezeout.storage.rows import claim_rows, fit_row, lot_row
 from freezeout.storage.schema import claim_records, fit_records, lot_records
