@@ -24,6 +24,7 @@ from freezeout.records.measurement import (
     IonizationCheck,
     Measurement,
     ResistivityPoint,
+    signed_net_doping,
 )
 from freezeout.records.verdicts import SpecWindow
 
@@ -39,7 +40,8 @@ def fake_fit(material, resistivity=(2.0, 11.0), severe=(False, False)):
         resistivity_err=np.array([0.02, 0.1]), severe=np.array(severe))
     return SimpleNamespace(
         carrier="p", material=material,
-        net_doping=Estimate(-1.2e15, 3e13, (-1.26e15, -1.14e15)),
+        # a fit gives the majority excess |N_D - N_A| (>= 0), whatever the carrier type
+        net_doping=Estimate(1.2e15, 3e13, (1.14e15, 1.26e15)),
         compensation_ratio=Estimate(0.05, 0.01, (0.03, 0.07)),
         warnings=("synthetic warning",), hall_factor=1.0,
         provenance={"input": "w01.csv", "sha256": "0" * 64}, data=data)
@@ -49,6 +51,7 @@ def fake_fit(material, resistivity=(2.0, 11.0), severe=(False, False)):
 def test_measurement_from_a_fit(material):
     m = measurement_from_fit(fake_fit(material))
     assert (m.material, m.carrier, m.compensation_ratio) == ("Si", "p", 0.05)
+    # N_D - N_A signed, negative for a p-type run (project choice, docs/lot_format.md)
     assert (m.net_doping, m.net_doping_stderr) == (-1.2e15, 3e13)
     assert m.net_doping_method == "fitted net doping |N_D - N_A|"
     assert m.resistivity == (ResistivityPoint(100.0, 2.0, 0.02), ResistivityPoint(296.0, 11.0, 0.1))
@@ -66,9 +69,21 @@ def test_points_of_a_fit_that_are_left_out():
     assert m.resistivity == ()
 
 
+def test_one_sign_rule_for_the_net_doping():
+    # project choice, no source: N_D - N_A is positive for n-type, negative for p-type; a
+    # negative majority excess (a self-contradicting measurement) keeps the other sign
+    assert signed_net_doping(5e14, "n") == 5e14
+    assert signed_net_doping(5e14, "p") == -5e14
+    assert signed_net_doping(-5e14, "p") == 5e14
+    assert signed_net_doping(None, "p") is None
+    fit = fake_fit({"name": "Si"})
+    fit.carrier = "n"
+    assert measurement_from_fit(fit).net_doping == 1.2e15
+
+
 def test_non_finite_fit_numbers_are_unknown():
     fit = fake_fit({"name": "Si"})
-    fit.net_doping = Estimate(-1.2e15, math.nan, (math.nan, math.nan))
+    fit.net_doping = Estimate(1.2e15, math.nan, (math.nan, math.nan))
     fit.compensation_ratio = Estimate(math.nan, math.nan, (math.nan, math.nan))
     m = measurement_from_fit(fit)
     assert (m.net_doping_stderr, m.compensation_ratio) == (None, None)
@@ -80,7 +95,7 @@ def test_measurement_from_a_real_fit():
     fit = fit_file(SAMPLE_RUN, material="Si", donors=1, acceptors=1, statistics="fermi-dirac")
     m = measurement_from_fit(fit)
     assert (m.material, m.carrier) == ("Si", fit.carrier)
-    assert m.net_doping == fit.net_doping.value
+    assert m.net_doping == signed_net_doping(fit.net_doping.value, fit.carrier)
     assert m.net_doping_stderr == fit.net_doping.stderr
     assert m.compensation_ratio == fit.compensation_ratio.value
     assert m.warnings == tuple(fit.warnings) and m.source == SAMPLE_RUN.name

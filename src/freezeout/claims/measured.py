@@ -5,7 +5,12 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from freezeout.numbers import finite_or_none
-from freezeout.records.measurement import HallFactorUsed, Measurement, ResistivityPoint
+from freezeout.records.measurement import (
+    HallFactorUsed,
+    Measurement,
+    ResistivityPoint,
+    signed_net_doping,
+)
 
 if TYPE_CHECKING:
     from freezeout.fitting.result import FitResult
@@ -52,14 +57,17 @@ def measurement_from_fit(fit: FitResult) -> Measurement:
     Returns
     -------
     Measurement
-        Net doping and compensation as fitted; the fit's r_H with no uncertainty (the lot
-        file's, when it states one, is put in by the caller).
+        Net doping as fitted, signed by the run's carrier type
+        (:func:`~freezeout.records.measurement.signed_net_doping`: the fit gives the majority
+        excess |N_D - N_A|, the measurement N_D - N_A, negative for a p-type run), and
+        compensation as fitted; the fit's r_H with no uncertainty (the lot file's, when it
+        states one, is put in by the caller).
     """
     comp = fit.compensation_ratio
     return Measurement(
         material=_material_name(fit.material),
         carrier=fit.carrier,
-        net_doping=finite_or_none(fit.net_doping.value),
+        net_doping=signed_net_doping(finite_or_none(fit.net_doping.value), fit.carrier),
         net_doping_stderr=finite_or_none(fit.net_doping.stderr),
         net_doping_method=FITTED_NET_DOPING,
         resistivity=_resistivity_points(fit.data),

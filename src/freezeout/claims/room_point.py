@@ -15,7 +15,12 @@ from pathlib import Path
 from freezeout.claims.single_point import check_single_point
 from freezeout.errors import InputError
 from freezeout.physics.materials import Material
-from freezeout.records.measurement import HallFactorUsed, Measurement, ResistivityPoint
+from freezeout.records.measurement import (
+    HallFactorUsed,
+    Measurement,
+    ResistivityPoint,
+    signed_net_doping,
+)
 from freezeout.records.run import RunData
 
 #: A run with a single point is read as a room-temperature result when its temperature lies
@@ -28,7 +33,8 @@ def room_point_measurement(run: RunData, material: Material, *,
                            hall_factor: HallFactorUsed | None = None) -> Measurement:
     """The measured quantities of a single room-temperature result.
 
-    The net doping ``m - n_i^2 / m`` is reported signed (negative for a p-type point). Its
+    The net doping ``m - n_i^2 / m`` is reported signed by the one rule
+    :func:`~freezeout.records.measurement.signed_net_doping` (negative for a p-type point). Its
     standard uncertainty is ``hypot(u_m, s m) (1 + n_i^2 / m^2)``, with u_m the file's
     point-to-point density uncertainty and s the relative uncertainty common to every point
     that the reader split out of it (``RunData.scale_uncertainty``, the sample thickness of a
@@ -107,7 +113,7 @@ def room_point_measurement(run: RunData, material: Material, *,
     return Measurement(
         material=material.name,
         carrier=run.carrier,
-        net_doping=net if run.carrier == "n" else -net,
+        net_doping=signed_net_doping(net, run.carrier),
         net_doping_stderr=u_net,
         net_doping_method=f"majority carrier density at {t:g} K (single room-temperature "
                           "result)",

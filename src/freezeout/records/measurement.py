@@ -129,6 +129,35 @@ class IonizationCheck:
 DEFAULT_NET_DOPING_METHOD = "net doping |N_D - N_A|"
 
 
+def signed_net_doping(majority_excess: float | None, carrier: str | None) -> float | None:
+    """N_D - N_A, signed, from the majority dopants' excess over the minority ones.
+
+    The one sign rule of the net doping (project choice, no source): a fit
+    (:attr:`freezeout.fitting.result.FitResult.net_doping`, majority minus minority
+    concentration) and a single room-temperature point (majority minus minority carrier
+    density, ``m - n_i^2 / m``) both give the excess of the majority dopants, >= 0 for a
+    consistent measurement. A :class:`Measurement` holds N_D - N_A signed: positive for an
+    n-type wafer, negative for a p-type one. A negative excess (a measurement that
+    contradicts its own carrier type) keeps the sign of the other type, so that the claims
+    see the contradiction (:func:`freezeout.claims.budget.net_doping_for_claim`).
+
+    Parameters
+    ----------
+    majority_excess
+        Majority minus minority dopant concentration (or carrier density), or None. [cm^-3]
+    carrier
+        The majority carrier, ``"n"`` or ``"p"``; anything else leaves the value as given.
+
+    Returns
+    -------
+    float or None
+        N_D - N_A. [cm^-3]
+    """
+    if majority_excess is None:
+        return None
+    return -majority_excess if carrier == "p" else majority_excess
+
+
 @dataclass(frozen=True)
 class Measurement:
     """A wafer's measured quantities, as the claims are decided on them.
@@ -140,7 +169,8 @@ class Measurement:
     carrier
         Majority carrier, ``"n"`` or ``"p"``, or None when not known.
     net_doping
-        N_D - N_A, signed (positive for n-type, negative for p-type), or None. [cm^-3]
+        N_D - N_A, signed (positive for n-type, negative for p-type; the one rule
+        :func:`signed_net_doping`), or None. [cm^-3]
     net_doping_stderr
         Its standard uncertainty, or None when unknown. [cm^-3]
     net_doping_method
