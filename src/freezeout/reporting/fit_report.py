@@ -17,7 +17,8 @@ color:#1d2a3a;line-height:1.45;padding:0 1rem}
 h1{font-size:1.5rem;margin-bottom:.2rem}h2{font-size:1.15rem;margin-top:2rem;
 border-bottom:2px solid #dfe4ea;padding-bottom:.2rem}
 .sub{color:#5b6675;margin-top:0}
-table{border-collapse:collapse;margin:.6rem 0;font-size:.92rem}
+table{border-collapse:collapse;margin:.6rem 0;font-size:.92rem;display:block;max-width:100%;
+overflow-x:auto}
 th,td{padding:.3rem .7rem;border-bottom:1px solid #e6e9ee;text-align:left}
 th{background:#f3f5f8;font-weight:600}td.num{text-align:right;font-variant-numeric:tabular-nums}
 .warn{background:#fff6e5;border-left:4px solid #d4a017;padding:.5rem .8rem;margin:.4rem 0}
