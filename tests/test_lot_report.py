@@ -89,6 +89,26 @@ def test_html_escapes_the_text_of_the_lot_file(report):
     assert page.count("src='data:image/png;base64,") == 3
 
 
+def test_html_gives_the_reason_of_every_indeterminate_verdict(report, mixed):
+    # project choice, no source: the reason stands in the page, not only in lot.json
+    _, written = report
+    page = written["lot_report.html"].read_text()
+    reasons = page.split("<h2>Why indeterminate</h2>", 1)[1].split("<h2>", 1)[0]
+    for w in mixed.verdict.wafers:
+        for c in w.claims:
+            if c.verdict != "indeterminate":
+                continue
+            sentence = html.escape(c.sentence)
+            assert sentence in page, (w.wafer_id, c.claim_key)  # beside the claim's row
+            if w.wafer_id == "W02":
+                assert sentence in reasons
+    # W02's resistivity has no uncertainty: guarded acceptance cannot prove conformity
+    assert "W02" in reasons and "cannot prove conformity" in reasons
+    # the unmeasured wafer: one line with its reason, not one per claim
+    assert "W03" in reasons and reasons.count("too few points &lt;2&gt;") == 1
+    assert "W01" not in reasons  # every claim of W01 is accepted
+
+
 def test_csv_rows_match_the_verdicts(report, mixed):
     _, written = report
     text = written["lot.csv"].read_text()

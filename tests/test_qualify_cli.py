@@ -214,6 +214,28 @@ def test_failing_wafer_is_indeterminate_not_fatal(monkeypatch, capsys, tmp_path,
     assert "already stored, nothing new" in out
 
 
+def test_summary_gives_the_reason_of_every_indeterminate_verdict(monkeypatch, capsys,
+                                                                  tmp_path, db_file):
+    # project choice, no source: the terminal says why, not only lot.json. W1's resistivity
+    # straddles a limit (4.05 +- 0.05, U = 0.1); COLD is a single point at 77 K (not measured)
+    single_point(tmp_path / "r.csv", 1.1e15, 1.1e13, 4.05, 0.05)
+    single_point(tmp_path / "cold.csv", 8.0e14, 8.0e12, 1.0, 0.01, t=77.0)
+    lot = write_lot(tmp_path, {"W1": "r.csv", "COLD": "cold.csv"})
+    monkeypatch.setenv("COLUMNS", "100")  # long reasons are not cut or wrapped into pieces
+    code, out, _ = cli(monkeypatch, capsys, "qualify", lot, "--workers", 1, "--out",
+                       tmp_path / "rep")
+    assert code == 4
+    doc = json.loads((tmp_path / "rep" / "lot.json").read_text())
+    lines = out.splitlines()
+    w1 = claim(by_id(doc)["W1"], "claim[2]")
+    assert w1["verdict"] == "indeterminate"
+    line = next(x for x in lines if x.startswith("indeterminate: W1 claim[2]"))
+    assert w1["sentence"] in line and "straddles a limit" in line
+    cold = [x for x in lines if x.startswith("indeterminate: COLD")]
+    assert len(cold) == 1 and "not a room-temperature result" in cold[0]  # once per wafer
+    assert not any(x.startswith("indeterminate: W1 claim[3]") for x in lines)  # accepted
+
+
 # ---------------------------------------------------------------------------------------------
 # bad input: exit 2, one line naming the file and the key, no traceback, nothing written
 

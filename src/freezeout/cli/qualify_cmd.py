@@ -66,6 +66,33 @@ def qualify_command(
     return outcome.exit_code
 
 
+def indeterminate_lines(doc: dict) -> list[str]:
+    """Why each indeterminate verdict is so: a line per claim, or per unmeasured wafer.
+
+    Parameters
+    ----------
+    doc
+        The lot JSON (:meth:`freezeout.api.QualificationOutcome.to_dict`).
+
+    Returns
+    -------
+    list of str
+        ``indeterminate: W02 claim[2] (resistivity): <the claim's sentence>``, or for a wafer
+        that could not be measured (every claim indeterminate for one reason)
+        ``indeterminate: W03: not measured: <reason>``.
+    """
+    lines = []
+    for w in doc["wafers"]:
+        claims = [c for c in w["claims"] if c["verdict"] == "indeterminate"]
+        reason = w["input"]["reason"]
+        if claims and reason:
+            lines.append(f"indeterminate: {w['id']}: not measured: {reason}")
+            continue
+        lines += [f"indeterminate: {w['id']} {c['claim']} ({c['quantity']}): {c['sentence']}"
+                  for c in claims]
+    return lines
+
+
 def _print_summary(outcome) -> None:
     doc = outcome.to_dict()
     con = Console()
@@ -81,6 +108,8 @@ def _print_summary(outcome) -> None:
         table.add_row(*(Text(x) for x in (w["id"], w["verdict"], w["decided_by"] or "—",
                                           "—" if m is None else f"{m:+.2f}", how)))
     con.print(table)
+    for line in indeterminate_lines(doc):
+        con.print(line, highlight=False, markup=False, soft_wrap=True)
     con.print(doc["sentence"], highlight=False, markup=False)
     if outcome.written:
         con.print(f"report: {outcome.written['lot_report.html']}", highlight=False,

@@ -50,6 +50,7 @@ font-size:.85rem;letter-spacing:.02em}
 background:#f3f5f8;margin:.6rem 0}
 .rule{border-left:4px solid #8a94a3;padding:.4rem .8rem;margin:.4rem 0;background:#fafbfc}
 td.note{color:#5b6675;font-size:.86rem}
+td.why{color:#6a4c93;font-size:.86rem}
 """
 
 
@@ -206,10 +207,37 @@ def _claim_rows(wafer: WaferVerdict) -> str:
             f"<td class=num>{'—' if margin is None else f'{margin:+.2f}'}</td>"
             f"<td class=num>{_probability(p_c)}</td>"
             f"<td>{html.escape(str(c.method or '—'))}</td></tr>")
+        if c.verdict == "indeterminate" and c.sentence:
+            rows.append(f"<tr><td></td><td class=why colspan=8>Why indeterminate: "
+                        f"{html.escape(str(c.sentence))}</td></tr>")
         if c.notes:
             rows.append(f"<tr><td></td><td class=note colspan=8>"
                         f"{'<br>'.join(html.escape(str(n)) for n in c.notes)}</td></tr>")
     return "".join(rows)
+
+
+def _indeterminate_reasons(verdict: LotVerdict, inputs: Mapping[str, WaferInput],
+                           quantity_of: dict) -> str:
+    """The "Why indeterminate" section of the page, or "" when nothing is indeterminate.
+
+    A line per indeterminate claim with its sentence, or one per unmeasured wafer (one
+    reason for all its claims).
+    """
+    esc = html.escape
+    items = []
+    for w in verdict.wafers:
+        claims = [c for c in w.claims if c.verdict == "indeterminate"]
+        wid = esc(str(w.wafer_id))
+        link = f"<a href='#wafer-{wid}'>{wid}</a>"
+        reason = inputs[w.wafer_id].reason
+        if claims and reason:
+            items.append(f"<li>{link}: not measured: {esc(str(reason))}</li>")
+            continue
+        items += [f"<li>{link}, {esc(_claim_label(c.claim_key, quantity_of))}: "
+                  f"{esc(str(c.sentence))}</li>" for c in claims]
+    if not items:
+        return ""
+    return f"<h2>Why indeterminate</h2><ul>{''.join(items)}</ul>"
 
 
 def _wafer_section(wafer: WaferVerdict, inp: WaferInput) -> str:
@@ -328,6 +356,7 @@ wafers.</div>
 <h2>Wafers</h2>
 <table><tr><th>wafer</th><th>verdict</th><th>decided by</th><th>margin [U]</th>
 <th>measured from</th></tr>{''.join(summary)}</table>
+{_indeterminate_reasons(v, inputs, quantity_of)}
 <h2>Claims</h2>
 <table><tr><th>claim</th><th>quantity</th><th>specification</th><th>temperature</th>
 <th>details</th></tr>{''.join(claims)}</table>
