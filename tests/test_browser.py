@@ -155,3 +155,15 @@ def test_page_is_not_blank(browser_runs, name):
     differs = np.any(np.abs(rgb - background) > 0.05, axis=1)
     # text, tables and figures cover well over 1 % of the first 2400 px of either report
     assert differs.mean() > 0.01, differs.mean()
+
+
+def test_fit_report_carries_the_caution_line(pages):
+    # project choice, no source: the report says its numbers are a fit to be checked and
+    # points to the hazards of the measurements behind them
+    html = pages["report.html"].read_text(encoding="utf-8")
+    caution = re.search(r"<p class=caution>(.*?)</p>", html, re.S)
+    assert caution, "no caution line in report.html"
+    text = " ".join(caution.group(1).split())
+    assert "model fit" in text and "checked" in text
+    for hazard in ("cryogens", "magnets", "heated stages", "mains-powered"):
+        assert hazard in text

@@ -26,6 +26,7 @@ th{background:#f3f5f8;font-weight:600}td.num{text-align:right;font-variant-numer
 .sev-severe{color:#c0392b;font-weight:600}.sev-warning{color:#b5651d}
 figure{margin:1rem 0}figcaption{color:#5b6675;font-size:.88rem}
 img{max-width:100%}code{background:#f3f5f8;padding:0 .25rem;border-radius:3px}
+.caution{color:#5b6675;font-size:.88rem;border-top:1px solid #dfe4ea;padding-top:.5rem}
 """
 
 
@@ -38,6 +39,9 @@ def _fmt(x, unit="", digits=4):
 def _estimate_cells(est: dict | None, unit: str) -> str:
     if est is None:
         return "<td colspan=3>fully ionized (no level energy)</td>"
+    if est.get("fixed"):
+        return (f"<td class=num>{_fmt(est['value'], unit)}</td><td class=num>fixed</td>"
+                "<td class=num>fixed (held, not fitted)</td>")
     lo, hi = est["ci95"]
     ci = f"{_fmt(lo)} … {_fmt(hi)}" if lo is not None else "not determined"
     return (f"<td class=num>{_fmt(est['value'], unit)}</td><td class=num>"
@@ -73,14 +77,24 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
     prov = d["provenance"]
     esc = html.escape
     rows = []
+    user_bounds = prov.get("options", {}).get("bounds") or {}
+
+    def bounded(name: str, unit: str) -> str:
+        if name not in user_bounds:
+            return ""
+        lo, hi = user_bounds[name]
+        return esc(f" (bounded {_fmt(lo)} … {_fmt(hi)} {unit} by --bound)")
+
     for lv in d["levels"]:
         label = f"{lv['kind']} {lv['name']}"
-        rows.append(f"<tr><th>N_{esc(lv['name'])}</th><td>{esc(label)} concentration</td>"
+        rows.append(f"<tr><th>N_{esc(lv['name'])}</th><td>{esc(label)} concentration"
+                    f"{bounded('N_' + lv['name'], 'cm⁻³')}</td>"
                     f"{_estimate_cells(lv['concentration_cm3'], 'cm⁻³')}</tr>")
         if lv["energy_eV"] is not None:
             g = lv["degeneracy"]
             rows.append(f"<tr><th>E_{esc(lv['name'])}</th><td>ionization energy "
-                        f"(g = {g:g})</td>{_estimate_cells(lv['energy_eV'], 'eV')}</tr>")
+                        f"(g = {g:g}){bounded('E_' + lv['name'], 'eV')}</td>"
+                        f"{_estimate_cells(lv['energy_eV'], 'eV')}</tr>")
     rows.append("<tr><th>N_net</th><td>net doping |N_D − N_A|</td>"
                 f"{_estimate_cells(d['net_doping_cm3'], 'cm⁻³')}</tr>")
     rows.append("<tr><th>K</th><td>compensation ratio</td>"
@@ -151,6 +165,9 @@ BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}</p>
 <p class=sub>Model: charge neutrality with {esc(st['model'])} statistics, effective densities
 of states from the density-of-states masses, Varshni band gap, partially ionized majority
 levels with degeneracy factors, fully ionized compensation.</p>
+<p class=caution>Caution: these numbers are a model fit, to be checked against the data and the
+model's limits before anything rests on them; the measurements behind them carry the hazards of
+cryogens, strong magnets, heated stages and mains-powered instruments (README, Safety).</p>
 </body></html>
 """
 
