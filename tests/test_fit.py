@@ -172,6 +172,7 @@ DATA_KEYS = ["temperature_K", "density_cm3", "density_err_cm3", "model_density_c
              "findings", "scale_uncertainty"]
 MATERIAL_DOC_KEYS = ["name", "band_gap_0K_eV", "varshni_alpha_eV_per_K", "varshni_beta_K",
                      "electron_dos_mass", "hole_dos_mass", "relative_permittivity",
+                     "electron_conductivity_mass", "hole_conductivity_mass",
                      "description", "sources"]
 
 

@@ -1,8 +1,10 @@
-"""Host materials: band gap (Varshni), density-of-states masses, permittivity, with sources.
+"""Host materials: band gap, density-of-states and conductivity masses, permittivity, sources.
 
 The library lives in ``freezeout/data/materials.toml`` (value and citation per entry). A user
-material is a flat mapping with the keys of :data:`MATERIAL_KEYS`; unknown or missing keys are
-an error.
+material is a flat mapping with the keys of :data:`MATERIAL_KEYS`; unknown or missing required
+keys are an error. The permittivity and the conductivity masses are optional in a user file; a
+model that needs one it lacks raises InputError naming the key
+(:meth:`Material.conductivity_mass`).
 """
 
 from __future__ import annotations
@@ -22,7 +24,7 @@ from freezeout.physics.bands import (
     varshni_band_gap,
 )
 
-#: Keys of a material description; ``relative_permittivity`` is optional.
+#: Keys of a material description; the first six are required, the rest optional.
 MATERIAL_KEYS = (
     "name",
     "band_gap_0K_eV",
@@ -31,6 +33,8 @@ MATERIAL_KEYS = (
     "electron_dos_mass",
     "hole_dos_mass",
     "relative_permittivity",
+    "electron_conductivity_mass",
+    "hole_conductivity_mass",
 )
 _REQUIRED = MATERIAL_KEYS[:6]
 
@@ -55,6 +59,9 @@ class Material:
         Valence-band density-of-states mass. [m0]
     relative_permittivity
         Static relative permittivity, or None if not given. [1]
+    electron_conductivity_mass, hole_conductivity_mass
+        Conductivity effective masses (electrons: of one valley, the harmonic mean over
+        directions; holes: heavy and light together), or None if not given. [m0]
     description
         Plain-language name.
     sources
@@ -68,6 +75,8 @@ class Material:
     electron_dos_mass: float
     hole_dos_mass: float
     relative_permittivity: float | None = None
+    electron_conductivity_mass: float | None = None
+    hole_conductivity_mass: float | None = None
     description: str = ""
     sources: Mapping[str, str] = field(default_factory=dict)
 
@@ -89,6 +98,21 @@ class Material:
         return intrinsic_density(temperature, self.band_gap(temperature), self.nc(temperature),
                                  self.nv(temperature))
 
+    def conductivity_mass(self, carrier: str) -> float:
+        """Conductivity effective mass of electrons (``"n"``) or holes (``"p"``). [m0]
+
+        Raises
+        ------
+        InputError
+            When the material does not give it (the message names the missing key).
+        """
+        key = "electron_conductivity_mass" if carrier == "n" else "hole_conductivity_mass"
+        value = getattr(self, key)
+        if value is None:
+            raise InputError(f"material {self.name!r} has no {key}: add it to the material "
+                             "file (conductivity effective mass in units of m0)", column=key)
+        return value
+
     def to_dict(self) -> dict:
         """Parameters under the keys of :data:`MATERIAL_KEYS`, plus description and sources."""
         return {
@@ -99,6 +123,8 @@ class Material:
             "electron_dos_mass": self.electron_dos_mass,
             "hole_dos_mass": self.hole_dos_mass,
             "relative_permittivity": self.relative_permittivity,
+            "electron_conductivity_mass": self.electron_conductivity_mass,
+            "hole_conductivity_mass": self.hole_conductivity_mass,
             "description": self.description,
             "sources": dict(self.sources),
         }
@@ -111,6 +137,8 @@ _LIMITS = {
     "electron_dos_mass": (1e-3, 100.0),
     "hole_dos_mass": (1e-3, 100.0),
     "relative_permittivity": (1.0, 1000.0),
+    "electron_conductivity_mass": (1e-3, 100.0),
+    "hole_conductivity_mass": (1e-3, 100.0),
 }
 
 
@@ -161,6 +189,8 @@ def material_from_mapping(data: Mapping, *, file: str | None = None,
         electron_dos_mass=values["electron_dos_mass"],
         hole_dos_mass=values["hole_dos_mass"],
         relative_permittivity=values.get("relative_permittivity"),
+        electron_conductivity_mass=values.get("electron_conductivity_mass"),
+        hole_conductivity_mass=values.get("hole_conductivity_mass"),
         description=description,
         sources=dict(sources or {}),
     )
