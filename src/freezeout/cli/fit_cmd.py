@@ -103,10 +103,17 @@ def _print_summary(result, written) -> None:
     for col in ("parameter", "value", "std. error", "95 % interval"):
         table.add_column(col, justify="right" if col != "parameter" else "left")
 
+    user_bounds = d["provenance"].get("options", {}).get("bounds") or {}
+
     def row(name, est, unit):
         lo, hi = est["ci95"]
         ci = "—" if lo is None else f"{lo:.4g} … {hi:.4g}"
         se = "—" if est["stderr"] is None else f"{est['stderr']:.2g}"
+        if est.get("fixed"):
+            se, ci = "fixed", "fixed (held)"
+        if name in user_bounds:
+            b_lo, b_hi = user_bounds[name]
+            name = f"{name}\n bounds {b_lo:.3g}…{b_hi:.3g}"
         table.add_row(name, f"{est['value']:.4g} {unit}", se, ci)
 
     for lv in d["levels"]:
@@ -118,6 +125,11 @@ def _print_summary(result, written) -> None:
     con.print(table)
     con.print(f"chi^2 = {st['chi2']:.4g}, reduced chi^2 = {st['reduced_chi2']:.4g}, "
               f"AIC = {st['aic']:.4g}, BIC = {st['bic']:.4g}")
+    if st.get("rms_residual_percent") is not None:
+        note = ("" if st["weighted"] else "; unweighted, so reduced chi^2 is the residual "
+                "variance in ln units, not a goodness-of-fit test")
+        con.print(f"rms residual = {st['rms_residual_percent']:.2g} % (ln density){note}",
+                  highlight=False)
     for w in d["warnings"]:
         con.print(f"[yellow]warning:[/yellow] {w}", highlight=False)
     if written:

@@ -1,7 +1,11 @@
 """Plain-word warnings of a fit: what the data cannot pin, and why.
 
 Each warning names the parameter, says what the data lack and, where there is one, what
-would help (measure colder, fix a parameter, add a level).
+would help (measure colder, fix a parameter, free a held one, add a level). Each is true of
+the data it is shown for: the runs test speaks only when the misfit is significant
+(:mod:`freezeout.fitting.adequacy`), a misfit with held values points at them before
+suggesting another level, and an unweighted fit is judged by its rms misfit in percent,
+never by a reduced chi^2 that only measures the residuals in ln units.
 """
 
 from __future__ import annotations
@@ -10,31 +14,49 @@ import math
 
 import numpy as np
 
+from freezeout.fitting.adequacy import (
+    MISFIT_RMS_PERCENT,
+    RUNS_Z_LIMIT,
+    misfit_significant,
+    model_inadequate,
+    rms_percent,
+    runs_z,
+)
+from freezeout.fitting.host_checks import LevelCheck, host_warnings
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.parameters import pow10
+from freezeout.fitting.parameters import pow10, to_public
 
 
-def runs_z(residual) -> float | None:
-    """z-score of the number of sign runs in the residuals (Wald-Wolfowitz runs test).
+def _held(params) -> str:
+    """The held parameters of a fit in plain words, e.g. ``E_D1 = 0.08 eV``."""
+    out = []
+    for name, p in params.items():
+        if p.vary:
+            continue
+        public, value = to_public(name, p.value)
+        out.append(f"{public} = {value:.3g} cm^-3" if public.startswith("N_")
+                   else f"{public} = {value:.4g} eV")
+    return ", ".join(out)
 
-    A strongly negative z (fewer runs than chance) marks systematic residuals. Residuals are
-    in temperature order. None when there are too few points of each sign.
 
-    References
-    ----------
-    A. Wald, J. Wolfowitz, Ann. Math. Statist. 11, 147-162 (1940).
-    doi:10.1214/aoms/1177731909
-    """
-    r = np.asarray(residual, dtype=float)
-    s = np.sign(r[r != 0])
-    n1, n2 = int(np.sum(s > 0)), int(np.sum(s < 0))
-    n = n1 + n2
-    if n1 < 3 or n2 < 3:
-        return None
-    runs = 1 + int(np.sum(s[1:] != s[:-1]))
-    mean = 2.0 * n1 * n2 / n + 1.0
-    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1))
-    return float((runs - mean) / math.sqrt(var)) if var > 0 else None
+def _g(x: float) -> str:
+    """A positive number in two significant figures, without an exponent up to 1e5."""
+    return f"{x:.2g}" if x < 100 else f"{x:.0f}"
+
+
+def _inadequate_text(weighted: bool, redchi: float, rms: float, z: float | None,
+                     held: str) -> str:
+    """The warning of a model that does not describe the data."""
+    size = (f"reduced chi^2 = {redchi:.3g} (residuals {_g(math.sqrt(redchi))} times their "
+            "stated uncertainties)" if weighted else
+            f"it misses the data by {_g(rms)} % rms (in ln density)")
+    shape = ("with residuals in long stretches of one sign" if z is not None
+             else "too few points to test the residuals for a pattern")
+    fixes = f"; held: {held}" if held else ""
+    change = "levels, compensation" + (", the held values" if held else "")
+    return (f"the model does not describe the data: {size}, {shape}{fixes}. The fitted "
+            "values, the net doping included, are not measurements; change the model "
+            f"({change}) before using them")
 
 
 def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarray,
@@ -65,7 +87,18 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
     """
     params = out.params
     free = list(out.var_names)
+    held = _held(params)
     w = []
+    z = runs_z(out.residual)
+    # unweighted residuals are ln(model) - ln(data) themselves
+    rms = rms_percent(out.residual) if not weighted else math.nan
+    inadequate = model_inadequate(weighted, out.redchi, rms, z)
+    if inadequate:
+        w.append(_inadequate_text(weighted, out.redchi, rms, z, held))
+    elif not weighted and rms > MISFIT_RMS_PERCENT:
+        w.append(f"the model misses the data by {_g(rms)} % rms (in ln density); with no "
+                 "per-point uncertainties that cannot be tested against the scatter: judge "
+                 "whether the measurement is that noisy or the model lacks something")
     res = model.solve(values, warm=model.warm_fermi is not None)
     major_ion = model.majority_ionized(res)
     ms, mn = model.major_symbol, model.minor_symbol
@@ -73,6 +106,7 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
     i_min = int(np.argmin(model.temperature))
     n_min_value = 10.0 ** params[model.compensation_name].value if model.compensated else 0.0
     net = n_maj - n_min_value
+    checks = []
     for i in range(model.n_levels):
         ename = f"E_{ms}{i + 1}"
         conc = 10.0 ** params[f"log10_N_{ms}{i + 1}"].value
@@ -81,15 +115,22 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
         # (under heavy compensation a level can be 90 % ionized and still hold most of the
         # free carriers, so the ionized fraction alone does not tell)
         frozen = conc * (1.0 - frac)
+        determined = ename in free
         if frozen < 0.1 * min(net, conc):
+            determined = False
+            advice = (f"the held value {ename} = {params[ename].value:.4g} eV is not tested "
+                      "by them; measure to lower temperature" if ename not in free else
+                      f"measure to lower temperature or fix it (--fix {ename}=...)")
             w.append(f"no freeze-out: level {ms}{i + 1} holds only {100 * frozen / net:.2g} % "
                      f"of the net doping as neutral centres even at the lowest temperature "
                      f"used ({tmin:g} K), so the data do not constrain its ionization energy "
-                     f"{ename}; measure to lower temperature or fix it (--fix {ename}=...)")
+                     f"{ename}; {advice}")
         elif ename in free and (not np.isfinite(se[ename])
                                 or se[ename] > 0.5 * abs(params[ename].value)):
+            determined = False
             w.append(f"{ename} is poorly determined (standard error "
                      f"{se[ename]:.2g} eV on {params[ename].value:.3g} eV)")
+        checks.append(LevelCheck(f"{ms}{i + 1}", float(params[ename].value), conc, determined))
     if profile_upper is not None:
         upper = pow10(profile_upper)
         if profile_upper >= params[model.compensation_name].max - 1e-9:
@@ -110,12 +151,18 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
                  f"carriers exceed 1 % of the majority (up to {worst:.2g} %); a single-carrier "
                  "Hall density is biased there by the unknown mobility ratio, even before the "
                  "Hall coefficient changes sign")
-    z = runs_z(out.residual)
-    if z is not None and z < -3.0:
-        more = "--donors" if model.carrier == "n" else "--acceptors"
-        w.append(f"the residuals are systematic (runs test z = {z:.1f}: too few changes of "
-                 "sign); the model may lack a level or the data hold an effect it leaves out. "
-                 f"Try {more} {model.n_levels + 1} and compare the BIC")
+    if (z is not None and z < RUNS_Z_LIMIT
+            and misfit_significant(weighted, out.chisqr, out.nfree, rms)):
+        runs = f"the residuals are systematic (runs test z = {z:.1f}: too few changes of sign)"
+        if held:
+            w.append(f"{runs} with {held} held fixed: the fixed value(s) may be what misfits; "
+                     "free them (drop --fix) and refit before adding a level")
+        else:
+            more, less = (("--donors", "--acceptors") if model.carrier == "n"
+                          else ("--acceptors", "--donors"))
+            comp = "" if model.compensated else f" or {less} 1 (compensation)"
+            w.append(f"{runs}; the model may lack a level or the data hold an effect it leaves "
+                     f"out. Try {more} {model.n_levels + 1}{comp} and compare the BIC")
     for name in free:
         p = params[name]
         span = (p.max - p.min) if np.isfinite(p.max - p.min) else 1.0
@@ -133,7 +180,11 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
                              f"(r = {corr[a, b]:+.3f}): the data constrain a combination of "
                              "them better than each one")
     if weighted and out.nfree > 0 and out.redchi > 2.0:
+        model_words = "the model, with its held values," if held else "the model"
         w.append(f"reduced chi^2 = {out.redchi:.3g}: the data scatter more than their stated "
-                 "uncertainties allow (or the model misses something); the standard errors "
+                 f"uncertainties allow (or {model_words} misses something); the standard errors "
                  f"are inflated by sqrt(reduced chi^2) = {math.sqrt(out.redchi):.3g}")
+    if not inadequate:
+        # the host's effective-mass estimates say nothing about numbers that are not measured
+        w += host_warnings(model.material, model.carrier, checks)
     return w
