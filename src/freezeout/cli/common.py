@@ -18,8 +18,8 @@ MaterialOpt = Annotated[str | None, typer.Option(
     "file's '# material:' line, else Si.")]
 MaterialFileOpt = Annotated[Path | None, typer.Option(
     "--material-file", help="User material as a TOML file (keys: name, band_gap_0K_eV, "
-    "varshni_alpha_eV_per_K, varshni_beta_K, electron_dos_mass, hole_dos_mass, "
-    "relative_permittivity).")]
+    "varshni_alpha_eV_per_K, varshni_beta_K, electron_dos_mass, hole_dos_mass; optional "
+    "relative_permittivity, electron_conductivity_mass, hole_conductivity_mass).")]
 StatisticsOpt = Annotated[str, typer.Option(
     "--statistics", help="Carrier statistics: fermi-dirac or boltzmann.")]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print the result as JSON on stdout.")]
