@@ -88,9 +88,15 @@ def pages(tmp_path_factory) -> dict[str, Path]:
 
 
 @pytest.fixture(scope="module")
-def browser_runs(pages, tmp_path_factory) -> dict[str, dict]:
+def chromium() -> str:
+    """The Chromium binary; skips (before any report is made) when there is none."""
+    return _chromium()
+
+
+@pytest.fixture(scope="module")
+def browser_runs(chromium, pages, tmp_path_factory) -> dict[str, dict]:
     """Per page: the probe's JSON, Chromium's console lines and the screenshot's path."""
-    binary = _chromium()
+    binary = chromium
     tmp = tmp_path_factory.mktemp("chromium")
     runs = {}
     for name, page in pages.items():
