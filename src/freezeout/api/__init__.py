@@ -4,7 +4,15 @@ Every call imports the numerical stack only when it runs, so ``import freezeout`
 CLI's ``--help``) stays fast.
 """
 
-from freezeout.api.fits import default_report_folder, fit_file, record_fit, write_fit_report
+from freezeout.api.fits import (
+    FIT_REPORT_FILES,
+    default_report_folder,
+    fit_file,
+    fit_report_outputs,
+    record_fit,
+    write_fit_report,
+)
+from freezeout.api.guard import refuse_overwrite, same_file, sqlite_file
 from freezeout.api.history import HistoryResult, history, parse_since, trend_file_name
 from freezeout.api.materials import list_materials, load_material
 from freezeout.api.qualification import (
@@ -34,7 +42,8 @@ from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K, HALL_FACTOR_R
 
 __all__ = [
     "DEFAULT_GROUPING_TOLERANCE_K", "HALL_FACTOR_RANGE",
-    "EXIT_CODES", "FIT_OPTIONS", "HistoryResult", "QualificationOutcome", "ReduceOutcome",
+    "EXIT_CODES", "FIT_OPTIONS", "FIT_REPORT_FILES", "fit_report_outputs", "refuse_overwrite",
+    "same_file", "sqlite_file", "HistoryResult", "QualificationOutcome", "ReduceOutcome",
     "WaferJob", "WaferOutcome", "build_qualification", "check_statistics",
     "default_lot_folder", "default_reduced_output", "default_report_folder", "fit_file",
     "history", "is_raw_file", "list_materials", "load_material", "load_run", "lot_options",

@@ -99,15 +99,39 @@ def fit_file(
     return result
 
 
+#: Every file a fit report may write into its folder (freezeout.reporting.fit_report).
+FIT_REPORT_FILES = ("fit.json", "report.html", "density.png", "residuals.png",
+                    "fermi_level.png", "ionization.png", "transport.png")
+
+
+def fit_report_outputs(folder: str | Path) -> list[Path]:
+    """The report folder and every file the report may write in it."""
+    folder = Path(folder)
+    return [folder, *(folder / name for name in FIT_REPORT_FILES)]
+
+
+def _fit_inputs(result: FitResult) -> list[str | None]:
+    """The files a fit read: its run and its material file."""
+    prov = result.provenance or {}
+    return [prov.get("input_path"), (prov.get("options") or {}).get("material_file")]
+
+
 def default_report_folder(run_path: str | Path) -> Path:
     """Where ``fit`` writes a run's report by default: ``reports/<run stem>/``."""
     return Path("reports") / Path(run_path).stem
 
 
 def write_fit_report(result: FitResult, folder: str | Path) -> dict[str, Path]:
-    """Write fit.json, the figures and report.html into ``folder``; return name -> path."""
+    """Write fit.json, the figures and report.html into ``folder``; return name -> path.
+
+    Refuses (:class:`InputError`, nothing written) a folder that is, or whose report files
+    would be, the run or material file the fit read
+    (:func:`freezeout.api.guard.refuse_overwrite`).
+    """
+    from freezeout.api.guard import refuse_overwrite
     from freezeout.reporting.fit_report import write_fit_report as _write
 
+    refuse_overwrite(fit_report_outputs(folder), _fit_inputs(result))
     return _write(result, folder)
 
 
@@ -125,10 +149,12 @@ def record_fit(result: FitResult, db: str | None = None) -> SaveOutcome:
     Raises
     ------
     InputError
-        The database cannot be opened.
+        The database cannot be opened, or is the fit's run or material file.
     """
+    from freezeout.api.guard import refuse_overwrite, sqlite_file
     from freezeout.storage import open_history
 
+    refuse_overwrite([sqlite_file(db)], _fit_inputs(result), option="--db")
     store = open_history(db)
     try:
         return store.save_fit(result)

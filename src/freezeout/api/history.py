@@ -106,12 +106,21 @@ def history(*, supplier: str | None = None, since: str | _dt.date | None = None,
         supplier, a ``.png`` file.
     draw
         False: draw no PNG unless ``out`` is given.
+
+    Raises
+    ------
+    InputError
+        A bad option or database URL, or an ``out`` (or a trend PNG in it) that is the
+        database file (:func:`freezeout.api.guard.refuse_overwrite`; nothing is written).
     """
+    from freezeout.api.guard import refuse_overwrite, sqlite_file
     from freezeout.storage import open_history
 
     day = parse_since(since)
     if kind is not None and kind not in KINDS:
         raise InputError(f"--kind must be 'fit' or 'lot', got {kind!r}")
+    database = sqlite_file(db)
+    refuse_overwrite([out], [database])
     store = open_history(db)
     try:
         records = tuple(store.list_records(supplier=supplier, since=day, kind=kind))
@@ -129,6 +138,7 @@ def history(*, supplier: str | None = None, since: str | _dt.date | None = None,
     finally:
         store.close()
     targets = _trend_targets(None if out is None else Path(out), list(trends), draw)
+    refuse_overwrite(targets.values(), [database])
     figures: dict[str, Path | None] = {}
     for s, pts in trends.items():
         path = targets[s]

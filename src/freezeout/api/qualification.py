@@ -143,6 +143,18 @@ def default_lot_folder(lot_id: str) -> Path:
     return Path("reports") / slug(lot_id, "lot")
 
 
+def _refuse_overwrite(lot: LotFile, folder: Path | None, db: str | None) -> None:
+    """Refuse a report folder or database that would write over the lot's own files."""
+    from freezeout.api.guard import refuse_overwrite, sqlite_file
+
+    inputs = [lot.path, *(w.run for w in lot.wafers), *(w.material_file for w in lot.wafers)]
+    if folder is not None:
+        from freezeout.reporting.lot_report import lot_report_files
+
+        refuse_overwrite([folder, *(folder / n for n in lot_report_files(lot))], inputs)
+    refuse_overwrite([sqlite_file(db)], inputs, option="--db")
+
+
 def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool = True,
                 db: str | None = None, workers: int | None = None,
                 progress: Progress | None = None) -> QualificationOutcome:
@@ -167,7 +179,9 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
     Raises
     ------
     InputError
-        A bad lot file, option or database URL.
+        A bad lot file, option or database URL; a report folder or database that would
+        write over the lot file or one of its runs or material files (checked before any
+        wafer is measured; nothing is written).
     """
     from freezeout.claims import load_lot, lot_input_sha256
     from freezeout.storage import open_history
@@ -175,6 +189,10 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
     if workers is not None and workers < 1:
         raise InputError(f"--workers must be at least 1, got {workers}")
     lot = load_lot(path)
+    folder = None
+    if out is not None or report:
+        folder = Path(out) if out is not None else default_lot_folder(lot.lot)
+    _refuse_overwrite(lot, folder, db)
     sha = lot_input_sha256(lot)
     store = open_history(db)
     try:
@@ -183,10 +201,9 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
         outcomes = measure_wafers(jobs, n_workers, progress)
         qualification = build_qualification(lot, outcomes, sha)
         written = {}
-        if out is not None or report:
+        if folder is not None:
             from freezeout.reporting.lot_report import write_lot_report
 
-            folder = Path(out) if out is not None else default_lot_folder(lot.lot)
             written = write_lot_report(qualification, folder)
         fits = [o.fit for o in outcomes.values() if o.fit is not None]
         saved_lot, fits_new = store.save_qualification(qualification, fits)

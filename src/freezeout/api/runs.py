@@ -164,7 +164,7 @@ def reduce_file(raw: str | Path, *, out: str | Path | None = None, write: bool =
         Raw-readings CSV.
     out
         Reduced CSV to write (default ``<raw stem>_reduced.csv`` beside ``raw``). It may not
-        be the raw file itself.
+        be the raw file itself under any name (:func:`freezeout.api.guard.refuse_overwrite`).
     write
         False: reduce only, write nothing.
     thickness, hall_factor, temperature_tolerance, thresholds
@@ -177,10 +177,10 @@ def reduce_file(raw: str | Path, *, out: str | Path | None = None, write: bool =
     """
     target = None
     if write:
+        from freezeout.api.guard import refuse_overwrite
+
         target = Path(out) if out is not None else default_reduced_output(raw)
-        if target.exists() and Path(raw).exists() and target.resolve() == Path(raw).resolve():
-            raise InputError("the output would replace the raw readings it is made from; "
-                             "choose another --out", file=str(raw))
+        refuse_overwrite([target], [raw])
     run = reduce_raw_file(raw, thickness=thickness, hall_factor=hall_factor,
                           temperature_tolerance=temperature_tolerance, thresholds=thresholds)
     if target is not None:

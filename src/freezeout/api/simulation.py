@@ -129,8 +129,15 @@ def simulation_csv(sim, statistics: str) -> str:
     return format_csv(sim.columns(), simulation_metadata(sim, statistics))
 
 
-def write_simulation_csv(sim, statistics: str, path: str | Path) -> Path:
-    """Write :func:`simulation_csv` to ``path`` (temporary file, then rename)."""
+def write_simulation_csv(sim, statistics: str, path: str | Path, *,
+                         material_file: str | Path | None = None) -> Path:
+    """Write :func:`simulation_csv` to ``path`` (temporary file, then rename).
+
+    Refuses (:class:`InputError`, nothing written) when ``path`` is the ``material_file``
+    the simulation read, under any name (:func:`freezeout.api.guard.refuse_overwrite`).
+    """
+    from freezeout.api.guard import refuse_overwrite
     from freezeout.io.atomic import atomic_write_text
 
+    refuse_overwrite([path], [material_file])
     return atomic_write_text(path, simulation_csv(sim, statistics))

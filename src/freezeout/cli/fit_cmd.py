@@ -71,15 +71,16 @@ def fit_command(
         if not sep:
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
+    folder = None
+    if out is not None or not json_output:
+        folder = out if out is not None else api.default_report_folder(run)
+        api.refuse_overwrite(api.fit_report_outputs(folder), [run, material_file])
     result = api.fit_file(run, material=material, material_file=material_file, donors=donors,
                           acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
                           degeneracy=degeneracy, fix=fixes, bounds=bounds,
                           include_mixed=include_mixed, include_flagged=include_flagged,
                           thickness=thickness)
-    written = {}
-    if out is not None or not json_output:
-        folder = out if out is not None else api.default_report_folder(run)
-        written = api.write_fit_report(result, folder)
+    written = {} if folder is None else api.write_fit_report(result, folder)
     saved = None if no_history else api.record_fit(result, db)
     if json_output:
         print_json(result.to_dict())

@@ -55,7 +55,7 @@ def simulate_command(
                        acceptors=acceptors, temperatures=(t_min, t_max, n),
                        statistics=statistics)
     if out is not None:
-        api.write_simulation_csv(sim, statistics, out)
+        api.write_simulation_csv(sim, statistics, out, material_file=material_file)
     if json_output:
         print_json(sim.to_dict())
     elif out is not None:

@@ -18,6 +18,7 @@ from pathlib import Path
 
 from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
 from freezeout.numbers import finite_or_none, slug
+from freezeout.records.lot import LotFile
 from freezeout.records.qualification import LotQualification, WaferInput
 from freezeout.records.verdicts import (
     DEFERENCE,
@@ -134,6 +135,16 @@ def numeric_claim_keys(verdict: LotVerdict) -> list[str]:
 def chart_file_name(claim_key: str) -> str:
     """The chart's file name: ``chart_`` and the key's safe characters (``chart_claim2.png``)."""
     return f"chart_{slug(claim_key, 'claim', joiner='')}.png"
+
+
+#: The files every lot report writes, besides one chart per claim with a window.
+LOT_REPORT_FILES = ("lot.json", "lot.csv", "lot_report.html")
+
+
+def lot_report_files(lot: LotFile) -> list[str]:
+    """Every file name the lot's report will write (known before anything is measured)."""
+    return [*LOT_REPORT_FILES,
+            *(chart_file_name(c.key) for c in lot.claims if c.window is not None)]
 
 
 def lot_figures(qualification: LotQualification) -> dict[str, tuple[bytes, str]]:
