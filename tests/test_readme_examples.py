@@ -57,9 +57,9 @@ def _freezeout_commands(body: str) -> list[list[str]]:
 
 
 SHELL_BLOCKS = [body for lang, body in BLOCKS if lang in ("bash", "sh", "shell", "console")]
-INLINE = [c for c in re.findall(r"`([^`\n]+)`", re.sub(r"^```.*?^```", "", TEXT,
-                                                       flags=re.S | re.M))
-          if re.match(r"(time )?freezeout ", c)]
+INLINE = [" ".join(c.split()) for c in re.findall(r"`([^`]+)`", re.sub(r"^```.*?^```", "", TEXT,
+                                                                      flags=re.S | re.M))]
+INLINE = [c for c in INLINE if re.match(r"(time )?freezeout ", c)]
 SAMPLE_COMMANDS = [argv for body in SHELL_BLOCKS for argv in _freezeout_commands(body)
                    if any("sample_data/" in a for a in argv)]
 SAMPLE_COMMANDS += [argv for c in INLINE for argv in _freezeout_commands(c)
@@ -103,15 +103,14 @@ def ran(tmp_path_factory):
     """Run the README's sample commands in order, in a copy of sample_data.
 
     Each shell block naming a sample file runs in full (its ``history`` line needs the
-    qualifications before it), then the inline ones. ``qualify`` gets ``--workers 1`` (the
-    same fits, in this process: faster on a small machine). Returns the work folder and a list
-    of (argv, exit code, stdout, stderr).
+    qualifications before it); the inline commands are checked by
+    :func:`test_inline_sample_commands_parse` (they repeat the block's fit). ``qualify`` gets
+    ``--workers 1`` (the same fits, in this process: faster on a small machine). Returns the
+    work folder and a list of (argv, exit code, stdout, stderr).
     """
     work = tmp_path_factory.mktemp("readme")
     shutil.copytree(ROOT / "sample_data", work / "sample_data")
     commands = [argv for body in SAMPLE_BLOCKS for argv in _freezeout_commands(body)]
-    commands += [argv for c in INLINE for argv in _freezeout_commands(c)
-                 if any("sample_data/" in a for a in argv)]
     runs = []
     before = _repo_snapshot()
     with pytest.MonkeyPatch.context() as mp:
@@ -145,6 +144,22 @@ def test_sample_commands_run_with_the_stated_exit_codes(ran):
     assert runs
     for argv, code, _out, err in runs:
         assert code == _expected_exit(argv), (" ".join(argv), code, err[-1500:])
+
+
+INLINE_SAMPLE = [argv for c in INLINE for argv in _freezeout_commands(c)
+                 if any("sample_data/" in a for a in argv)]
+
+
+@pytest.mark.parametrize("argv", INLINE_SAMPLE, ids=" ".join)
+def test_inline_sample_commands_parse(argv, monkeypatch):
+    # every option the inline command uses exists, and its sample files are there
+    code, out, err = _cli(monkeypatch, [argv[1], "--help"])
+    assert code == 0, err
+    for word in argv[2:]:
+        if word.startswith("--"):
+            assert re.search(rf"{word.split('=')[0]}\b", out), (argv, word)
+        elif word.startswith("sample_data/"):
+            assert (ROOT / word).exists(), word
 
 
 def test_sample_commands_write_into_the_copy(ran):
