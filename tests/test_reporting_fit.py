@@ -98,7 +98,10 @@ def test_density_axes(result, curves):
     assert "failed a severe quality check (not fitted)" in labels
     fit = ax.get_lines()[labels.index("fit: electron density")]
     np.testing.assert_allclose(fit.get_xdata(), 1000.0 / curves.temperature)
-    np.testing.assert_allclose(fit.get_ydata(), curves.majority)
+    extrapolated = ax.get_lines()[labels.index("model (extrapolated)")]
+    solid = np.isfinite(fit.get_ydata())  # the fitted range; the rest is dashed
+    np.testing.assert_allclose(np.where(solid, fit.get_ydata(), extrapolated.get_ydata()),
+                               curves.majority)
     flagged = ax.get_lines()[labels.index("failed a severe quality check (not fitted)")]
     np.testing.assert_allclose(flagged.get_xdata(), 1000.0 / result.data.temperature[[4]])
     assert [c.get_xlabel() for c in ax.child_axes] == ["temperature [K]"]
@@ -107,14 +110,16 @@ def test_density_axes(result, curves):
 
 
 def test_residual_axes(result):
-    """Residual in % of the fit against log temperature, left-out points as crosses."""
+    """Residual in % of the fit against 1000/T, left-out points marked by their reason."""
     ax = fg.residual_axes(result)
-    assert ax.get_xscale() == "log" and ax.get_xlabel() == "temperature [K]"
+    assert ax.get_xscale() == "linear" and ax.get_xlabel() == "1000 / T [1/K]"
     assert ax.get_ylabel() == "measured / fit − 1 [%]"
     d = result.data
     expected = 100.0 * (d.density / d.model_density - 1.0)
-    crosses = ax.get_lines()[_labels(ax).index("not fitted")]
-    np.testing.assert_allclose(crosses.get_ydata(), expected[~d.used])
+    crosses = ax.get_lines()[_labels(ax).index("failed a severe quality check (not fitted)")]
+    np.testing.assert_allclose(crosses.get_ydata(), expected[[4]])
+    flipped = ax.get_lines()[_labels(ax).index("opposite Hall sign (not fitted)")]
+    np.testing.assert_allclose(flipped.get_ydata(), expected[[-1]])
     fitted = ax.containers[0].lines[0]  # the errorbar's data line
     np.testing.assert_allclose(fitted.get_ydata(), expected[d.used])
 
