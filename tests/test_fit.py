@@ -164,8 +164,8 @@ def test_result_dict_is_json_and_complete():
 #: The fit document's members in order, as ``freezeout fit --json`` printed them before the
 #: result became typed (captured from that version; project choice, no source).
 DOCUMENT_KEYS = ["schema_version", "carrier", "levels", "compensation_ratio", "net_doping_cm3",
-                 "statistics", "correlation", "fixed", "warnings", "hall_factor", "material",
-                 "provenance", "data", "optimizer_message"]
+                 "statistics", "correlation", "fixed", "warnings", "alternatives", "hall_factor",
+                 "material", "provenance", "data", "optimizer_message"]
 DATA_KEYS = ["temperature_K", "density_cm3", "density_err_cm3", "model_density_cm3", "used",
              "point_carrier", "flags", "severe", "resistivity_ohm_cm", "resistivity_err_ohm_cm",
              "mobility_cm2_per_Vs", "mobility_err_cm2_per_Vs", "hall_coefficient_cm3_per_C",

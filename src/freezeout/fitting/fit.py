@@ -1,13 +1,19 @@
 """Fitting a run to the carrier model: the multi-start driver.
 
-Concentrations are fitted as log10. The global stage evaluates a grid of starts around the
-data-driven guess (:mod:`freezeout.fitting.guess`) in one vectorized solve and refines the
-best few locally with lmfit; the lowest chi^2 wins. The residuals are those of
+Concentrations are fitted as log10. The global stage takes a grid of starts around the
+data-driven guess (:mod:`freezeout.fitting.guess`), spread over compensation ratios from
+1e-4 to 0.9 of the majority total, and brings the best few of every compensation ratio down
+their chi^2 valleys together, with Levenberg-Marquardt steps on the whole batch in one
+vectorized solve per step. The descended points are grouped into distinct basins
+(:mod:`freezeout.fitting.alternatives`); lmfit refines the best point of every basin that
+comes within reach of the best, the lowest chi^2 wins, and the other distinct solutions
+within delta chi^2 = 4 are reported beside it as alternatives. The residuals are those of
 :mod:`freezeout.fitting.problem`; the result is built by :mod:`freezeout.fitting.summary`.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import replace
 
@@ -15,7 +21,14 @@ import lmfit
 import numpy as np
 
 from freezeout.errors import FitError, InputError
-from freezeout.fitting.guess import guess, start_grid
+from freezeout.fitting.alternatives import (
+    DELTA_CHI2,
+    alternative,
+    alternatives_warning,
+    distinct,
+    signature,
+)
+from freezeout.fitting.guess import best_per_basin, descend, guess, heavy_start, start_grid
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import (
     LOG10_CONCENTRATION_BOUNDS,
@@ -39,6 +52,12 @@ _NOT_CONVERGED = ("the optimizer did not converge: the chi^2 surface is flat alo
                   "other warnings); the values shown are one point of that flat valley")
 
 
+_MISSED = ("the fit may not be the best solution: the search reached chi^2 = {found:.4g} "
+           "elsewhere, below the {chi2:.4g} of the fit reported, but the local fit there did "
+           "not converge (a valley running to a limit of the parameters); try --bound or "
+           "--fix to explore it")
+
+
 def _level_counts(carrier: str, donors: int, acceptors: int) -> tuple[int, int]:
     """Majority levels and compensating species of a run, checked (InputError if bad)."""
     if carrier == "n":
@@ -59,24 +78,69 @@ def _level_counts(carrier: str, donors: int, acceptors: int) -> tuple[int, int]:
     return n_levels, n_comp
 
 
-def _local_fits(problem: Problem, starts: list[dict], costs: np.ndarray,
-                start_fermi: np.ndarray, n_tries: int, internal_fix: dict,
-                internal_bounds: dict, weighted: bool):
-    """Refine the best starts locally; the converged fit of lowest chi^2, and the fallback.
+#: Starts of each compensation group (light, heavy) the global stage descends, by number of
+#: majority levels (more levels, more ways to assign them; project choice, no source).
+PER_BASIN = {1: 1, 2: 3, 3: 4}
 
-    Returns ``(best, stalled, failures)``: the best converged lmfit result or None, the best
-    of those that stopped short of convergence or None, and the optimizer messages of the
-    starts that failed.
+#: Extra reach of the global stage, in chi^2 units of the residual variance: a basin whose
+#: descended chi^2 lies within DELTA_CHI2 + this of the best is refined with lmfit (its
+#: descent may have stopped short of the bottom; project choice, no source). [1]
+REACH = 6.0
+
+
+def _basins(model: CarrierModel, points: list[dict], costs: np.ndarray, low_density: float
+            ) -> tuple[list[int], list[int]]:
+    """The lowest point of each distinct basin, and every other point, each by chi^2."""
+    heads: list[int] = []
+    rest: list[int] = []
+    sigs = {}
+    for i in np.argsort(costs):
+        if not np.isfinite(costs[i]):
+            continue
+        sig = signature(model, points[i], low_density)
+        if all(distinct(sig, sigs[j]) for j in heads):
+            heads.append(int(i))
+            sigs[int(i)] = sig
+        else:
+            rest.append(int(i))
+    return heads, rest
+
+
+def _variance_unit(chi2: float, nfree: int, weighted: bool) -> float:
+    """The unit of chi^2 differences.
+
+    The stated variance (inflated by a reduced chi^2 above 1) or, unweighted, the fitted one.
+    """
+    red = chi2 / nfree if nfree > 0 else math.nan
+    if not np.isfinite(red):
+        return 1.0
+    return max(red, 1.0) if weighted else max(red, 1e-300)
+
+
+def _local_fits(problem: Problem, points: list[dict], costs: np.ndarray, fermi: np.ndarray,
+                required: list[int], spare: list[int], n_tries: int, internal_fix: dict,
+                internal_bounds: dict, weighted: bool):
+    """Refine the descended points locally with lmfit.
+
+    Every point of ``required`` (the basins within reach of the best) is refined; the points
+    of ``spare`` only while none has converged, up to ``n_tries`` fits in all.
+
+    Returns ``(best, stalled, converged, failures)``: the converged lmfit result of lowest
+    chi^2 or None, the best of those that stopped short of convergence or None, every
+    converged result, and the optimizer messages of the starts that failed.
     """
     model = problem.model
     best = None
     stalled = None  # best of the starts that stopped without converging
+    converged = []
     failures = []
-    for idx in np.argsort(costs)[:n_tries]:
-        if not np.isfinite(costs[idx]):
-            continue
-        params = lmfit_parameters(model, starts[idx], internal_fix, internal_bounds)
-        model.warm_start(start_fermi[idx])  # warm start from the global stage
+    tried = 0
+    for idx in [*required, *spare]:
+        if idx not in required and (best is not None or tried >= n_tries):
+            break
+        tried += 1
+        params = lmfit_parameters(model, points[idx], internal_fix, internal_bounds)
+        model.warm_start(fermi[idx])  # warm start from the global stage
         out = lmfit.minimize(problem.residual, params, method="leastsq",
                              scale_covar=not weighted, max_nfev=MAX_EVALUATIONS)
         if problem.type_penalty(out.params.valuesdict()) > 0 or not np.isfinite(out.chisqr):
@@ -89,13 +153,43 @@ def _local_fits(problem: Problem, starts: list[dict], costs: np.ndarray,
             if stalled is None or out.chisqr < stalled.chisqr:
                 stalled = out
             continue
+        converged.append(out)
         if best is None or out.chisqr < best.chisqr:
             best = out
-        if weighted and best.nfree > 0 and best.redchi < 2.0:
-            # consistent with the stated uncertainties: further starts cannot do better
-            # than the noise, so stop here
-            break
-    return best, stalled, failures
+    return best, stalled, converged, failures
+
+
+def _stderr(out, weighted: bool) -> dict:
+    """Standard errors of an lmfit result by internal name, inflated as reported."""
+    inflate = math.sqrt(max(out.redchi, 1.0)) if weighted and out.nfree > 0 else 1.0
+    return {n: (p.stderr * inflate if p.stderr is not None else math.nan)
+            for n, p in out.params.items()}
+
+
+def _alternatives(problem: Problem, best, converged: list, weighted: bool,
+                  low_density: float) -> list:
+    """Distinct converged solutions within delta chi^2 = 4 of the best, best first.
+
+    Their chi^2 is taken at the problem's final uncertainties (which the temperature
+    uncertainty may have changed after they were fitted).
+    """
+    model = problem.model
+    # with stated uncertainties chi^2 is in their units; unweighted, in the fitted variance
+    unit = 1.0 if weighted else _variance_unit(best.chisqr, best.nfree, weighted)
+    kept = [(best, signature(model, best.params.valuesdict(), low_density,
+                             _stderr(best, weighted)))]
+    found = []
+    for out in sorted(converged, key=lambda o: o.chisqr):
+        if out is best:
+            continue
+        chi2 = float(np.sum(problem.residual(out.params) ** 2))
+        if not chi2 - best.chisqr <= DELTA_CHI2 * unit:
+            continue
+        sig = signature(model, out.params.valuesdict(), low_density, _stderr(out, weighted))
+        if all(distinct(sig, s) for _, s in kept):
+            kept.append((out, sig))
+            found.append(alternative(model, out.params.valuesdict(), chi2, best.chisqr))
+    return found
 
 
 def fit_run(
@@ -173,16 +267,34 @@ def fit_run(
     for s in starts:
         for k, (lo, hi) in internal_bounds.items():
             s[k] = float(np.clip(s[k], lo, hi))
-    costs, start_fermi = problem.batch_cost(starts)
+    costs, _ = problem.batch_cost(starts)
+    chosen = best_per_basin(model_used, starts, costs, PER_BASIN[min(n_levels, 3)])
+    if not chosen:
+        raise FitError("no starting point gives a finite model of this carrier type")
+    points, costs, fermi, _ = descend(problem, [starts[i] for i in chosen], internal_fix,
+                                            internal_bounds)
     u_t = None
     if weighted and run.temperature_err is not None and np.any(run.temperature_err[used] > 0):
         u_t = run.temperature_err[used]
         base_sigma = sigma.copy()
-        problem.include_temperature(starts[np.argsort(costs)[0]], base_sigma, u_t)
-        costs, start_fermi = problem.batch_cost(starts)
-    best, stalled, failures = _local_fits(problem, starts, costs, start_fermi,
-                                          4 if n_levels > 1 else 3, internal_fix,
-                                          internal_bounds, weighted)
+        problem.include_temperature(points[int(np.argmin(costs))], base_sigma, u_t)
+        points, costs, fermi, _ = descend(problem, points, internal_fix, internal_bounds)
+    low_density = float(np.min(run.density[used]))
+    heads, rest = _basins(model_used, points, costs, low_density)
+    unit = _variance_unit(float(np.min(costs)), n_used - n_free, weighted)
+    reach = float(np.min(costs)) + (DELTA_CHI2 + REACH) * unit
+    # every basin within reach of the best, and the best point of each compensation group
+    # (light, heavy): a descent can settle slowly along a flat valley, lmfit goes on
+    required = [i for i in heads if costs[i] <= reach]
+    for group in (False, True):
+        members = [int(i) for i in np.argsort(costs) if np.isfinite(costs[i])
+                   and heavy_start(model_used, points[i]) == group]
+        if members and members[0] not in required:
+            required.append(members[0])
+    spare = [i for i in heads if i not in required] + rest
+    best, stalled, converged, failures = _local_fits(
+        problem, points, costs, fermi, required, spare, 4 if n_levels > 1 else 3,
+        internal_fix, internal_bounds, weighted)
     not_converged = False
     if best is None and stalled is not None and stalled.nfree > 0:
         # accept a stalled fit only if it describes the data: reduced chi^2 within what the
@@ -201,6 +313,13 @@ def fit_run(
         if again.success and not again.aborted and problem.type_penalty(
                 again.params.valuesdict()) == 0:
             best = again
+    alternatives = _alternatives(problem, best, converged, weighted, low_density)
+    # a lower chi^2 seen on the way (a descended start, or a local fit that stopped short)
+    # that the reported fit does not reach: say so rather than choose silently
+    lowest = float(np.min(costs)) if u_t is None else math.inf
+    if stalled is not None and stalled is not best:
+        lowest = min(lowest, float(stalled.chisqr))
+    missed = lowest < best.chisqr - 1e-3 * _variance_unit(best.chisqr, best.nfree, weighted)
     upper = None
     cname = model_used.compensation_name
     if model_used.compensated and cname not in internal_fix:
@@ -211,6 +330,13 @@ def fit_run(
             model_used.clear_warm_start()
     result = build_result(run, material, model, problem, best, used, weighted, internal_fix,
                           provenance or {}, upper)
-    if not_converged:
-        result = replace(result, warnings=result.warnings + (_NOT_CONVERGED,))
+    extra = [_NOT_CONVERGED] if not_converged else []
+    if missed:
+        extra.append(_MISSED.format(found=lowest, chi2=best.chisqr))
+    note = alternatives_warning(model_used, alternatives, best.chisqr)
+    if note:
+        extra.append(note)
+    if extra or alternatives:
+        result = replace(result, warnings=result.warnings + tuple(extra),
+                         alternatives=tuple(alternatives))
     return result

@@ -1,4 +1,9 @@
-"""Starting values of a fit from the data, and the grid of starts the global stage tries."""
+"""The global stage of a fit: starting values, the grid of starts, and their batched descent.
+
+The descent takes Levenberg-Marquardt steps on every start at once (one vectorized solve per
+step) and brings each start to the bottom of its chi^2 valley before lmfit refines the best
+of each basin.
+"""
 
 from __future__ import annotations
 
@@ -8,8 +13,11 @@ from collections.abc import Mapping
 import numpy as np
 
 from freezeout.fitting.model import CarrierModel
+from freezeout.fitting.parameters import lmfit_parameters
+from freezeout.fitting.problem import Problem
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
+from freezeout.physics.neutrality import BandState, solve_levels
 
 
 def guess(temperature: np.ndarray, density: np.ndarray, material: Material) -> dict:
@@ -49,8 +57,22 @@ def guess(temperature: np.ndarray, density: np.ndarray, material: Material) -> d
     return {"net_doping": net, "energy": energy, "has_freezeout": has_freezeout}
 
 
+#: Compensation ratios N_min/N_maj of the starts, spread in log from 1e-4 to 0.9, so that
+#: both the lightly and the heavily compensated basins are explored for every number of
+#: levels (project choice, no source). [1]
+COMPENSATION_RATIOS = (1e-4, 1e-3, 1e-2, 0.1, 0.3, 0.6, 0.9)
+
+#: Compensation ratio that parts the lightly from the heavily compensated starts (project
+#: choice, no source). [1]
+HEAVY_RATIO = 0.05
+
+
 def start_grid(model: CarrierModel, g: dict, fixed: Mapping[str, float]) -> list[dict]:
     """Candidate starting points (internal parameter values) around the guess.
+
+    Every energy set and split of the majority total is combined with every ratio of
+    :data:`COMPENSATION_RATIOS` (when the model is compensated); the net doping of each start
+    is the plateau guess.
 
     Parameters
     ----------
@@ -73,20 +95,193 @@ def start_grid(model: CarrierModel, g: dict, fixed: Mapping[str, float]) -> list
         w = np.geomspace(3.0, 1.0, k_levels)
         split_sets.append(tuple(w / w.sum()))
         split_sets.append(tuple(w[::-1] / w.sum()))
-    ratios = (1e-4, 1e-2, 0.2, 0.6) if model.compensated else (0.0,)
+    ratios = COMPENSATION_RATIOS if model.compensated else (0.0,)
     ms = model.major_symbol
     out = []
     for es in energy_sets:
         for split in split_sets:
             for r in ratios:
-                major_total = g["net_doping"] / (1.0 - r)
-                v = {}
-                for i in range(k_levels):
-                    v[f"log10_N_{ms}{i + 1}"] = math.log10(major_total * split[i])
-                    v[f"E_{ms}{i + 1}"] = es[i]
-                if model.compensated:
-                    v[model.compensation_name] = math.log10(max(r * major_total, 1e8))
-                out.append(v)
+                # under heavy compensation the freeze-out slope is E/k, not E/2k: the guess
+                # (uncompensated rule) is twice the energy, so those starts try half of it too
+                for scale in (1.0, 0.5) if r >= HEAVY_RATIO else (1.0,):
+                    major_total = g["net_doping"] / (1.0 - r)
+                    v = {}
+                    for i in range(k_levels):
+                        v[f"log10_N_{ms}{i + 1}"] = math.log10(major_total * split[i])
+                        v[f"E_{ms}{i + 1}"] = es[i] * scale
+                    if model.compensated:
+                        v[model.compensation_name] = math.log10(max(r * major_total, 1e8))
+                    out.append(v)
     for v in out:
         v.update(fixed)
     return out
+
+
+#: Levenberg-Marquardt steps of the global stage's batched descent, at most.
+DESCENT_STEPS = 30
+
+def batch_residuals(problem: Problem, names: list[str], theta: np.ndarray, fixed: dict,
+                     init) -> tuple[np.ndarray, np.ndarray]:
+    """Residuals of many parameter sets (rows of ``theta``) in one vectorized solve.
+
+    Rows that cannot be solved give infinite residuals; ``init`` is the starting Fermi
+    level of each row (None: cold). Returns residuals and Fermi levels, one row per set.
+    """
+    model = problem.model
+    batch = {k: theta[:, j][:, None] for j, k in enumerate(names)}
+    batch.update(fixed)
+    t, b = model.temperature, model.bands
+    bands = BandState(t[None, :], b.kt[None, :], b.band_gap[None, :], b.log_nc[None, :],
+                      b.log_nv[None, :])
+    shape = (theta.shape[0], t.size)
+    try:
+        with np.errstate(all="ignore"):
+            donors, acceptors = model.levels(batch)
+            res = solve_levels(bands, donors, acceptors, model.statistics, init)
+            r = (model.majority_log(res) - problem.y[None, :]) / problem.sigma[None, :]
+    except (RuntimeError, ValueError, FloatingPointError):
+        return np.full(shape, np.inf), np.full(shape, np.nan)
+    return np.where(np.isfinite(r), r, np.inf), res.fermi_level
+
+
+def descend(problem: Problem, starts: list[dict], internal_fix: dict, internal_bounds: dict
+             ) -> tuple[list[dict], np.ndarray, np.ndarray, np.ndarray]:
+    """Bring every start down its chi^2 valley: batched Levenberg-Marquardt steps.
+
+    All starts step together: each step solves the trial points of the whole batch and their
+    forward-difference Jacobians (warm from each start's last solve) in one vectorized solve,
+    so an accepted step already has the Jacobian of the next. A start
+    stops when a step lowers its chi^2 by less than 1e-4 relative (lmfit polishes it), when no
+    step lowers it, or when it has merged with a start of lower chi^2 (from the second step on).
+    The steps keep to the bounds of the local fit and keep the compensating species below
+    the majority total. A parameter at a bound that the gradient pushes outward is held for
+    the step. Returns the descended points, their chi^2, Fermi levels, and True for the
+    points still descending when the steps ran out.
+    """
+    model = problem.model
+    low = float(np.exp(np.min(problem.y)))
+    names = [sp.internal for sp in model.specs if sp.internal not in internal_fix]
+    fixed = {k: float(v) for k, v in internal_fix.items()}
+    bounded = lmfit_parameters(model, starts[0], internal_fix, internal_bounds)
+    lo = np.array([bounded[n].min for n in names])
+    hi = np.array([bounded[n].max for n in names])
+    major = [names.index(k) if k in names else None for k in model.major_concentration_names]
+    cname = model.compensation_name
+    comp = names.index(cname) if model.compensated and cname in names else None
+
+    def admissible(th: np.ndarray) -> np.ndarray:
+        th = np.clip(np.where(np.isfinite(th), th, 0.5 * (lo + hi)), lo, hi)
+        if comp is not None:
+            logs = [th[:, j] if j is not None else np.full(len(th), fixed[k])
+                    for j, k in zip(major, model.major_concentration_names, strict=True)]
+            cap = np.log10(np.sum(10.0 ** np.stack(logs), axis=0)) - 2e-3
+            th[:, comp] = np.minimum(th[:, comp], cap)
+        return th
+
+    n_par = len(names)
+    step_size = np.array([1e-4 if n.startswith("log10_") else 1e-5 for n in names])
+
+    def with_jacobian(th: np.ndarray, init):
+        # residuals at th and forward-difference Jacobians there, in one solve
+        h = np.where(th + step_size > hi, -step_size, step_size)
+        rows = np.concatenate([th[:, None, :], th[:, None, :] + np.eye(n_par)[None]
+                               * h[:, None, :]], axis=1).reshape(-1, n_par)
+        rr, ff = batch_residuals(problem, names, rows, fixed,
+                                 None if init is None else np.repeat(init, n_par + 1, axis=0))
+        rr = rr.reshape(len(th), n_par + 1, -1)
+        jac = (rr[:, 1:, :] - rr[:, :1, :]) / h[:, :, None]
+        c = np.sum(rr[:, 0, :] ** 2, axis=1)
+        return (rr[:, 0, :], ff.reshape(len(th), n_par + 1, -1)[:, 0, :],
+                np.where(np.isfinite(c), c, np.inf), np.where(np.isfinite(jac), jac, 0.0))
+
+    theta = admissible(np.array([[st[n] for n in names] for st in starts], dtype=float))
+    r, fermi, cost, jac = with_jacobian(theta, None)
+    lam = np.full(len(theta), 1e-3)
+    active = np.isfinite(cost)
+    for step_no in range(DESCENT_STEPS if n_par else 0):
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        th, j = theta[idx], jac[idx]
+        grad = np.einsum("kpn,kn->kp", j, r[idx])
+        # a parameter at a bound that the gradient pushes outward is held for this step
+        # (projected steps: clipping it would bend the step of the others)
+        held = (((th <= lo + 1e-9) & (grad > 0)) | ((th >= hi - 1e-9) & (grad < 0)))
+        j = np.where(held[:, :, None], 0.0, j)
+        grad = np.where(held, 0.0, grad)
+        jtj = j @ j.transpose(0, 2, 1) + held[:, :, None] * np.eye(n_par)[None]
+        diag = np.diagonal(jtj, axis1=1, axis2=2) + 1e-12
+        damped = jtj + (lam[idx, None, None] * np.eye(n_par)[None]) * diag[:, None, :]
+        try:
+            step = -np.linalg.solve(damped, grad[..., None])[..., 0]
+        except np.linalg.LinAlgError:
+            step = -grad / diag
+        # the trial point is solved with its Jacobian: accepted, the next step needs it
+        trial = admissible(th + step)
+        rt, ft, ct, jt = with_jacobian(trial, fermi[idx])
+        better = ct < cost[idx]
+        gain = cost[idx] - ct
+        done = (better & (gain <= 1e-4 * ct + 1e-12)) | (~better & (lam[idx] > 1e5))
+        upd = idx[better]
+        theta[upd], r[upd], fermi[upd] = trial[better], rt[better], ft[better]
+        cost[upd], jac[upd] = ct[better], jt[better]
+        lam[idx] = np.where(better, np.maximum(lam[idx] / 10.0, 1e-7), lam[idx] * 10.0)
+        active[idx[done]] = False
+        if step_no >= 1:
+            active &= ~_followers(model, theta, names, fixed, cost, active, low)
+    points = [dict(zip(names, map(float, row), strict=True)) | fixed for row in theta]
+    return points, cost, fermi, active
+
+
+def _followers(model: CarrierModel, theta: np.ndarray, names: list[str], fixed: dict,
+               cost: np.ndarray, active: np.ndarray, low: float) -> np.ndarray:
+    """True for the active starts that have merged with a start of lower chi^2.
+
+    Two starts have merged when every log10 concentration and log10 energy, levels sorted
+    by energy and the compensating species floored at ``low`` (the lowest majority density
+    measured [cm^-3]), agree within 0.01: from there they descend as one.
+    """
+    ms = model.major_symbol
+    rows = []
+    for row in theta:
+        v = dict(zip(names, row, strict=True)) | fixed
+        levels = sorted((v[f"E_{ms}{i}"], v[f"log10_N_{ms}{i}"])
+                        for i in range(1, model.n_levels + 1))
+        vec = [x for e, c in levels for x in (math.log10(max(e, 1e-6)), c)]
+        if model.compensated:
+            vec.append(max(v[model.compensation_name], math.log10(low)))
+        rows.append(vec)
+    rows = np.array(rows)
+    out = np.zeros(len(theta), dtype=bool)
+    leaders: list[int] = []
+    for i in (int(k) for k in np.argsort(cost) if np.isfinite(cost[k])):
+        if active[i] and any(np.max(np.abs(rows[i] - rows[j])) < 0.01 for j in leaders):
+            out[i] = True
+        else:
+            leaders.append(i)
+    return out
+
+
+def heavy_start(model: CarrierModel, values: dict) -> bool:
+    """True when internal values are heavily compensated (ratio of :data:`HEAVY_RATIO` up)."""
+    if not model.compensated:
+        return False
+    major = sum(10.0 ** values[k] for k in model.major_concentration_names)
+    return 10.0 ** values[model.compensation_name] / major >= HEAVY_RATIO
+
+
+def best_per_basin(model: CarrierModel, starts: list[dict], costs: np.ndarray, per_basin: int
+                   ) -> list[int]:
+    """Indices of the best ``per_basin`` finite starts of light and of heavy compensation.
+
+    Starts below :data:`HEAVY_RATIO` are lightly compensated, the others heavily; an
+    uncompensated model has one group. Best (lowest chi^2) first.
+    """
+    groups: dict[bool, list[int]] = {}
+    for i, st in enumerate(starts):
+        if np.isfinite(costs[i]):
+            groups.setdefault(heavy_start(model, st), []).append(i)
+    out = []
+    for members in groups.values():
+        out += sorted(members, key=lambda i: costs[i])[:per_basin]
+    return sorted(out, key=lambda i: costs[i])

@@ -10,7 +10,7 @@ import numpy as np
 from freezeout.numbers import finite_or_none
 from freezeout.physics.materials import Material
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 
 
 @dataclass(frozen=True)
@@ -210,6 +210,11 @@ class FitResult:
     error_inflation
         Factor applied to the standard errors of a weighted fit, sqrt(reduced chi^2) when
         that exceeds 1, else 1. [1]
+    alternatives
+        Distinct solutions (another compensation basin or level assignment) within delta
+        chi^2 = 4 of this one, best first
+        (:class:`freezeout.fitting.alternatives.Alternative`); empty when the data single
+        out one.
     raw
         The lmfit MinimizerResult of the retained start (not serialized).
     """
@@ -236,6 +241,7 @@ class FitResult:
     fixed: dict = field(default_factory=dict)
     optimizer_message: str = ""
     error_inflation: float = 1.0
+    alternatives: tuple = ()
     raw: Any = field(default=None, repr=False, compare=False)
 
     def to_dict(self) -> dict:
@@ -256,6 +262,7 @@ class FitResult:
             "correlation": {"parameters": list(self.parameter_names), "matrix": corr},
             "fixed": {k: finite_or_none(v) for k, v in self.fixed.items()},
             "warnings": list(self.warnings),
+            "alternatives": [alt.to_dict() for alt in self.alternatives],
             "hall_factor": self.hall_factor,
             "material": self.material.to_dict(),
             "provenance": self.provenance,

@@ -71,6 +71,26 @@ def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
     return out
 
 
+def _alternatives_html(alternatives: list[dict]) -> str:
+    """The table of distinct solutions that fit almost as well (empty when there are none)."""
+    if not alternatives:
+        return ""
+    esc = html.escape
+    names = list(alternatives[0]["parameters"])
+    head = "".join(f"<th>{esc(n)}</th>" for n in names)
+    rows = "".join(
+        "<tr>" + "".join(f"<td class=num>{_fmt(a['parameters'].get(n))}</td>" for n in names)
+        + f"<td class=num>{_fmt(a['compensation_ratio'], '', 3)}</td>"
+        f"<td class=num>{_fmt(a['net_doping_cm3'], 'cm⁻³')}</td>"
+        f"<td class=num>{_fmt(a['chi2'])}</td><td class=num>{_fmt(a['delta_chi2'], '', 3)}</td>"
+        "</tr>" for a in alternatives)
+    return ("<h2>Alternative solutions</h2><p>Distinct solutions (another compensation basin "
+            "or level assignment) whose χ² lies within Δχ² = 4 of the fit above: the data "
+            "cannot tell them apart.</p>"
+            f"<table><tr>{head}<th>K</th><th>N_net</th><th>χ²</th><th>Δχ²</th></tr>{rows}"
+            "</table>")
+
+
 def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str:
     """The report page with figures embedded as data URIs."""
     d = result.to_dict()
@@ -151,6 +171,7 @@ parameters</p>
 <th>95 % interval</th></tr>{''.join(rows)}</table>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}</p>
+{_alternatives_html(d.get("alternatives") or [])}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
 {quality}
