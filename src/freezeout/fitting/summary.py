@@ -14,6 +14,7 @@ from scipy import stats
 
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, pow10, to_public
+from freezeout.fitting.plateau import plateau_net_doping
 from freezeout.fitting.problem import Problem
 from freezeout.fitting.result import Estimate, FitData, FitResult, LevelEstimate
 from freezeout.fitting.warnings import fit_warnings
@@ -48,35 +49,6 @@ def estimate_linear(value: float, se: float, tq: float, lower: float | None = No
     if lower is not None and ok:
         ci = (max(ci[0], lower), ci[1])
     return Estimate(value, se if np.isfinite(se) else math.nan, ci)
-
-
-def plateau_net_doping(problem: Problem, res, weighted: bool, scale: float
-                       ) -> tuple[float, int]:
-    """Standard error of the net doping from the saturation plateau alone.
-
-    Where every majority level is at least 99 % ionized and the minority carriers are below
-    1 % of the majority, n (or p) equals |N_D - N_A|: the net doping is then the weighted
-    mean of those points, determined even when the levels themselves are not. Returns the
-    standard error of that mean (inflated by the scatter when it exceeds the stated
-    uncertainties, and with the common scale uncertainty) and the number of points; NaN when
-    fewer than two points qualify.
-    """
-    model = problem.model
-    major_ion = model.majority_ionized(res)
-    ionized = np.all(np.stack(major_ion) >= 0.99, axis=0) if major_ion else True
-    plateau = ionized & (model.minority_log(res) - model.majority_log(res) < math.log(0.01))
-    k = int(np.sum(plateau))
-    if k < 2:
-        return math.nan, k
-    y = np.exp(problem.y[plateau])
-    s = problem.sigma[plateau] * y if weighted else np.full(k, np.std(y, ddof=1))
-    w = 1.0 / s**2
-    mean = float(np.sum(w * y) / np.sum(w))
-    se = float(math.sqrt(1.0 / np.sum(w)))
-    chi2 = float(np.sum(w * (y - mean) ** 2)) / (k - 1)
-    if weighted and chi2 > 1.0:
-        se *= math.sqrt(chi2)
-    return math.hypot(se, scale * mean), k
 
 
 def information_criteria(out, weighted: bool) -> tuple[float, float]:
@@ -212,17 +184,22 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
 
     net = n_maj - n_min
     net_se = math.hypot(propagate(grad_net), scale * net)
-    plateau_note = None
-    if not (np.isfinite(net_se) and net_se < 0.1 * net):
-        # the levels are under-determined (no freeze-out): the plateau still pins N_net
-        res_used = model_used.solve(params.valuesdict(), warm=model_used.warm_fermi is not None)
-        se_plateau, k_plateau = plateau_net_doping(problem, res_used, weighted, scale)
-        if np.isfinite(se_plateau) and not (np.isfinite(net_se) and net_se < se_plateau):
-            net_se = se_plateau
-            plateau_note = (f"the net doping and its uncertainty come from the saturation "
-                            f"plateau ({k_plateau} points where the levels are fully ionized), "
-                            "which determines N_D - N_A even where the levels are not")
     net_est = estimate_linear(net, net_se, tq, lower=0.0)
+    plateau_note = None
+    res_used = model_used.solve(params.valuesdict(), warm=model_used.warm_fermi is not None)
+    cold = int(np.argmin(model_used.temperature))
+    no_freezeout = any(c * (1.0 - float(ion[cold])) < 0.1 * min(net, c)
+                       for c, ion in zip(maj, model_used.majority_ionized(res_used),
+                                         strict=True))
+    if no_freezeout or not (np.isfinite(net_se) and net_se < 0.1 * net):
+        # the levels are under-determined (no freeze-out): a flat plateau still pins N_net,
+        # value and interval both (fitting/plateau.py); points that rise are no plateau
+        plateau = plateau_net_doping(problem, res_used, weighted, scale)
+        if plateau is not None and not plateau.flat:
+            plateau_note = plateau.note()
+        elif plateau is not None and not (np.isfinite(net_se) and net_se < plateau.stderr):
+            net_est = Estimate(plateau.value, plateau.stderr, plateau.ci95)
+            plateau_note = plateau.note()
     if model_used.compensated:
         k = n_min / n_maj
         se_lnk = propagate(grad_lnk)
