@@ -33,6 +33,8 @@ FAMILIES = [
     ("mobility", "m^2/(V s)", "metre^2 per volt second", 1e4, 2),
     ("resistivity", "ohm cm", "ohm centimetre", 1.0, 1),
     ("resistivity", "ohm m", "ohm metre", 100.0, 1),
+    ("conductivity", "S/cm", "siemens per centimetre", 1.0, 1),
+    ("conductivity", "S/m", "siemens per metre", 1e-2, 1),
     ("field", "T", "tesla", 1.0, 1),
     ("field", "G", "gauss", 1e-4, 1),
     ("current", "A", "ampere", 1.0, 1),
@@ -56,6 +58,11 @@ ACCEPTED = {
     ("resistivity", "µohm m"): 1e-4, ("resistivity", "uohm m"): 1e-4,
     ("resistivity", "mohm m"): 0.1, ("resistivity", "kohm m"): 1e5,
     ("resistivity", "Mohm m"): 1e8, ("resistivity", "Gohm m"): 1e11,
+    ("conductivity", "nS/cm"): 1e-9, ("conductivity", "µS/cm"): 1e-6,
+    ("conductivity", "uS/cm"): 1e-6, ("conductivity", "mS/cm"): 1e-3,
+    ("conductivity", "kS/cm"): 1e3, ("conductivity", "nS/m"): 1e-11,
+    ("conductivity", "µS/m"): 1e-8, ("conductivity", "uS/m"): 1e-8,
+    ("conductivity", "mS/m"): 1e-5, ("conductivity", "kS/m"): 10.0,
     ("field", "mT"): 1e-3, ("field", "µT"): 1e-6, ("field", "uT"): 1e-6, ("field", "kG"): 0.1,
     ("current", "mA"): 1e-3, ("current", "µA"): 1e-6, ("current", "uA"): 1e-6,
     ("current", "nA"): 1e-9, ("current", "pA"): 1e-12,
@@ -120,6 +127,12 @@ def test_every_prefix_in_both_cases(dim, spelling, written, family):
     ("density", "cm-3", 1.0, 0.0), ("density", "1/cm3", 1.0, 0.0), ("density", "/cm3", 1.0, 0.0),
     ("density", "cm⁻³", 1.0, 0.0), ("density", "CM^-3", 1.0, 0.0), ("density", "m^-3", 1e-6, 0.0),
     ("hall_coefficient", "cm3/C", 1.0, 0.0), ("hall_coefficient", "m^3/C", 1e6, 0.0),
+    ("hall_coefficient", "m^3 C^-1", 1e6, 0.0), ("hall_coefficient", "cm^3 C^-1", 1.0, 0.0),
+    ("conductivity", "S/cm", 1.0, 0.0), ("conductivity", "S cm^-1", 1.0, 0.0),
+    ("conductivity", "1/(ohm cm)", 1.0, 0.0), ("conductivity", "(Ohm cm)^-1", 1.0, 0.0),
+    ("conductivity", "ohm^-1 cm^-1", 1.0, 0.0), ("conductivity", "1/Ohm-cm", 1.0, 0.0),
+    ("conductivity", "S/m", 0.01, 0.0), ("conductivity", "1/(ohm m)", 0.01, 0.0),
+    ("conductivity", "s/cm", 1.0, 0.0),  # one reading: siemens
     ("mobility", "cm2/Vs", 1.0, 0.0), ("mobility", "cm^2/(V s)", 1.0, 0.0),
     ("mobility", "cm2V-1s-1", 1.0, 0.0), ("mobility", "cm^2 V^-1 s^-1", 1.0, 0.0),
     ("mobility", "m^2/(V s)", 1e4, 0.0),
@@ -173,6 +186,9 @@ def test_accepted_spellings(dim, spelling, factor, offset):
     ("mobility", "mm^2/(V s)", "millimetre^2 per volt second"),
     ("energy", "MeV", "megaelectronvolt"), ("energy", "keV", "kiloelectronvolt"),
     ("energy", "mev", "ambiguous"),
+    ("conductivity", "MS/cm", "megasiemens per centimetre"),
+    ("conductivity", "ms/cm", "ambiguous"),  # mS/cm or MS/cm?
+    ("conductivity", "ohm cm", "unknown unit"),  # a resistivity is not a conductivity
 ])
 def test_refused_spellings_with_their_reason(dim, spelling, reason):
     with pytest.raises(ValueError) as info:

@@ -1,6 +1,7 @@
 """Units at the edge of the package: parsing column headers and converting to canonical units.
 
-Canonical units inside freezeout: K, eV, cm^-3, cm^2/(V s), ohm cm, cm^3/C, T, A, V, cm.
+Canonical units inside freezeout: K, eV, cm^-3, cm^2/(V s), ohm cm, S/cm, cm^3/C, T, A, V,
+cm.
 This is the only module that knows about other units; readers call :func:`parse_unit`.
 
 Case carries meaning. The SI prefixes are read exactly as written (``m`` milli, ``M`` mega;
@@ -17,6 +18,7 @@ megakelvin, 1e6 K: refused as absurd), not guessed at.
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from dataclasses import dataclass
@@ -55,6 +57,8 @@ _BASES: dict[str, tuple[_Base, ...]] = {
     "mobility": (_Base("m^2/(Vs)", "m^2/(V s)", "metre^2 per volt second", 4, power=2),),
     "resistivity": (_Base("ohmcm", "ohm cm", "ohm centimetre", 0, variants=("Ohmcm",)),
                     _Base("ohmm", "ohm m", "ohm metre", 2, variants=("Ohmm",))),
+    "conductivity": (_Base("S/cm", "S/cm", "siemens per centimetre", 0),
+                     _Base("S/m", "S/m", "siemens per metre", -2)),
     "field": (_Base("T", "T", "tesla", 0), _Base("G", "G", "gauss", -4)),
     "current": (_Base("A", "A", "ampere", 0),),
     "voltage": (_Base("V", "V", "volt", 0),),
@@ -71,6 +75,7 @@ _BASES: dict[str, tuple[_Base, ...]] = {
 ACCEPTED: dict[str, str | tuple[str, ...]] = {
     "K": ("m", "u"), "m^-3": ("c", "m", "u", "n"), "m^3/C": ("c",), "m^2/(Vs)": ("c",),
     "ohmcm": ("u", "m", "k", "M", "G"), "ohmm": ("u", "m", "k", "M", "G"),
+    "S/cm": ("n", "u", "m", "k"), "S/m": ("n", "u", "m", "k"),
     "T": ("m", "u"), "G": ("k",), "A": ("m", "u", "n", "p"), "V": ("m", "u", "n"),
     "m": ("d", "c", "m", "u", "n"), "eV": ("m",),
 }
@@ -81,6 +86,7 @@ CANONICAL = {
     "hall_coefficient": "cm^3/C",
     "mobility": "cm^2/(V s)",
     "resistivity": "ohm cm",
+    "conductivity": "S/cm",
     "field": "T",
     "current": "A",
     "voltage": "V",
@@ -153,7 +159,9 @@ def normalize_unit(unit: str) -> str:
 
     ``"cm-3"``, ``"cm^-3"``, ``"1/cm3"``, ``"cm⁻³"`` all become ``"cm^-3"``; ``"Ω·cm"``,
     ``"ohm*cm"``, ``"Ohm-cm"`` become ``"ohmcm"`` (``"Ohm"`` is kept as ``"Ohmcm"``);
-    ``"µA"`` becomes ``"uA"``; ``"°C"`` becomes ``"degC"``.
+    ``"µA"`` becomes ``"uA"``; ``"°C"`` becomes ``"degC"``; ``"m^3 C^-1"`` becomes
+    ``"m^3/C"``; ``"1/(ohm cm)"``, ``"(Ohm cm)^-1"``, ``"ohm^-1 cm^-1"`` and ``"S cm^-1"``
+    become ``"S/cm"``.
     """
     u = unit.strip()
     u = u.replace("⁻", "-").replace("³", "3").replace("²", "2").replace("¹", "1")
@@ -168,7 +176,13 @@ def normalize_unit(unit: str) -> str:
     if m:
         return f"{m.group(1)}^-3"
     u = re.sub(r"^(\w*[mM])\^?\(?-3\)?$", r"\1^-3", u, flags=re.ASCII)
-    u = re.sub(r"^(\w*[mM])\^?3/([Cc])$", r"\1^3/\2", u, flags=re.ASCII)
+    u = re.sub(r"^(\w*[mM])\^?3(?:/([Cc])|([Cc])\^?-1)$",
+               lambda m: f"{m.group(1)}^3/{m.group(2) or m.group(3)}", u, flags=re.ASCII)
+    # conductivity: 1/(ohm cm), (ohm cm)^-1, ohm^-1 cm^-1 -> S/cm; S cm^-1 -> S/cm
+    u = re.sub(r"^(?:1?/\(?[Oo]hm(c?m)\)?|\([Oo]hm(c?m)\)\^?-1|[Oo]hm\^?-1(c?m)\^?-1)$",
+               lambda m: "S/" + next(g for g in m.groups() if g is not None), u,
+               flags=re.ASCII)
+    u = re.sub(r"^([a-zA-Z]?S)(c?m)\^?-1$", r"\1/\2", u, flags=re.ASCII)
     # mobility spellings: cm2/Vs, cm^2/(V s), cm2V-1s-1, cm^2 V^-1 s^-1
     m = re.fullmatch(r"(\w*[mM])\^?2(?:/\(?([Vv])([Ss])\)?|/([Vv])/([Ss])|([Vv])\^?-1([Ss])\^?-1)",
                      u, flags=re.ASCII)
@@ -250,6 +264,12 @@ def parse_unit(unit: str, dimension: str) -> Unit:
         an SI prefix the quantity is never written in (``MK``: too large, refused), or is
         written in a case that leaves two readings (``mk``: mK or MK).
     """
+    return _parse_unit(unit, dimension)
+
+
+@functools.lru_cache(maxsize=4096)
+def _parse_unit(unit: str, dimension: str) -> Unit:
+    """:func:`parse_unit`, remembered: a file repeats its spellings (a ``Unit`` is frozen)."""
     table = _TABLES[dimension]
     what = dimension.replace("_", " ")
     key = normalize_unit(unit)
