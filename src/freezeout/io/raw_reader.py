@@ -13,22 +13,28 @@ contact configurations, and the grouping by set point, are the reduction's
 
 from __future__ import annotations
 
+import codecs
 import csv
 import math
+import os
 import re
+import stat
 
 import numpy as np
 
 from freezeout.errors import InputError
-from freezeout.io.text_file import read_text_lines
+from freezeout.io.run_columns import header_names_run
+from freezeout.io.table_reader import column_numbers, earliest, read_table
 from freezeout.numbers.cells import parse_number_cell
 from freezeout.numbers.digest import sha256_bytes
-from freezeout.numbers.units import parse_unit, split_header
+from freezeout.numbers.units import CANONICAL, parse_unit, split_header
 from freezeout.records.readings import RawTable
 
 __all__ = [
     "GEOMETRY_NAMES",
     "RAW_COLUMNS",
+    "RAW_TEMPERATURE_RANGE",
+    "header_names_raw",
     "is_raw_file",
     "parse_length",
     "read_raw",
@@ -49,6 +55,10 @@ RAW_COLUMNS: dict[str, str] = {
 _DIMENSION = {"temperature": "temperature", "field": "field", "current": "current",
               "voltage": "voltage"}
 _CONTACT_ROLES = ("i_plus", "i_minus", "v_plus", "v_minus")
+_SNIFF_BYTES = 65536
+
+#: Temperatures read as such (project choice, no source): 0.1 K to 5000 K after conversion.
+RAW_TEMPERATURE_RANGE = (0.1, 5000.0)
 
 #: Accepted spellings of the ``# geometry:`` value -> geometry name.
 GEOMETRY_NAMES: dict[str, str] = {
@@ -112,10 +122,6 @@ def parse_length(text: str, what: str = "length") -> tuple[float, float]:
     return float(value), float(err)
 
 
-def _header_fields(line: str) -> list[str]:
-    return next(csv.reader([line]))
-
-
 def _column_key(name: str) -> str | None:
     key = name.strip()
     for col in RAW_COLUMNS:
@@ -124,8 +130,21 @@ def _column_key(name: str) -> str | None:
     return None
 
 
+def _names(cells) -> set[str | None]:
+    return {_column_key(split_header(h)[0]) for h in cells}
+
+
+def header_names_raw(cells: list[str]) -> bool:
+    """Whether a row is a raw file's header: ``T`` and at least two contact columns."""
+    names = _names(cells)
+    return "T" in names and len(names & {"I+", "I-", "V+", "V-"}) >= 2
+
+
 def is_raw_file(path) -> bool:
-    """Tell whether a file looks like a raw-readings CSV (cheap: reads the header only).
+    """Tell whether a file looks like a raw-readings CSV (cheap: reads the head only).
+
+    Only a regular file is opened (a pipe or a device is not a raw file, and its reader
+    refuses it).
 
     Parameters
     ----------
@@ -135,21 +154,32 @@ def is_raw_file(path) -> bool:
     Returns
     -------
     bool
-        True when the first non-comment line has ``I+``, ``I-``, ``V+`` and ``V-`` columns.
+        True when the first row, after any preamble, that names columns has ``I+``, ``I-``,
+        ``V+`` and ``V-`` columns.
     """
     try:
-        with open(path, encoding="utf-8", errors="replace", newline="") as fh:
-            for _ in range(500):
-                line = fh.readline()
-                if not line:
-                    return False
-                text = line.strip()
-                if not text or text.startswith("#"):
-                    continue
-                names = {_column_key(split_header(h)[0]) for h in _header_fields(text)}
-                return {"I+", "I-", "V+", "V-"} <= names
-    except (OSError, csv.Error, UnicodeError):
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            return False
+        with open(path, "rb") as fh:
+            head = fh.read(_SNIFF_BYTES)
+    except (OSError, ValueError):
         return False
+    enc = "utf-16" if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)) else "utf-8-sig"
+    text = head.decode(enc, errors="replace")
+    for line in text.splitlines()[:500]:
+        s = line.strip()
+        if not s or s.startswith("#"):
+            continue
+        sep = max((",", ";", "\t"), key=s.count)
+        try:
+            cells = next(csv.reader([s], delimiter=sep))
+        except (csv.Error, StopIteration):
+            continue
+        names = _names(cells)
+        if {"I+", "I-", "V+", "V-"} <= names:
+            return True
+        if header_names_run(cells):
+            return False
     return False
 
 
@@ -209,6 +239,11 @@ def _reading_value(cell: str, file: str, line: int, column: str) -> float:
 def read_raw(path, *, thickness=None) -> RawTable:
     """Read and convert a raw-readings CSV (no grouping, no check of the configurations).
 
+    The file is read by :func:`freezeout.io.table_reader.read_table`: a regular file of at
+    most 50 MB and :data:`~freezeout.io.table_reader.MAX_ROWS` lines, any preamble before the
+    header kept as metadata, ``,`` ``;`` or tab separators, decimal commas with ``;`` or tab,
+    units in the header or on a units row under it.
+
     Parameters
     ----------
     path
@@ -226,96 +261,65 @@ def read_raw(path, *, thickness=None) -> RawTable:
     Raises
     ------
     InputError
-        Naming file, line and column, for: unreadable or empty files, a missing column, an
-        unknown unit, a truncated row, a value that is not a finite number, a duplicate
+        Naming file, line and column, for: unreadable, non-regular, too large or empty
+        files, a missing column, an unknown unit, a truncated row, a value that is not a
+        finite number, a temperature outside 0.1 K to 5000 K after conversion, a duplicate
         row, unknown geometry, a missing or unreadable thickness (or Hall bar width and
         spacing).
     """
     file = str(path)
-    raw_bytes, lines = read_text_lines(path)
-
-    meta_lines: dict[str, tuple[str, int]] = {}
-    header: list[str] | None = None
-    header_line = 0
+    table = read_table(path, is_header=header_names_raw, what="raw-readings file")
+    header = list(table.header)
+    number = table.header_line
+    meta_lines = _metadata_lines(table)
     index: dict[str, int] = {}
     units = {}
-    cells: dict[str, list] = {role: [] for role in RAW_COLUMNS.values()}
-    row_lines: list[int] = []
-    seen_rows: dict[tuple[str, ...], int] = {}
-    for number, line in enumerate(lines, start=1):
-        stripped = line.strip()
-        if not stripped:
+    for pos, title in enumerate(header):
+        name, unit = split_header(title)
+        key = _column_key(name)
+        if key is None:
             continue
-        if stripped.startswith("#"):
-            body = stripped.lstrip("#").strip()
-            if ":" in body and header is None:
-                key, _, value = body.partition(":")
-                key = key.strip().lower().replace(" ", "_").replace("-", "_")
-                if key in meta_lines and key in ("thickness", "thickness_uncertainty",
-                                                 "geometry", "width", "spacing", "sample"):
-                    raise InputError(f"metadata {key!r} given twice (first on line "
-                                     f"{meta_lines[key][1]})", file=file, line=number,
-                                     column=key)
-                meta_lines[key] = (value.strip(), number)
+        if key in index:
+            raise InputError(f"column {key!r} appears twice", file=file, line=number,
+                             column=title.strip())
+        index[key] = pos
+        role = RAW_COLUMNS[key]
+        if role in _DIMENSION:
+            if unit is None:
+                raise InputError(f"column {key!r} needs a unit in brackets, e.g. "
+                                 f"'{key} [{_example_unit(role)}]'", file=file,
+                                 line=table.unit_lines[pos], column=title.strip())
+            try:
+                units[role] = parse_unit(unit, _DIMENSION[role])
+            except ValueError as exc:
+                raise InputError(str(exc), file=file, line=table.unit_lines[pos],
+                                 column=title.strip()) from None
+    missing = [c for c in RAW_COLUMNS if c not in index]
+    if missing:
+        raise InputError(f"missing column(s) {', '.join(missing)}; a raw file needs "
+                         f"{', '.join(RAW_COLUMNS)}", file=file, line=number,
+                         column=missing[0])
+    if table.n_rows == 0:
+        raise InputError("no readings after the header", file=file, line=number)
+    cells: dict[str, np.ndarray] = {}
+    errors = [_width_error(table), _duplicate_error(table, index)]
+    for key, pos in index.items():
+        role = RAW_COLUMNS[key]
+        title = header[pos].strip()
+        if role in _CONTACT_ROLES:
+            cells[role] = table.cells[pos].str.strip().to_numpy(dtype=str)
             continue
-        if header is None:
-            header, header_line = _header_fields(stripped), number
-            for pos, title in enumerate(header):
-                name, unit = split_header(title)
-                key = _column_key(name)
-                if key is None:
-                    continue
-                if key in index:
-                    raise InputError(f"column {key!r} appears twice", file=file, line=number,
-                                     column=title.strip())
-                index[key] = pos
-                role = RAW_COLUMNS[key]
-                if role in _DIMENSION:
-                    if unit is None:
-                        raise InputError(f"column {key!r} needs a unit in brackets, e.g. "
-                                         f"'{key} [{_example_unit(role)}]'", file=file,
-                                         line=number, column=title.strip())
-                    try:
-                        units[role] = parse_unit(unit, _DIMENSION[role])
-                    except ValueError as exc:
-                        raise InputError(str(exc), file=file, line=number,
-                                         column=title.strip()) from None
-            missing = [c for c in RAW_COLUMNS if c not in index]
-            if missing:
-                raise InputError(f"missing column(s) {', '.join(missing)}; a raw file needs "
-                                 f"{', '.join(RAW_COLUMNS)}", file=file, line=number,
-                                 column=missing[0])
-            continue
-        fields = next(csv.reader([stripped]))
-        if len(fields) != len(header):
-            where = header[len(fields)].strip() if len(fields) < len(header) else len(fields)
-            raise InputError(f"row has {len(fields)} fields, the header has {len(header)}"
-                             + (" (truncated file?)" if len(fields) < len(header) else ""),
-                             file=file, line=number, column=where)
-        signature = tuple(fields[pos].strip() for pos in index.values())
-        if signature in seen_rows:
-            raise InputError(f"duplicate row: identical to line {seen_rows[signature]} in "
-                             "every column (repeated readings differ at least in the last "
-                             "digit; remove the copy)", file=file, line=number,
-                             column=header[index["V"]].strip())
-        seen_rows[signature] = number
-        for key, pos in index.items():
-            role = RAW_COLUMNS[key]
-            cell = fields[pos].strip()
-            title = header[pos].strip()
-            if role in _CONTACT_ROLES:
-                cells[role].append(cell)
-                continue
-            value = _reading_value(cell, file, number, title)
-            cells[role].append(units[role].to_canonical(value))
-        row_lines.append(number)
-    if header is None:
-        raise InputError("no header line: the file is empty or holds only comments",
-                         file=file)
-    if not row_lines:
-        raise InputError("no readings after the header", file=file, line=header_line)
+        values, problem = column_numbers(
+            table, pos, lambda cell, line, title=title: _reading_value(cell, file, line, title))
+        with np.errstate(over="ignore", invalid="ignore"):
+            cells[role] = units[role].to_canonical(values)
+        errors.append(problem if problem is not None
+                      else _range_error(table, pos, role, cells[role]))
+    earliest(errors)
 
     metadata = {k: v for k, (v, _) in meta_lines.items()}
+    if table.preamble:
+        metadata.setdefault("preamble", " | ".join(text for _, text in table.preamble))
     geometry = "van-der-pauw"
     if "geometry" in meta_lines:
         g_text, g_line = meta_lines["geometry"]
@@ -339,12 +343,12 @@ def read_raw(path, *, thickness=None) -> RawTable:
                                  f"'# {key}: 1 mm')", file=file)
             extra[key], extra[f"{key}_err"] = value, err
     columns = {role: header[index[key]].strip() for key, role in RAW_COLUMNS.items()}
-    metadata["raw_sha256"] = sha256_bytes(raw_bytes)
+    metadata["raw_sha256"] = sha256_bytes(table.data)
     return RawTable(
         source=file,
         **{role: np.asarray(cells[role], dtype=float) for role in _DIMENSION},
         **{role: np.asarray(cells[role], dtype=str) for role in _CONTACT_ROLES},
-        line=np.asarray(row_lines, dtype=int),
+        line=np.asarray(table.lines, dtype=int),
         thickness=t_value,
         thickness_err=t_err,
         geometry=geometry,
@@ -352,6 +356,81 @@ def read_raw(path, *, thickness=None) -> RawTable:
         columns=columns,
         **extra,
     )
+
+
+_UNIQUE_KEYS = ("thickness", "thickness_uncertainty", "geometry", "width", "spacing", "sample")
+
+
+def _metadata_lines(table) -> dict[str, tuple[str, int]]:
+    """``key -> (value, line)`` of the metadata before the header; key lines given once."""
+    meta_lines: dict[str, tuple[str, int]] = {}
+    for raw_key, value, line, _ in table.metadata:
+        key = raw_key.strip().lower().replace(" ", "_").replace("-", "_")
+        if key in meta_lines and key in _UNIQUE_KEYS:
+            raise InputError(f"metadata {key!r} given twice (first on line "
+                             f"{meta_lines[key][1]})", file=table.source, line=line,
+                             column=key)
+        meta_lines[key] = (value, line)
+    return meta_lines
+
+
+def _width_error(table):
+    """The first row with fewer cells than the header (or extra cells that are not empty)."""
+    n = len(table.header)
+    short = np.flatnonzero(table.widths < n)
+    extra = np.zeros(table.n_rows, dtype=bool)
+    if table.cells.shape[1] > n:
+        extra = table.cells.iloc[:, n:].apply(lambda c: c.str.strip() != "").any(
+            axis=1).to_numpy()
+    bad = np.flatnonzero((table.widths < n) | extra)
+    if not bad.size:
+        return None
+    i = int(bad[0])
+    width = int(table.widths[i])
+    where = table.header[width].strip() if short.size and short[0] == i else width
+    return i, InputError(f"row has {width} fields, the header has {n}"
+                         + (" (truncated file?)" if width < n else ""), file=table.source,
+                         line=int(table.lines[i]), column=where)
+
+
+def _duplicate_error(table, index):
+    """A row identical to an earlier one in every column read (a copy)."""
+    sub = table.cells[list(index.values())].apply(lambda c: c.str.strip())
+    dup = sub.duplicated(keep="first").to_numpy()
+    if not dup.any():
+        return None
+    i = int(np.flatnonzero(dup)[0])
+    first = int(np.flatnonzero((sub == sub.iloc[i]).all(axis=1).to_numpy())[0])
+    return i, InputError(f"duplicate row: identical to line {int(table.lines[first])} in "
+                         "every column (repeated readings differ at least in the last "
+                         "digit; remove the copy)", file=table.source,
+                         line=int(table.lines[i]), column=table.header[index["V"]].strip())
+
+
+def _range_error(table, pos, role, values):
+    """The first value not finite after conversion, or a temperature out of its range."""
+    title = table.header[pos].strip()
+
+    def err(i, message):
+        return int(i), InputError(message, file=table.source, line=int(table.lines[i]),
+                                  column=title)
+
+    bad = np.flatnonzero(~np.isfinite(values))
+    if bad.size:
+        return err(bad[0], f"{table.cells[pos].iloc[bad[0]].strip()} becomes infinite on "
+                           f"conversion to {CANONICAL[_DIMENSION[role]]}; check the unit")
+    if role != "temperature":
+        return None
+    lo, hi = RAW_TEMPERATURE_RANGE
+    bad = np.flatnonzero((values < lo) | (values > hi))
+    if not bad.size:
+        return None
+    v = values[bad[0]]
+    if v <= 0:
+        return err(bad[0], f"temperature {v:g} K is not above absolute zero")
+    return err(bad[0], f"temperature {table.cells[pos].iloc[bad[0]].strip()} ({v:.4g} K) "
+                       f"is outside the range {lo:g} K to {hi:g} K of a measurement; check "
+                       "its unit")
 
 
 def _example_unit(role: str) -> str:

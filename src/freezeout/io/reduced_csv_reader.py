@@ -1,32 +1,46 @@
-"""Reader of reduced temperature runs from CSV files into a :class:`RunData`.
+"""Reader of reduced temperature runs (CSV files, or a DataFrame) into a :class:`RunData`.
 
-A run file has ``#`` comment lines (``# key: value`` pairs kept as provenance), one header row
-whose names carry units, and one row per temperature. Recognised columns (any order, case and
-spacing free; the unit in brackets or parentheses, or after a final underscore):
+A run file may open with an instrument preamble (``key: value`` or free-text lines, with or
+without ``#``; kept as metadata), then has one header row whose names carry units (or a
+units row right under it), and one row per temperature. Separators ``,``, ``;`` or tab;
+with ``;`` or tab, decimal commas are read (``400,000`` is 400.0). Encodings UTF-8 (with or
+without byte-order mark), UTF-16 with byte-order mark, else Windows-1252/Latin-1 with a
+note. Recognised columns (any order, case and spacing free; the unit in brackets or
+parentheses, after a final underscore, or on the units row):
 
 =================  ==========================================  ============================
 quantity           names                                       units
 =================  ==========================================  ============================
 temperature        T, Temperature, Temp                        K, mK, degC
-carrier density    n, p, carrier density, density, n_H, p_H    cm^-3, m^-3
-Hall coefficient   R_H, RH, Hall coefficient                   cm^3/C, m^3/C
-Hall mobility      mu, mu_H, mobility, Hall mobility           cm^2/(V s), m^2/(V s)
-resistivity        rho, resistivity                            ohm cm, ohm m, mohm cm
+carrier density    n, p, carrier density, density, n_H, p_H    cm^-3, m^-3, 1/cm3
+Hall coefficient   R_H, RH, Hall coefficient                   cm^3/C, cm3/C, m^3/C, m^3 C^-1
+Hall mobility      mu, mu_H, mobility, Hall mobility           cm^2/(V s), cm^2/Vs, m^2/(V s)
+resistivity        rho, resistivity                            ohm cm, Ohm-cm, ohm m, mohm cm
+conductivity       sigma, conductivity                         S/cm, S/m, mS/cm, 1/(ohm cm)
 uncertainty        <name>_err, <name>_error, <name>_unc, <name>_sigma, <name>_std
 flags              flags                                       (data-quality codes)
 =================  ==========================================  ============================
 
-A density column is a Hall density 1/(q |R_H|) unless a ``# hall_factor: X`` line says it was
-computed with r_H = X; the fit's Hall factor rescales it. Columns not listed are ignored
-(and named in the run's notes). The reduced CSV that ``freezeout reduce`` writes
-(:mod:`freezeout.io.reduced_csv_writer`) is one such file.
+A conductivity column gives the resistivity rho = 1/sigma (its uncertainty
+u(rho) = u(sigma)/sigma^2) unless a resistivity column is also given.
+
+Precedence of density and Hall coefficient: when both columns are present the **density
+column is used** for the fit and the Hall coefficient only gives each point's carrier type
+(its sign); where they disagree beyond their uncertainties (three combined standard
+uncertainties; 1 % without uncertainties) the run's notes say so. A density column is a Hall
+density r_H/(q |R_H|) with r_H = 1 unless a ``# hall_factor: X`` line says it was computed
+with r_H = X; the fit's Hall factor rescales it.
+
+Columns the fit does not use are left out and listed (:attr:`RunData.ignored_columns` and a
+note with the reason): unknown names, and transport columns (resistivity, conductivity,
+mobility) whose unit cannot be read. Values are checked after conversion to canonical
+units: temperatures from 0.1 K to 5000 K, finite uncertainties. The reduced CSV that
+``freezeout reduce`` writes (:mod:`freezeout.io.reduced_csv_writer`) is one such file.
+Limits: :data:`MAX_RUN_POINTS` rows and 50 MB, checked before parsing.
 """
 
 from __future__ import annotations
 
-import csv
-import io
-import re
 from pathlib import Path
 
 import numpy as np
@@ -34,108 +48,48 @@ import numpy as np
 from freezeout.errors import InputError
 from freezeout.io.raw_reader import parse_length
 from freezeout.io.reduced_csv_layout import severe_from_flags
-from freezeout.io.text_file import read_text_lines
-from freezeout.numbers.cells import is_missing, parse_number_cell
+from freezeout.io.run_columns import header_names_run, plan_columns
+from freezeout.io.run_values import density_hall_note, read_columns
+from freezeout.io.table_reader import Table, read_table, table_from_frame
 from freezeout.numbers.digest import sha256_bytes
-from freezeout.numbers.units import parse_unit, split_header
 from freezeout.physics.constants import Q
 from freezeout.records.limits import check_hall_factor
 from freezeout.records.run import RunData, run_carrier
 from freezeout.records.run_rules import mixed_note, split_scale_uncertainty
 
-__all__ = ["parse_metadata", "read_reduced_csv"]
+__all__ = ["MAX_RUN_POINTS", "read_reduced_csv", "read_reduced_frame", "run_from_table"]
 
-_NAMES = {
-    "temperature": {"t", "temperature", "temp"},
-    "density": {"n", "p", "carrierdensity", "density", "nh", "ph", "halldensity",
-                "carrierconcentration", "concentration", "bulkconcentration"},
-    "hall_coefficient": {"rh", "hallcoefficient", "hallcoef"},
-    "mobility": {"mu", "muh", "mobility", "hallmobility", "μ", "μh"},
-    "resistivity": {"rho", "resistivity"},
-}
-_ERR_SUFFIXES = ("err", "error", "unc", "uncertainty", "sigma", "std", "stderr")
-_RANGES = {
-    "temperature": (0.0, 5000.0),
-    "density": (0.0, 1e24),
-    "density_p": (0.0, 1e24),
-    "hall_coefficient": (1e-8, 1e30),
-    "mobility": (0.0, 1e8),
-    "resistivity": (0.0, 1e16),
-}
+#: Most lines a reduced-run file may have (project choice, no source): 10,000. A run has tens
+#: to hundreds of temperatures; the fit's time grows with the points.
+MAX_RUN_POINTS = 10_000
 
 
-def _key(name: str) -> str:
-    return re.sub(r"[\s_\-./]", "", name.strip().lower())
-
-
-def _classify(header: str) -> tuple[str, bool, str | None, str] | None:
-    """Return (quantity, is_error, unit, base_key) for a header, or None if not recognised."""
-    name, unit = split_header(header)
-    raw = name.strip()
-    lowered = raw.lower()
-    is_err = False
-    for suffix in _ERR_SUFFIXES:
-        for sep in ("_", " ", "-"):
-            if lowered.endswith(sep + suffix):
-                raw = raw[: -(len(suffix) + 1)]
-                lowered = raw.lower()
-                is_err = True
-                break
-        if is_err:
-            break
-    key = _key(raw)
-    for quantity, names in _NAMES.items():
-        if key in names:
-            return quantity, is_err, unit, key
-    # unit after a final underscore: Temperature_K, n_cm-3
-    if unit is None and "_" in raw:
-        base, _, tail = raw.rpartition("_")
-        bkey = _key(base)
-        for quantity, names in _NAMES.items():
-            if bkey in names:
-                return quantity, is_err, tail, bkey
-    return None
-
-
-def _all_or_none(values, fname, line_nos, cols, key):
+def _all_or_none(values, table, plan, key):
     """An optional uncertainty column: given on every row, or on none."""
     if values is None or np.all(np.isnan(values)):
         return None
     bad = np.nonzero(np.isnan(values))[0]
     if bad.size:
-        raise InputError("uncertainty must be given on every row or none", file=fname,
-                         line=line_nos[bad[0]], column=cols[key][2])
+        raise InputError("uncertainty must be given on every row or none", file=table.source,
+                         line=int(table.lines[bad[0]]), column=plan.cols[key][2])
     return values
 
 
-def _is_forward_model_column(header: str) -> bool:
-    """Columns that ``freezeout simulate`` writes besides the densities (E_F, fractions)."""
-    name = header.strip().lower()
-    return name.startswith(("e_f", "ionized ", "ionised "))
-
-
-def parse_metadata(lines: list[str]) -> tuple[dict[str, str], int]:
-    """Collect ``# key: value`` lines before the header; return (metadata, header index)."""
+def _metadata(table: Table) -> tuple[dict[str, str], list[str]]:
     meta: dict[str, str] = {}
-    for i, line in enumerate(lines):
-        s = line.strip()
-        if not s:
-            continue
-        if s.startswith("#"):
-            body = s.lstrip("#").strip()
-            if ":" in body:
-                k, _, v = body.partition(":")
-                k = k.strip().lower().replace(" ", "_")
-                if k and k not in meta:
-                    meta[k] = v.strip()
-            continue
-        return meta, i
-    return meta, len(lines)
-
-
-def _dialect(header_line: str) -> str:
-    counts = {d: header_line.count(d) for d in (",", ";", "\t")}
-    return max(counts, key=counts.get) if max(counts.values()) > 0 else ","
+    for key, value, _, _ in table.metadata:
+        k = key.strip().lower().replace(" ", "_")
+        if k and k not in meta:
+            meta[k] = value
+    notes = []
+    if table.preamble:
+        meta.setdefault("preamble", " | ".join(text for _, text in table.preamble))
+    plain = [line for _, _, line, commented in table.metadata if not commented]
+    kept = sorted(plain + [line for line, _ in table.preamble])
+    if kept:
+        notes.append(f"{len(kept)} preamble line(s) before the header (lines {kept[0]}-"
+                     f"{kept[-1]}) kept as metadata")
+    return meta, notes
 
 
 def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
@@ -145,7 +99,7 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
     Parameters
     ----------
     path
-        CSV file.
+        CSV file (a regular file of at most 50 MB and :data:`MAX_RUN_POINTS` lines).
     hall_factor
         Hall scattering factor r_H applied to the densities; None keeps the file's own
         (its ``# hall_factor:`` line, else 1). [1]
@@ -158,133 +112,77 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
     InputError
         With file, line and column, for any malformed content.
     """
-    data, lines = read_text_lines(path)
-    fname = str(path)
     if hall_factor is not None:
         hall_factor = check_hall_factor(hall_factor)
-    meta, hidx = parse_metadata(lines)
-    if hidx >= len(lines):
-        raise InputError("no header row found (the file is empty or only comments)", file=fname)
-    delim = _dialect(lines[hidx])
-    header = next(csv.reader([lines[hidx]], delimiter=delim))
-    header = [h.strip() for h in header]
-    cols: dict[tuple[str, bool], tuple[int, object, str]] = {}
-    ignored = []
-    flag_col = None
-    base_names = {}
-    for j, h in enumerate(header):
-        if _key(h) == "flags":
-            flag_col = j
-            continue
-        c = _classify(h)
-        if c is None:
-            if h:
-                ignored.append(h)
-            continue
-        quantity, is_err, unit, key = c
-        if quantity == "density" and key in ("p", "ph"):
-            quantity = "density_p"  # a hole column may stand beside an electron column
-        if (quantity, is_err) in cols:
-            prev = header[cols[(quantity, is_err)][0]]
-            raise InputError(f"two columns give the {quantity.replace('_', ' ')}: {prev!r} "
-                             f"and {h!r}", file=fname, line=hidx + 1, column=h)
-        if unit is None:
-            if not is_err:
-                raise InputError(f"column {h!r} has no unit; write it like 'T [K]', "
-                                 "'n [cm^-3]'", file=fname, line=hidx + 1, column=h)
-        try:
-            dim = "density" if quantity == "density_p" else quantity
-            u = parse_unit(unit, dim) if unit is not None else None
-        except ValueError as exc:
-            raise InputError(str(exc), file=fname, line=hidx + 1, column=h) from None
-        cols[(quantity, is_err)] = (j, u, h)
-        if not is_err:
-            base_names[quantity] = key
-    if ("density_p", False) in cols and ("density", False) not in cols:
-        # only a hole column: it is the density column
-        for e in (False, True):
-            if ("density_p", e) in cols:
-                cols[("density", e)] = cols.pop(("density_p", e))
-        base_names["density"] = base_names.pop("density_p")
-    if ("temperature", False) not in cols:
+    table = read_table(path, is_header=header_names_run, max_rows=MAX_RUN_POINTS,
+                       what="reduced run")
+    return run_from_table(table, hall_factor=hall_factor, include_mixed=include_mixed)
+
+
+def read_reduced_frame(frame, *, source: str = "DataFrame", hall_factor: float | None = None,
+                       include_mixed: bool = False, metadata=None) -> RunData:
+    """Read a reduced run from a pandas DataFrame with a file's column names.
+
+    Parameters
+    ----------
+    frame
+        Columns named as in a file, units in the names (``T [K]``, ``n [cm^-3]``, ...).
+    source
+        Name for messages and provenance; lines in messages are those of
+        ``frame.to_csv(index=False)`` (header line 1, first row line 2).
+    hall_factor, include_mixed
+        As for :func:`read_reduced_csv`.
+    metadata
+        ``key -> value`` pairs, as a file's ``# key: value`` lines.
+    """
+    if hall_factor is not None:
+        hall_factor = check_hall_factor(hall_factor)
+    table = table_from_frame(frame, source=source, metadata=metadata,
+                             max_rows=MAX_RUN_POINTS)
+    return run_from_table(table, hall_factor=hall_factor, include_mixed=include_mixed)
+
+
+def run_from_table(table: Table, *, hall_factor: float | None = None,
+                   include_mixed: bool = False) -> RunData:
+    """Build the run from a table read by :func:`freezeout.io.table_reader.read_table`.
+
+    Parameters
+    ----------
+    table
+        The table.
+    hall_factor
+        r_H, already checked, or None for the table's own. [1]
+    include_mixed
+        As for :func:`read_reduced_csv`.
+    """
+    fname = table.source
+    meta, notes = _metadata(table)
+    notes = [*table.notes, *notes]
+    plan = plan_columns(table.header, table.unit_lines, fname)
+    hline = table.header_line
+    if ("temperature", False) not in plan.cols:
         raise InputError("no temperature column (expected e.g. 'T [K]')", file=fname,
-                         line=hidx + 1)
-    if ("density", False) not in cols and ("hall_coefficient", False) not in cols:
+                         line=hline)
+    if ("density", False) not in plan.cols and ("hall_coefficient", False) not in plan.cols:
         raise InputError("no carrier density or Hall coefficient column (expected e.g. "
-                         "'n [cm^-3]', 'p [cm^-3]' or 'R_H [cm^3/C]')", file=fname,
-                         line=hidx + 1)
-    for (quantity, is_err), (_, u, h) in list(cols.items()):
-        if is_err and u is None:
-            if (quantity, False) not in cols:
-                raise InputError(f"uncertainty column {h!r} has no matching value column",
-                                 file=fname, line=hidx + 1, column=h)
-            cols[(quantity, True)] = (cols[(quantity, True)][0], cols[(quantity, False)][1], h)
+                         "'n [cm^-3]', 'p [cm^-3]' or 'R_H [cm^3/C]')", file=fname, line=hline)
+    if table.n_rows == 0:
+        raise InputError("no data rows after the header", file=fname, line=hline)
+    arr, flags = read_columns(table, plan)
+    line_nos = table.lines
 
-    values: dict[tuple[str, bool], list[float]] = {k: [] for k in cols}
-    flags: list[str] = []
-    line_nos: list[int] = []
-    required = {("temperature", False), ("density", False), ("hall_coefficient", False),
-                ("density_p", False)}
-    reader = csv.reader(io.StringIO("\n".join(lines[hidx + 1:])), delimiter=delim)
-    for offset, row in enumerate(reader):
-        lineno = hidx + 2 + offset
-        if not row or all(not c.strip() for c in row) or row[0].lstrip().startswith("#"):
-            continue
-        if len(row) < len(header):
-            # a truncated last line or a missing cell
-            if flag_col is not None and len(row) == len(header) - 1 and flag_col == len(header) - 1:
-                row = [*row, ""]
-            else:
-                cells = "cell" if len(row) == 1 else "cells"
-                raise InputError(f"row has {len(row)} {cells}, the header has {len(header)} "
-                                 "(truncated line?)", file=fname, line=lineno)
-        if len(row) > len(header) and any(c.strip() for c in row[len(header):]):
-            raise InputError(f"row has {len(row)} cells, the header has {len(header)}",
-                             file=fname, line=lineno)
-        for k, (j, u, h) in cols.items():
-            cell = row[j].strip()
-            if is_missing(cell):
-                if k in required:
-                    raise InputError(f"missing value {cell!r}" if cell else "empty cell",
-                                     file=fname, line=lineno, column=h)
-                values[k].append(np.nan)
-                continue
-            v = parse_number_cell(cell, file=fname, line=lineno, column=h)
-            quantity, is_err = k
-            v = u.scale_uncertainty(v) if is_err else u.to_canonical(v)
-            lo, hi = _RANGES[quantity]
-            mag = abs(v) if quantity in ("density", "hall_coefficient") and not is_err else v
-            if is_err:
-                if v < 0:
-                    raise InputError(f"uncertainty {cell} is negative", file=fname,
-                                     line=lineno, column=h)
-            elif quantity == "temperature" and v <= 0:
-                raise InputError(f"temperature {cell} is not above absolute zero", file=fname,
-                                 line=lineno, column=h)
-            elif not lo <= mag <= hi:
-                raise InputError(f"{quantity.replace('_', ' ')} {cell} is outside the plausible"
-                                 f" range [{lo:g}, {hi:g}] in canonical units", file=fname,
-                                 line=lineno, column=h)
-            values[k].append(v)
-        flags.append(row[flag_col].strip() if flag_col is not None else "")
-        line_nos.append(lineno)
-    if not line_nos:
-        raise InputError("no data rows after the header", file=fname, line=hidx + 1)
-
-    arr = {k: np.asarray(v, dtype=float) for k, v in values.items()}
     t = arr[("temperature", False)]
     order = np.argsort(t, kind="stable")
     st = t[order]
     dup = np.nonzero(np.diff(st) == 0)[0]
     if dup.size:
-        a, b = line_nos[order[dup[0]]], line_nos[order[dup[0] + 1]]
+        a, b = int(line_nos[order[dup[0]]]), int(line_nos[order[dup[0] + 1]])
         raise InputError(f"duplicate temperature {st[dup[0]]:g} K (also on line {a})",
-                         file=fname, line=b, column=cols[("temperature", False)][2])
+                         file=fname, line=b, column=plan.cols[("temperature", False)][2])
     arr = {k: v[order] for k, v in arr.items()}
     flags = [flags[i] for i in order]
-    line_nos = [line_nos[i] for i in order]
+    line_nos = line_nos[order]
     t = arr[("temperature", False)]
-    notes = []
 
     r_file = 1.0
     if "hall_factor" in meta:
@@ -297,6 +195,8 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
 
     rh = arr.get(("hall_coefficient", False))
     rh_err = arr.get(("hall_coefficient", True))
+    base_names = plan.base_names
+    point_hint = None
     if ("density_p", False) in arr:
         # electron and hole columns side by side (e.g. simulate output): per point the
         # larger one is the majority carrier and the one the Hall effect measures
@@ -310,8 +210,6 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
             arr.pop(("density", True), None)
         base_names["density"] = "np"
         point_hint = ["p" if x else "n" for x in take_p]
-    else:
-        point_hint = None
     if ("density", False) in arr:
         dens = arr[("density", False)]
         dens_err = arr.get(("density", True))
@@ -323,8 +221,8 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
             bad = np.nonzero(dens <= 0)[0]
             if bad.size:
                 raise InputError(f"{key} must be > 0 (the column name gives the type)",
-                                 file=fname, line=line_nos[bad[0]],
-                                 column=cols[("density", False)][2])
+                                 file=fname, line=int(line_nos[bad[0]]),
+                                 column=plan.cols[("density", False)][2])
             point_type = [named] * t.size
             if stated is not None and stated != named:
                 notes.append(f"the file says '# carrier: {stated}' but its density column is "
@@ -341,6 +239,11 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
             if stated is None:
                 notes.append("carrier type not stated: assumed electrons (n); name the column "
                              "'n' or 'p', or add a '# carrier: p' line")
+        if rh is not None:
+            note = density_hall_note(np.abs(dens), dens_err, rh, rh_err, r_file, t, line_nos,
+                                     plan)
+            if note:
+                notes.append(note)
         density = np.abs(dens) * hall_factor / r_file
         density_err = None if dens_err is None else dens_err * hall_factor / r_file
     else:
@@ -361,13 +264,14 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
         elif np.any(np.isnan(density_err)) or np.any(density_err <= 0):
             i = int(np.nonzero(np.isnan(density_err) | (density_err <= 0))[0][0])
             raise InputError("density uncertainty must be given (> 0) on every row or none",
-                             file=fname, line=line_nos[i],
-                             column=cols.get(("density", True),
-                                             cols.get(("hall_coefficient", True)))[2])
-    unexplained = [h for h in ignored if not _is_forward_model_column(h)]
-    if unexplained:
+                             file=fname, line=int(line_nos[i]),
+                             column=plan.cols.get(("density", True),
+                                                  plan.cols.get(("hall_coefficient", True)))[2])
+    if plan.unrecognised:
         notes.append("columns not used (not a recognised quantity or uncertainty): "
-                     + ", ".join(repr(h) for h in unexplained))
+                     + ", ".join(repr(h) for h in plan.unrecognised))
+    for h, reason in plan.unused:
+        notes.append(f"column {h!r} not used (the fit does not need it): {reason}")
     carrier = run_carrier(point_type, t, stated)
     note = mixed_note(point_type, carrier, t, include_mixed)
     if note:
@@ -375,23 +279,31 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
         if include_mixed:
             point_type = [carrier] * t.size
     severe = None
-    if flag_col is not None:
+    if plan.flag_col is not None:
         severe = severe_from_flags(flags)
         if severe.any():
             notes.append(f"{int(severe.sum())} point(s) are flagged as failing a severe "
                          "data-quality check and are left out of the fit unless "
                          "--include-flagged is given")
+    rho, rho_err = arr.get(("resistivity", False)), arr.get(("resistivity", True))
+    if rho is None and ("conductivity", False) in arr:
+        sigma = arr[("conductivity", False)]
+        rho = 1.0 / sigma
+        sigma_err = arr.get(("conductivity", True))
+        rho_err = None if sigma_err is None else sigma_err / sigma**2
+        notes.append(f"resistivity computed as 1/sigma from column "
+                     f"{plan.cols[('conductivity', False)][2]!r}")
 
     return RunData(
         source=fname,
-        sha256=sha256_bytes(data),
+        sha256=sha256_bytes(table.data),
         temperature=t,
         density=density,
         density_err=density_err,
         carrier=carrier,
         point_carrier=tuple(point_type),
-        resistivity=arr.get(("resistivity", False)),
-        resistivity_err=arr.get(("resistivity", True)),
+        resistivity=rho,
+        resistivity_err=rho_err,
         mobility=arr.get(("mobility", False)),
         mobility_err=arr.get(("mobility", True)),
         hall_coefficient=rh,
@@ -400,9 +312,9 @@ def read_reduced_csv(path: str | Path, *, hall_factor: float | None = None,
         severe=severe,
         metadata=meta,
         notes=tuple(notes),
-        ignored_columns=tuple(ignored),
+        ignored_columns=tuple(plan.ignored),
         scale_uncertainty=scale,
         hall_factor=float(hall_factor),
-        temperature_err=_all_or_none(arr.get(("temperature", True)), fname, line_nos, cols,
+        temperature_err=_all_or_none(arr.get(("temperature", True)), table, plan,
                                      ("temperature", True)),
     )
