@@ -37,6 +37,7 @@ from freezeout.api.simulation import (
     simulation_csv,
     write_simulation_csv,
 )
+from freezeout.api.tables import curves_frame, fit_arrays, fit_table, parameters_frame
 from freezeout.api.wafers import FIT_OPTIONS, WaferJob, WaferOutcome, measure_wafer
 from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K, HALL_FACTOR_RANGE
 
@@ -49,5 +50,5 @@ __all__ = [
     "history", "is_raw_file", "list_materials", "load_material", "load_run", "lot_options",
     "measure_wafer", "parse_since", "qualify_lot", "record_fit", "reduce_file",
     "reduce_raw_file", "simulate", "simulation_csv", "trend_file_name", "write_fit_report",
-    "write_simulation_csv",
+    "write_simulation_csv", "curves_frame", "fit_arrays", "fit_table", "parameters_frame",
 ]
