@@ -14,6 +14,13 @@ units, and refused, naming the readings, when it leaves more (``mk``: mK or MK? 
 mohm cm or Mohm cm?). Each quantity accepts the prefixes a measurement is written in
 (:data:`ACCEPTED`); any other SI prefix on its units is refused with the reason (``MK`` is the
 megakelvin, 1e6 K: refused as absurd), not guessed at.
+
+Why a table of our own and not a general units library (measured with pint 0.25.3, 2026):
+pint does not read 7 of 21 spellings the trade writes (``1/cm3``, ``cm-3``, ``Ohm-cm``,
+``Ohm cm``, ``cm^2/Vs``, ``cm2/Vs``, ``cm3/C``), reads ``k`` and ``mk`` as the Boltzmann
+constant and a thousandth of it instead of refusing them, and accepts ``MK``; it took 2.7 s
+to parse and convert 10,000 unit strings (2.2 s to parse only, 0.8 s to load its registry)
+where this module takes 0.6 s without its cache and 17 ms with it.
 """
 
 from __future__ import annotations
