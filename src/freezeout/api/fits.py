@@ -14,6 +14,7 @@ from freezeout.api.simulation import check_statistics
 if TYPE_CHECKING:
     from freezeout.fitting.result import FitResult
     from freezeout.physics.materials import Material
+    from freezeout.records.run import RunData
     from freezeout.storage import SaveOutcome
 
 
@@ -59,21 +60,43 @@ def fit_file(
     thickness
         Sample thickness for a raw file, e.g. ``"350um"`` (overrides the file's).
     """
+    check_statistics(statistics)
+    run = load_run(path, hall_factor=hall_factor, include_mixed=include_mixed,
+                   thickness=thickness)
+    return fit_run_record(run, input_name=Path(path).name, input_path=str(path),
+                          material=material, material_file=material_file, donors=donors,
+                          acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
+                          degeneracy=degeneracy, fix=fix, bounds=bounds,
+                          include_mixed=include_mixed, include_flagged=include_flagged)
+
+
+def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
+                   material: str | Material | None = None,
+                   material_file: str | Path | None = None, donors: int = 1,
+                   acceptors: int = 1, statistics: str = "fermi-dirac",
+                   hall_factor: float | None = None, degeneracy: float | None = None,
+                   fix: Mapping[str, float] | None = None,
+                   bounds: Mapping[str, tuple[float, float]] | None = None,
+                   include_mixed: bool = False, include_flagged: bool = False,
+                   where: str = "the file") -> FitResult:
+    """Fit a run record with the options and provenance of :func:`fit_file`.
+
+    ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
+    note made when no material is given ("the file", "the table").
+    """
     import datetime as _dt
     from dataclasses import replace
 
     from freezeout.fitting.fit import fit_run
 
     statistics = check_statistics(statistics)
-    run = load_run(path, hall_factor=hall_factor, include_mixed=include_mixed,
-                   thickness=thickness)
     notes = []
     if material is None and material_file is None:
         stated = run.metadata.get("material")
         if stated:
             material = stated
         else:
-            notes.append("no material given and none stated in the file: assumed Si")
+            notes.append(f"no material given and none stated in {where}: assumed Si")
     mat = load_material(material, material_file)
     options = {"material": mat.name, "material_file": None if material_file is None
                else str(material_file), "donors": donors, "acceptors": acceptors,
@@ -81,8 +104,8 @@ def fit_file(
                "fix": dict(fix or {}), "bounds": {k: list(v) for k, v in (bounds or {}).items()},
                "include_mixed": include_mixed, "include_flagged": include_flagged}
     provenance = {
-        "input": Path(path).name,
-        "input_path": str(path),
+        "input": input_name,
+        "input_path": input_path,
         "sha256": run.sha256,
         "metadata": dict(run.metadata),
         "tool": "freezeout",

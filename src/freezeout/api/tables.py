@@ -13,8 +13,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import TYPE_CHECKING
 
-from freezeout._version import __version__
-from freezeout.api.materials import load_material
+from freezeout.api.fits import fit_run_record
 from freezeout.api.simulation import check_statistics
 from freezeout.errors import InputError
 
@@ -23,50 +22,8 @@ if TYPE_CHECKING:
 
     from freezeout.fitting.result import FitResult
     from freezeout.physics.materials import Material
-    from freezeout.records.run import RunData
 
 __all__ = ["curves_frame", "fit_arrays", "fit_table", "parameters_frame"]
-
-
-def _fit_run_data(run: RunData, *, input_name: str, input_path: str | None,
-                  material, material_file, donors, acceptors, statistics, hall_factor,
-                  degeneracy, fix, bounds, include_mixed, include_flagged) -> FitResult:
-    """Fit a run read from a table, with the options and provenance of ``fit_file``."""
-    import datetime as _dt
-    from dataclasses import replace
-
-    from freezeout.fitting.fit import fit_run
-
-    notes = []
-    if material is None and material_file is None:
-        stated = run.metadata.get("material")
-        if stated:
-            material = stated
-        else:
-            notes.append("no material given and none stated in the table: assumed Si")
-    mat = load_material(material, material_file)
-    options = {"material": mat.name, "material_file": None if material_file is None
-               else str(material_file), "donors": donors, "acceptors": acceptors,
-               "statistics": statistics, "hall_factor": hall_factor, "degeneracy": degeneracy,
-               "fix": dict(fix or {}), "bounds": {k: list(v) for k, v in (bounds or {}).items()},
-               "include_mixed": include_mixed, "include_flagged": include_flagged}
-    provenance = {
-        "input": input_name,
-        "input_path": input_path,
-        "sha256": run.sha256,
-        "metadata": dict(run.metadata),
-        "tool": "freezeout",
-        "tool_version": __version__,
-        "date": _dt.datetime.now(_dt.UTC).date().isoformat(),
-        "options": options,
-        "hall_factor": run.hall_factor,
-    }
-    result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
-                     degeneracy=degeneracy, fix=fix, bounds=bounds,
-                     include_flagged=include_flagged, provenance=provenance)
-    if notes:
-        result = replace(result, warnings=tuple(notes) + result.warnings)
-    return result
 
 
 def fit_table(
@@ -115,11 +72,11 @@ def fit_table(
     statistics = check_statistics(statistics)
     run = read_reduced_frame(frame, source=name, hall_factor=hall_factor,
                              include_mixed=include_mixed, metadata=metadata)
-    return _fit_run_data(run, input_name=name, input_path=None, material=material,
+    return fit_run_record(run, input_name=name, input_path=None, material=material,
                          material_file=material_file, donors=donors, acceptors=acceptors,
                          statistics=statistics, hall_factor=hall_factor, degeneracy=degeneracy,
                          fix=fix, bounds=bounds, include_mixed=include_mixed,
-                         include_flagged=include_flagged)
+                         include_flagged=include_flagged, where="the table")
 
 
 def fit_arrays(temperature, density, density_err=None, carrier: str = "n", *,
