@@ -156,7 +156,7 @@ def test_result_dict_is_json_and_complete():
         assert key in d
     lv = d["levels"][0]
     assert lv["kind"] == "donor" and lv["degeneracy"] == 2.0
-    assert set(lv["energy_eV"]) == {"value", "stderr", "ci95"}
+    assert set(lv["energy_eV"]) == {"value", "stderr", "ci95", "method"}
     assert d["levels"][1]["energy_eV"] is None
     assert set(d["statistics"]) >= {"chi2", "reduced_chi2", "aic", "bic", "n_points"}
 

@@ -110,6 +110,8 @@ def _print_summary(result, written) -> None:
         lo, hi = est["ci95"]
         ci = "—" if lo is None else f"{lo:.4g} … {hi:.4g}"
         se = "—" if est["stderr"] is None else f"{est['stderr']:.2g}"
+        if est.get("method"):  # how the interval was computed, under it
+            ci = f"{ci}\n[dim]{est['method']}[/dim]"
         if est.get("fixed"):
             se, ci = "fixed", "fixed (held)"
         if name in user_bounds:

@@ -12,7 +12,8 @@ import lmfit
 import numpy as np
 
 from freezeout.fitting.model import CarrierModel
-from freezeout.physics.neutrality import BandState
+from freezeout.fitting.profile import Profiler
+from freezeout.physics.neutrality import BandState, solve_levels
 
 
 class Problem:
@@ -99,6 +100,48 @@ class Problem:
         cost = np.sum(r * r, axis=1)
         return np.where(np.isfinite(cost), cost, np.inf), res.fermi_level
 
+    def batch_residuals(self, values: dict, init=None) -> tuple[np.ndarray, np.ndarray]:
+        """Weighted residuals of many parameter sets in one vectorized solve.
+
+        Parameters
+        ----------
+        values
+            Internal name -> column of values (rows, 1) or one number for every row.
+        init
+            Starting Fermi levels E_F - E_v, one row per set, or None (cold). [eV]
+
+        Returns
+        -------
+        tuple
+            Residuals (rows, points), with the type penalty of :meth:`residual` and 1e6
+            where not finite, and the Fermi levels of the solve (rows, points). [1], [eV]
+        """
+        t = self.model.temperature
+        bands = self.model.bands
+        bb = BandState(t[None, :], bands.kt[None, :], bands.band_gap[None, :],
+                       bands.log_nc[None, :], bands.log_nv[None, :])
+        donors, acceptors = self.model.levels(values)
+        try:
+            res = solve_levels(bb, donors, acceptors, self.model.statistics, init)
+        except (RuntimeError, ValueError, FloatingPointError):
+            rows = max((np.shape(v)[0] for v in values.values() if np.ndim(v)), default=1)
+            if rows == 1:
+                return np.full((1, t.size), 1e6), np.zeros((1, t.size))
+            # one set the solver cannot take must not spoil the others: one at a time
+            parts = [self.batch_residuals(
+                {k: (v[i:i + 1] if np.ndim(v) else v) for k, v in values.items()},
+                None if init is None else np.asarray(init)[i:i + 1]) for i in range(rows)]
+            return (np.concatenate([p[0] for p in parts]),
+                    np.concatenate([p[1] for p in parts]))
+        with np.errstate(invalid="ignore", over="ignore"):
+            r = (self.model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
+            if self._minor is not None:
+                major = np.log10(sum(10.0 ** np.asarray(values[k], dtype=float)
+                                     for k in self._major))
+                excess = np.maximum(np.asarray(values[self._minor]) - major + 1e-3, 0.0)
+                r = r + 1e3 * excess * np.sign(r + 1e-300)
+        return np.where(np.isfinite(r), r, 1e6), res.fermi_level
+
 
 def profile_upper(problem: Problem, best, name: str, weighted: bool) -> float:
     """Upper 95 % limit of one log10 concentration by profiling chi^2.
@@ -107,36 +150,14 @@ def profile_upper(problem: Problem, best, name: str, weighted: bool) -> float:
     the limit is where chi^2 rises by 2.71 (a one-sided 95 % limit for one parameter; the
     rise is scaled by the reduced chi^2 when the fit is unweighted or when it exceeds 1,
     as the standard errors are). Returns the upper bound of the parameter when the data
-    never exclude larger values. Each refit starts cold.
+    never exclude larger values. The refits are those of
+    :class:`freezeout.fitting.profile.Profiler`, warm-started along the profile.
     """
-    base = best.params
     # in units of the residual variance: the stated one (weighted fit, inflated when the
     # reduced chi^2 exceeds 1) or the fitted one (unweighted)
     scale = max(best.redchi, 1.0) if weighted else max(best.redchi, 1e-300)
-    threshold = best.chisqr + 2.71 * scale
-    hi_bound = base[name].max
-
-    def chi2_at(x: float) -> float:
-        params = base.copy()
-        params[name].set(value=x, vary=False)
-        problem.model.clear_warm_start()
-        out = lmfit.minimize(problem.residual, params, method="leastsq")
-        return float(out.chisqr)
-
-    lo = base[name].value
-    x = lo
-    while True:
-        x = min(x + 0.5, hi_bound)
-        if chi2_at(x) > threshold:
-            hi = x
-            break
-        lo = x
-        if x >= hi_bound:
-            return hi_bound
-    for _ in range(7):
-        mid = 0.5 * (lo + hi)
-        if chi2_at(mid) > threshold:
-            hi = mid
-        else:
-            lo = mid
-    return 0.5 * (lo + hi)
+    covar = None
+    if best.covar is not None:
+        covar = best.covar * (scale if weighted else 1.0)
+    profiler = Profiler(problem, best, covar, scale)
+    return profiler.intervals([name], 2.71, sides=(1.0,))[name].upper

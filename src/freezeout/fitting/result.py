@@ -25,16 +25,31 @@ class Estimate:
         Standard error, or NaN when the data do not determine it.
     ci95
         95 % interval (lower, upper); asymmetric for quantities fitted in log space.
+    method
+        How ``ci95`` was computed: ``"wald-log"`` (value +- t se in log space),
+        ``"wald-linear"`` (value +- t se), ``"profile"`` (profile likelihood, both ends set by
+        the data), ``"profile-one-sided"`` (one end is a limit of the model's range, e.g. the
+        floor of a concentration or the band gap, not a limit set by the data),
+        ``"profile-unbounded"`` (both ends are), ``"plateau"`` (net doping from the
+        saturation plateau), ``"fixed"`` (a held value: no interval) or ``"unspecified"``.
+        See :mod:`freezeout.fitting.intervals`.
     """
 
     value: float
     stderr: float
     ci95: tuple[float, float]
+    method: str = "unspecified"
 
     def to_dict(self) -> dict:
-        """JSON form: ``{"value", "stderr", "ci95": [lo, hi]}`` (None where undetermined)."""
-        return {"value": finite_or_none(self.value), "stderr": finite_or_none(self.stderr),
-                "ci95": [finite_or_none(self.ci95[0]), finite_or_none(self.ci95[1])]}
+        """JSON form: ``{"value", "stderr", "ci95": [lo, hi], "method"}``.
+
+        None where undetermined; a held value (method ``"fixed"``) has no ``"method"``.
+        """
+        d = {"value": finite_or_none(self.value), "stderr": finite_or_none(self.stderr),
+             "ci95": [finite_or_none(self.ci95[0]), finite_or_none(self.ci95[1])]}
+        if self.method != "fixed":
+            d["method"] = self.method
+        return d
 
 
 @dataclass(frozen=True)

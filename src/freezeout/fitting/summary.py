@@ -8,14 +8,17 @@ freedom, in log10 space for concentrations (so they are asymmetric in cm^-3).
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 from scipy import stats
 
+from freezeout.fitting.intervals import apply_profiles, profile_threshold, wald_unreliable
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, pow10, to_public
 from freezeout.fitting.plateau import plateau_net_doping
 from freezeout.fitting.problem import Problem
+from freezeout.fitting.profile import Profiler
 from freezeout.fitting.result import Estimate, FitData, FitResult, LevelEstimate
 from freezeout.fitting.warnings import fit_warnings
 from freezeout.physics.materials import Material
@@ -38,17 +41,19 @@ def estimate_log10(value_log10: float, se_log10: float, tq: float,
         ci = (pow10(lo), pow10(hi))
     else:
         ci = (math.nan, math.nan)
-    return Estimate(v, se, ci)
+    return Estimate(v, se, ci, "wald-log")
 
 
-def estimate_linear(value: float, se: float, tq: float, lower: float | None = None
-                    ) -> Estimate:
-    """Estimate with a symmetric interval value +- tq se, cut at ``lower`` if given."""
+def estimate_linear(value: float, se: float, tq: float, lower: float | None = None,
+                    upper: float | None = None) -> Estimate:
+    """Estimate with a symmetric interval value +- tq se, cut at ``lower``/``upper``."""
     ok = np.isfinite(se) and np.isfinite(tq)
     ci = (value - tq * se, value + tq * se) if ok else (math.nan, math.nan)
     if lower is not None and ok:
         ci = (max(ci[0], lower), ci[1])
-    return Estimate(value, se if np.isfinite(se) else math.nan, ci)
+    if upper is not None and ok:
+        ci = (ci[0], min(ci[1], upper))
+    return Estimate(value, se if np.isfinite(se) else math.nan, ci, "wald-linear")
 
 
 def information_criteria(out, weighted: bool) -> tuple[float, float]:
@@ -147,12 +152,19 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
                 se[n] = math.hypot(se[n], scale / _LN10)
     ms, mn = model_used.major_symbol, model_used.minor_symbol
     cname_min = model_used.compensation_name
+    gap = float(material.band_gap(float(np.min(model_used.temperature))))
+
+    def held(est: Estimate, name: str) -> Estimate:
+        return replace(est, method="fixed") if name in internal_fix else est
+
     levels = []
     for i in range(1, model_used.n_levels + 1):
         cname, ename = f"log10_N_{ms}{i}", f"E_{ms}{i}"
         levels.append(LevelEstimate(
-            model_used.major_kind, estimate_log10(params[cname].value, se[cname], tq),
-            estimate_linear(params[ename].value, se[ename], tq, lower=0.0),
+            model_used.major_kind,
+            held(estimate_log10(params[cname].value, se[cname], tq), cname),
+            held(estimate_linear(params[ename].value, se[ename], tq, lower=0.0, upper=gap),
+                 ename),
             model_used.degeneracy,
             f"{ms}{i}"))
     if model_used.compensated:
@@ -161,7 +173,8 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
             # only bounded: the interval runs from the floor to the profile limit
             est = Estimate(est.value, est.stderr,
                            (pow10(LOG10_CONCENTRATION_BOUNDS[0]), pow10(profile_upper)))
-        levels.append(LevelEstimate(model_used.minor_kind, est, None, None, mn))
+        levels.append(LevelEstimate(model_used.minor_kind, held(est, cname_min), None, None,
+                                    mn))
 
     # derived quantities with first-order propagation through the covariance (internal space)
     maj = np.array([10.0 ** params[name].value for name in model_used.major_concentration_names])
@@ -200,6 +213,8 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
         elif plateau is not None and not (np.isfinite(net_se) and net_se < plateau.stderr):
             net_est = Estimate(plateau.value, plateau.stderr, plateau.ci95)
             plateau_note = plateau.note()
+    if plateau_note and net_est.method == "unspecified":
+        net_est = replace(net_est, method="plateau")  # the plateau's interval
     if model_used.compensated:
         k = n_min / n_maj
         se_lnk = propagate(grad_lnk)
@@ -210,9 +225,20 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
             ci = (k * math.exp(-half), min(k * math.exp(half), 1.0))
         else:
             ci = (math.nan, math.nan)
-        comp = Estimate(k, k * se_lnk if np.isfinite(se_lnk) else math.nan, ci)
+        comp = Estimate(k, k * se_lnk if np.isfinite(se_lnk) else math.nan, ci, "wald-log")
     else:
-        comp = Estimate(0.0, 0.0, (0.0, 0.0))
+        comp = Estimate(0.0, 0.0, (0.0, 0.0), "fixed")
+    if not free or all(n in internal_fix for n in (*model_used.major_concentration_names,
+                                                   cname_min) if n in params):
+        net_est, comp = replace(net_est, method="fixed"), replace(comp, method="fixed")
+    # profile-likelihood intervals where the covariance may not describe chi^2 over the
+    # interval (fitting/intervals.py); the compensation bound of the warnings follows them
+    if free and wald_unreliable(out, covar, tq, profile_upper is not None):
+        q = profile_threshold(weighted, dof)
+        unit = inflation if weighted else float(out.redchi)
+        ivs = Profiler(problem, out, covar, unit).intervals([*free, "net", "ratio"], q)
+        levels, net_est, comp, profile_upper = apply_profiles(
+            levels, net_est, comp, ivs, params, gap, scale, math.sqrt(q))
 
     if covar is not None:
         sd = np.sqrt(np.clip(np.diag(covar), 0, None))

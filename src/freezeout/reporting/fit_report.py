@@ -38,14 +38,15 @@ def _fmt(x, unit="", digits=4):
 
 def _estimate_cells(est: dict | None, unit: str) -> str:
     if est is None:
-        return "<td colspan=3>fully ionized (no level energy)</td>"
+        return "<td colspan=4>fully ionized (no level energy)</td>"
     if est.get("fixed"):
         return (f"<td class=num>{_fmt(est['value'], unit)}</td><td class=num>fixed</td>"
-                "<td class=num>fixed (held, not fitted)</td>")
+                "<td class=num>fixed (held, not fitted)</td><td>—</td>")
     lo, hi = est["ci95"]
     ci = f"{_fmt(lo)} … {_fmt(hi)}" if lo is not None else "not determined"
+    method = html.escape(str(est.get("method") or "—"))
     return (f"<td class=num>{_fmt(est['value'], unit)}</td><td class=num>"
-            f"{_fmt(est['stderr'], unit, 2)}</td><td class=num>{ci}</td>")
+            f"{_fmt(est['stderr'], unit, 2)}</td><td class=num>{ci}</td><td>{method}</td>")
 
 
 def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
@@ -168,7 +169,12 @@ Hall factor r_H = {d['hall_factor']:g} · {st['n_points']} points, {st['n_parame
 parameters</p>
 <h2>Parameters</h2>
 <table><tr><th>symbol</th><th>quantity</th><th>value</th><th>std. error</th>
-<th>95 % interval</th></tr>{''.join(rows)}</table>
+<th>95 % interval</th><th>interval method</th></tr>{''.join(rows)}</table>
+<p class=sub>Interval methods: wald-log / wald-linear from the covariance (t quantile, log
+or linear scale); profile from the χ² profile, where χ² − χ²_min ≤ 3.84 (times the reduced χ²
+when the errors are inflated or fitted), the other parameters refitted; one-sided where one
+end is a limit of the model's range (a concentration floor, the band gap) rather than set by
+the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}</p>
 {_alternatives_html(d.get("alternatives") or [])}

@@ -1,0 +1,411 @@
+"""Profile-likelihood intervals of the fitted parameters, the net doping and the compensation.
+
+The 95 % interval of a quantity x is the set where chi^2_p(x) - chi^2_min <= q u: chi^2_p(x)
+is the least chi^2 with x held and every other free parameter refitted, q the 95 % quantile
+of chi^2 with one degree of freedom (3.841; F(1, nu) when the variance is fitted, i.e.
+unweighted), u the unit of chi^2 (the reduced chi^2 when the errors are inflated or fitted,
+else 1). S. S. Wilks, Ann. Math. Statist. 9, 60 (1938); D. J. Venzon, S. H. Moolgavkar,
+J. R. Stat. Soc. C 37, 87 (1988) (from memory).
+
+A parameter is held directly. A derived quantity is held by reparametrization: one free
+concentration is set from the others and the held value. For the net doping that is the
+first free majority concentration, N_maj1 = N_net + N_min - (other N_maj), which stays
+positive while the compensation runs down to its floor; for the compensation ratio K it is
+the compensating concentration, N_min = K sum(N_maj) (below the floor of N_min it is the
+floor: the model cannot tell those apart). Both are profiled in log10.
+
+Every end of every quantity is searched at once (:meth:`Profiler.intervals`): each
+vectorized neutrality solve carries one Levenberg-Marquardt step (forward differences in the
+same batch) of the refit under way at every end, or the candidate starts of a new one; an
+end whose refit has converged moves on to its next trial value
+(:class:`freezeout.fitting.profile_search.EndSearch`), warm-started from its nearest solved
+point moved along the valley, with that point's Fermi levels. Within the refits a free
+compensating concentration moves linearly (see :class:`Profiler`). A search that has not
+closed within :data:`_SOLVES` solves keeps its best estimate of the end.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from freezeout.fitting.profile_search import EndSearch
+
+#: 95 % quantile of chi^2 with one degree of freedom (computed here with scipy.stats).
+CHI2_95_1DOF = 3.841458820694124
+
+_SOLVES = 50  # vectorized solves of one search at most
+_STEPS = 8  # descent steps of one refit before it hands over (and resumes if need be)
+
+
+@dataclass(frozen=True)
+class ProfileInterval:
+    """Ends of a profile interval in the coordinate profiled (log10 for concentrations).
+
+    Attributes
+    ----------
+    lower, upper
+        The ends; an open end is the limit of the range searched.
+    lower_open, upper_open
+        True when the data do not reach the threshold on that side within the range.
+    """
+
+    lower: float
+    upper: float
+    lower_open: bool
+    upper_open: bool
+
+
+@dataclass(frozen=True)
+class _Target:
+    """One profiled quantity: its kind, the free parameter its held value sets, its range."""
+
+    key: str  # internal parameter name, "net" or "ratio"
+    dep: int  # index (among the free parameters) of the parameter the held value sets
+    centre: float  # value at the best fit
+    se: float  # Wald standard error in the coordinate profiled (NaN when unknown)
+    lo: float
+    hi: float
+    slope: np.ndarray  # d(free parameters)/dx at the best fit, from the covariance
+
+
+class Profiler:
+    """Profiles of one retained fit.
+
+    Parameters
+    ----------
+    problem
+        The residual problem (:class:`freezeout.fitting.problem.Problem`).
+    out
+        The retained lmfit result.
+    covar
+        Covariance of the free parameters as reported (inflated), or None.
+    unit
+        Unit of chi^2 differences (1, or the reduced chi^2). [1]
+    """
+
+    def __init__(self, problem, out, covar: np.ndarray | None, unit: float) -> None:
+        self.problem = problem
+        model = problem.model
+        self.free = list(out.var_names)
+        p = out.params
+        self.theta = np.array([p[n].value for n in self.free], dtype=float)
+        self.lower = np.array([p[n].min for n in self.free], dtype=float)
+        self.upper = np.array([p[n].max for n in self.free], dtype=float)
+        # the refits move a free compensating concentration linearly, in units of its best
+        # fit (z = N_min / N_min_fit): in log10 the way down to "no compensation" is a flat
+        # valley many decades long, linearly it is one step
+        self.linear = np.array([n == model.compensation_name and model.compensated
+                                for n in self.free])
+        self.fixed = {n: float(p[n].value) for n in p if n not in self.free}
+        self.covar = covar
+        self.unit = float(unit)
+        self.major = list(model.major_concentration_names)
+        self.minor = model.compensation_name if model.compensated else None
+        warm = model.warm_fermi
+        r, fermi = self.residuals(self.theta[None, :], None if warm is None else warm[None, :])
+        self.fermi0 = fermi[0]
+        self.chi2_min = float(np.sum(r[0] ** 2))
+
+    # ---- batched residuals ------------------------------------------------------------
+    def _values(self, theta: np.ndarray) -> dict:
+        vals = {n: theta[:, i][:, None] for i, n in enumerate(self.free)}
+        vals.update(self.fixed)
+        return vals
+
+    def residuals(self, theta: np.ndarray, init) -> tuple[np.ndarray, np.ndarray]:
+        """Residuals (rows, points) and Fermi levels of parameter rows (free order)."""
+        return self.problem.batch_residuals(self._values(theta), init)
+
+    def _conc(self, theta: np.ndarray, name: str) -> np.ndarray:
+        if name in self.free:
+            return 10.0 ** theta[:, self.free.index(name)]
+        return np.full(theta.shape[0], 10.0 ** self.fixed[name])
+
+    # ---- targets ------------------------------------------------------------------------
+    def derived(self, key: str, theta: np.ndarray) -> np.ndarray:
+        """log10 of the net doping or of the compensation ratio of parameter rows."""
+        s_maj = sum(self._conc(theta, n) for n in self.major)
+        n_min = self._conc(theta, self.minor) if self.minor else np.zeros(theta.shape[0])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            if key == "net":
+                return np.log10(s_maj - n_min)
+            return np.log10(n_min / s_maj)
+
+    def _gradient(self, key: str) -> np.ndarray:
+        """d x / d(free parameters) at the best fit."""
+        n = len(self.free)
+        if key in self.free:
+            g = np.zeros(n)
+            g[self.free.index(key)] = 1.0
+            return g
+        h = 1e-6
+        g = np.zeros(n)
+        for i in range(n):
+            up, dn = self.theta.copy(), self.theta.copy()
+            up[i] += h
+            dn[i] -= h
+            g[i] = (self.derived(key, up[None, :])[0] - self.derived(key, dn[None, :])[0]) / (
+                2 * h)
+        return g
+
+    def target(self, key: str) -> _Target | None:
+        """The profile target of a free parameter (internal name), "net" or "ratio".
+
+        None when no free concentration can carry the held derived value.
+        """
+        if key in self.free:
+            dep = self.free.index(key)
+            centre, lo, hi = self.theta[dep], self.lower[dep], self.upper[dep]
+        else:
+            # the net doping sets a majority concentration (N_maj = N_net + N_min - others
+            # stays positive while the compensation runs down to its floor); the ratio sets
+            # the compensation (N_min = K sum N_maj)
+            minor = [self.minor] if self.minor else []
+            candidates = self.major + minor if key == "net" else minor + self.major
+            free_c = [c for c in candidates if c in self.free]
+            if not free_c or (key == "ratio" and not self.minor):
+                return None
+            dep = self.free.index(free_c[0])
+            centre = float(self.derived(key, self.theta[None, :])[0])
+            if not np.isfinite(centre):
+                return None
+            if key == "net":
+                conc = [i for i, n in enumerate(self.free) if n.startswith("log10_")]
+                lo = float(np.min(self.lower[conc]))
+                hi = float(np.max(self.upper[conc])) + math.log10(len(self.major))
+            else:
+                s_hat = float(np.sum([self._conc(self.theta[None, :], n) for n in self.major]))
+                floor = self.lower[self.free.index(self.minor)] if self.minor in self.free \
+                    else -math.inf
+                lo, hi = floor - math.log10(s_hat), math.log10(0.998)
+        g = self._gradient(key)
+        se, slope = math.nan, np.zeros(len(self.free))
+        if self.covar is not None:
+            var = float(g @ self.covar @ g)
+            if np.isfinite(var) and var > 0:
+                se = math.sqrt(var)
+                slope = self.covar @ g / var
+        return _Target(key, dep, float(centre), se, float(lo), float(hi), slope)
+
+    def to_z(self, theta: np.ndarray, dep: int) -> np.ndarray:
+        """Reduced rows (free minus ``dep``, the compensation linear) of parameter rows."""
+        z = np.array(theta, dtype=float)
+        lin = self.linear
+        z[..., lin] = 10.0 ** (z[..., lin] - self.theta[lin])
+        return np.delete(z, dep, axis=-1)
+
+    def z_bounds(self, dep: int) -> tuple[np.ndarray, np.ndarray]:
+        """Bounds of the reduced rows of a target whose held value sets ``dep``."""
+        return self.to_z(self.lower, dep), self.to_z(self.upper, dep)
+
+    def z_slope(self, t: _Target) -> np.ndarray:
+        """d z / d x at the best fit, from the covariance slope of the target."""
+        scale = np.where(self.linear, math.log(10.0), 1.0)
+        return np.delete(t.slope * scale, t.dep)
+
+    def complete(self, t: _Target, z: np.ndarray, x: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray]:
+        """Parameter rows from reduced rows ``z`` (free minus ``t.dep``) and held values ``x``.
+
+        Returns the rows and the violation of the dependent's bounds (0 when feasible). [dex]
+        """
+        theta = np.insert(z, t.dep, 0.0, axis=1)
+        lin = self.linear
+        theta[:, lin] = self.theta[lin] + np.log10(np.maximum(theta[:, lin], 1e-300))
+        if t.key in self.free:
+            theta[:, t.dep] = x
+            return theta, np.zeros(len(x))
+        name = self.free[t.dep]
+        others = sum(self._conc(theta, n) for n in self.major if n != name)
+        n_min = (self._conc(theta, self.minor) if self.minor and self.minor != name
+                 else np.zeros(len(x)))
+        if name == self.minor:
+            need = others - 10.0**x if t.key == "net" else 10.0**x * others
+        else:
+            need = 10.0**x + n_min - others if t.key == "net" else n_min / 10.0**x - others
+        lo, hi = self.lower[t.dep], self.upper[t.dep]
+        tiny = 10.0 ** (lo - 3.0)
+        raw = np.log10(np.maximum(need, tiny))
+        # below the floor in dex, and linear in the shortfall beyond 3 dex (a slope for the
+        # descent to climb back even where the need is negative)
+        viol = (np.maximum(lo - raw, 0.0) + np.maximum(raw - hi, 0.0)
+                + np.maximum(tiny - need, 0.0) / tiny)
+        if t.key == "ratio":
+            # a compensation held below the floor of its concentration is the floor: the
+            # model cannot tell them apart, so that is no infeasibility
+            viol = np.maximum(raw - hi, 0.0)
+        theta[:, t.dep] = np.clip(raw, lo, hi)
+        return theta, viol
+
+    # ---- batched refits ----------------------------------------------------------------
+    def _rows(self, job: _Job, z: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Parameter rows of reduced rows z and of their forward differences, and steps."""
+        n_r = z.shape[1]
+        h = 1e-6 * np.maximum(np.abs(z), 1e-2)
+        h = np.where(z + h > job.hi, -h, h)
+        zz = np.repeat(z, n_r + 1, axis=0)
+        for k in range(n_r):
+            zz[k + 1::n_r + 1, k] += h[:, k]
+        theta, viol = self.complete(job.end.target, zz, np.full(len(zz), job.x))
+        return theta, viol, h
+
+    def _evaluate(self, work: list[tuple[_Job, np.ndarray]]) -> list[tuple]:
+        """One vectorized solve for the reduced rows of every job, with forward differences.
+
+        Returns per job the residuals (rows, points), Jacobians (rows, points, n_r), Fermi
+        levels (rows, points) and bound violations (rows) of its rows.
+        """
+        n_r = len(self.free) - 1
+        parts = [self._rows(job, z) for job, z in work]
+        init = np.concatenate([np.repeat(job.fermi[None, :], len(th), axis=0)
+                               for (job, _), (th, _, _) in zip(work, parts, strict=True)])
+        r, fermi = self.residuals(np.concatenate([th for th, _, _ in parts]), init)
+        viol = np.concatenate([v for _, v, _ in parts])
+        # a dependent pushed past its bounds counts like the type penalty of Problem
+        r = r + 1e3 * viol[:, None] * np.sign(r + 1e-300)
+        out, at = [], 0
+        for (_, z), (_, _, h) in zip(work, parts, strict=True):
+            m = len(z) * (n_r + 1)
+            rr = r[at:at + m].reshape(len(z), n_r + 1, -1)
+            jac = np.transpose((rr[:, 1:, :] - rr[:, :1, :]) / h[:, :, None], (0, 2, 1))
+            out.append((rr[:, 0, :], jac, fermi[at:at + m:n_r + 1],
+                        viol[at:at + m:n_r + 1]))
+            at += m
+        return out
+
+    def _step(self, job: _Job) -> tuple[np.ndarray, float]:
+        """Levenberg-Marquardt trial point of a job and its Gauss-Newton decrement.
+
+        A parameter on a bound that the descent pushes against is held there. The decrement
+        g^T A^-1 g is the chi^2 still to gain near a minimum.
+        """
+        n_r = job.z.size
+        if n_r == 0:
+            return job.z, 0.0
+        a = job.jac.T @ job.jac
+        g = job.jac.T @ job.res
+        held = ((job.z <= job.lo) & (g > 0)) | ((job.z >= job.hi) & (g < 0))
+        g = np.where(held, 0.0, g)
+        a = np.where(held[:, None] | held[None, :], 0.0, a) + np.diag(held.astype(float))
+        try:
+            gn = float(g @ np.linalg.solve(a, g))
+            diag = np.diag(np.maximum(np.diag(a), 1e-300))
+            step = -np.linalg.solve(a + job.lam * diag, g)
+        except np.linalg.LinAlgError:
+            return job.z, 0.0
+        return np.clip(job.z + step, job.lo, job.hi), gn
+
+    # ---- the search for the ends -------------------------------------------------------
+    def intervals(self, keys: list[str], q: float, sides: tuple[float, ...] = (-1.0, 1.0)
+                  ) -> dict[str, ProfileInterval]:
+        """Profile intervals of the targets named (free internal names, "net", "ratio").
+
+        Every end is searched at once: each vectorized solve carries one descent step of the
+        refit under way at every end (or the candidate starts of a new one), so an end whose
+        refit has converged moves on to its next trial value without waiting for the others.
+
+        Parameters
+        ----------
+        keys
+            The quantities; those without a target (see :meth:`target`) are left out.
+        q
+            Threshold of chi^2 - chi^2_min in units of :attr:`unit` (3.841 for 95 %). [1]
+        sides
+            The ends searched, -1 (lower) and/or +1 (upper); an end not searched is the
+            centre.
+        """
+        tau = math.sqrt(q)
+        targets = [t for t in (self.target(k) for k in keys) if t is not None]
+        ends = []
+        for t in targets:
+            z0 = self.to_z(self.theta, t.dep)
+            for side in (-1.0, 1.0):
+                limit = (t.centre - t.lo) if side < 0 else (t.hi - t.centre)
+                end = EndSearch(t, side, max(limit, 0.0), z0, self.fermi0, tau,
+                                self.z_slope(t))
+                if side not in sides:
+                    end.finished, end.end = True, (0.0, False)
+                ends.append(end)
+        jobs = [self._job(e) for e in ends if not e.finished]
+        for _ in range(_SOLVES):
+            work = []
+            for job in jobs:
+                if job.z is not None:
+                    trial, gn = self._step(job)
+                    if not gn > 1e-3 * self.unit or job.lam > 1e8 or job.steps >= _STEPS:
+                        # converged, stuck, or out of steps (resumed if above threshold)
+                        job = self._close(job, converged=job.steps < _STEPS)
+                        if job is None:
+                            continue
+                    else:
+                        job.trial = trial
+                        work.append((job, trial[None, :]))
+                        continue
+                work.append((job, job.starts))
+            jobs = [job for job, _ in work]
+            if not work:
+                break
+            for (job, _), (res, jac, fermi, viol) in zip(work, self._evaluate(work),
+                                                         strict=True):
+                chi2 = np.sum(res**2, axis=1)
+                k = int(np.argmin(chi2))
+                if job.z is None or chi2[k] < job.chi2:
+                    if job.z is not None:
+                        job.lam = max(job.lam / 4.0, 1e-9)
+                    job.z = job.starts[k] if job.z is None else job.trial
+                    job.res, job.jac, job.fermi, job.viol, job.chi2 = (
+                        res[k], jac[k], fermi[k], viol[k], float(chi2[k]))
+                else:
+                    job.lam *= 8.0
+                if job.trial is not None:
+                    job.steps += 1
+        out = {}
+        for t in targets:
+            lo_end, hi_end = (e for e in ends if e.target is t)
+            d_lo, open_lo = lo_end.result()
+            d_hi, open_hi = hi_end.result()
+            out[t.key] = ProfileInterval(t.centre - d_lo, t.centre + d_hi, open_lo, open_hi)
+        return out
+
+    def _job(self, end: EndSearch) -> _Job:
+        """The refit of an end's next trial value."""
+        x, starts, fermi = end.job()
+        t = end.target
+        lo, hi = self.z_bounds(t.dep)
+        return _Job(end, x, np.clip(starts, lo, hi), fermi, lo, hi)
+
+    def _close(self, job: _Job, converged: bool) -> _Job | None:
+        """Hand a finished refit to its end; the end's next refit, or None when it is done."""
+        e = job.end
+        root = math.sqrt(max(job.chi2 - self.chi2_min, 0.0) / self.unit)
+        if converged and root > 2.0 * e.tau and e.first is None:
+            # far above the threshold: perhaps a side valley the moved start fell into; once
+            # more from the farthest point below the threshold, unmoved, and keep the better
+            e.first = (job.chi2, job.z, job.fermi, job.viol)
+            near = e.inner[-1]
+            return _Job(e, job.x, near[2][None, :], near[3], job.lo, job.hi)
+        chi2, z, fermi, viol = job.chi2, job.z, job.fermi, job.viol
+        if converged and e.first is not None and e.first[0] < chi2:
+            chi2, z, fermi, viol = e.first
+            root = math.sqrt(max(chi2 - self.chi2_min, 0.0) / self.unit)
+        if converged or root < e.tau:
+            e.record(e.trial, root, z, fermi, viol > 1e-6)
+        else:  # not yet at the bottom: go on from there
+            e.resume = (job.z, job.fermi)
+        return None if e.finished else self._job(e)
+
+
+class _Job:
+    """One refit under way: a held value, its candidate starts, and the descent state."""
+
+    def __init__(self, end: EndSearch, x: float, starts: np.ndarray, fermi: np.ndarray,
+                 lo: np.ndarray, hi: np.ndarray) -> None:
+        self.end, self.x, self.starts, self.fermi = end, x, starts, fermi
+        self.lo, self.hi = lo, hi
+        self.z: np.ndarray | None = None  # current point (None until the starts are solved)
+        self.trial: np.ndarray | None = None
+        self.res = self.jac = None
+        self.chi2, self.viol, self.lam, self.steps = math.inf, 0.0, 1e-3, 0
