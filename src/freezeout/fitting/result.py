@@ -7,6 +7,7 @@ from typing import Any
 
 import numpy as np
 
+from freezeout.fitting.adequacy import model_inadequate, rms_percent, runs_z
 from freezeout.numbers import finite_or_none
 from freezeout.physics.materials import Material
 
@@ -219,7 +220,9 @@ class FitResult:
     data
         Points of the run, the model at them, and which points were used.
     fixed
-        Parameters held fixed, public name -> value.
+        Parameters held fixed, public name -> value; in the JSON each held value (and a
+        derived one that depends on no free parameter) reads ``"fixed": true`` with no
+        standard error or interval.
     optimizer_message
         Message of the local optimizer for the retained start.
     error_inflation
@@ -259,21 +262,74 @@ class FitResult:
     alternatives: tuple = ()
     raw: Any = field(default=None, repr=False, compare=False)
 
+    def _ln_residual(self) -> np.ndarray:
+        """ln(model) - ln(measured) at the points used, in temperature order."""
+        used = np.asarray(self.data.used, dtype=bool)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.log(self.data.model_density[used] / self.data.density[used])
+
+    @property
+    def rms_residual_percent(self) -> float:
+        """rms of ln(model/measured) over the points used, times 100. [%]"""
+        return rms_percent(self._ln_residual())
+
+    @property
+    def model_adequate(self) -> bool:
+        """False when the misfit is gross and systematic: the numbers are not measurements.
+
+        The rule is :func:`freezeout.fitting.adequacy.model_inadequate`.
+        """
+        ln = self._ln_residual()
+        return not model_inadequate(self.weighted, self.reduced_chi2, rms_percent(ln),
+                                    runs_z(ln))
+
+    def _fixed_marked(self) -> tuple[list[dict], dict, dict]:
+        """Levels, net doping and compensation ratio as JSON, held values marked fixed.
+
+        A held value, or a derived one that depends on no free parameter, has no standard
+        error or interval: ``{"value", "stderr": null, "ci95": [null, null], "fixed": true}``.
+        """
+        def held(d: dict) -> dict:
+            return {**d, "stderr": None, "ci95": [None, None], "fixed": True}
+
+        levels = []
+        for lv in self.levels:
+            d = lv.to_dict()
+            if f"N_{lv.name}" in self.fixed:
+                d["concentration_cm3"] = held(d["concentration_cm3"])
+            if d["energy_eV"] is not None and f"E_{lv.name}" in self.fixed:
+                d["energy_eV"] = held(d["energy_eV"])
+            levels.append(d)
+        concentrations = [f"N_{lv.name}" for lv in self.levels]
+        all_held = all(n in self.fixed for n in concentrations)
+        # without a compensating species the model holds the ratio at 0
+        uncompensated = all(lv.energy is not None for lv in self.levels)
+        net = self.net_doping.to_dict()
+        comp = self.compensation_ratio.to_dict()
+        if all_held:
+            net = held(net)
+        if all_held or uncompensated:
+            comp = held(comp)
+        return levels, net, comp
+
     def to_dict(self) -> dict:
         """The JSON document printed by ``freezeout fit --json``."""
         corr = [[finite_or_none(x) for x in row] for row in np.asarray(self.correlation)]
+        levels, net, comp = self._fixed_marked()
         return {
             "schema_version": SCHEMA_VERSION,
             "carrier": self.carrier,
-            "levels": [lv.to_dict() for lv in self.levels],
-            "compensation_ratio": self.compensation_ratio.to_dict(),
-            "net_doping_cm3": self.net_doping.to_dict(),
+            "levels": levels,
+            "compensation_ratio": comp,
+            "net_doping_cm3": net,
             "statistics": {"chi2": finite_or_none(self.chi2),
                            "reduced_chi2": finite_or_none(self.reduced_chi2),
                            "aic": finite_or_none(self.aic), "bic": finite_or_none(self.bic),
                            "n_points": self.n_points, "n_parameters": self.n_parameters,
                            "weighted": self.weighted, "model": self.statistics_model,
-                           "error_inflation": finite_or_none(self.error_inflation)},
+                           "error_inflation": finite_or_none(self.error_inflation),
+                           "rms_residual_percent": finite_or_none(self.rms_residual_percent),
+                           "model_adequate": self.model_adequate},
             "correlation": {"parameters": list(self.parameter_names), "matrix": corr},
             "fixed": {k: finite_or_none(v) for k, v in self.fixed.items()},
             "warnings": list(self.warnings),

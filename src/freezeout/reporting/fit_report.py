@@ -49,6 +49,16 @@ def _estimate_cells(est: dict | None, unit: str) -> str:
             f"{_fmt(est['stderr'], unit, 2)}</td><td class=num>{ci}</td><td>{method}</td>")
 
 
+def _rms_sentence(st: dict) -> str:
+    """The rms misfit in percent; for an unweighted fit, what its reduced χ² is not."""
+    rms = st.get("rms_residual_percent")
+    if rms is None:
+        return ""
+    note = ("" if st["weighted"] else " Unweighted, so the reduced χ² is the residual "
+            "variance in ln units, not a goodness-of-fit test.")
+    return f" rms residual {rms:.2g} % (ln density).{note}"
+
+
 def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
     from freezeout.reporting import figures as fg
 
@@ -104,7 +114,7 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
         if name not in user_bounds:
             return ""
         lo, hi = user_bounds[name]
-        return esc(f" (bounded {_fmt(lo)} … {_fmt(hi)} {unit} by --bound)")
+        return esc(f" (bounded by the user: {_fmt(lo)} … {_fmt(hi)} {unit})")
 
     for lv in d["levels"]:
         label = f"{lv['kind']} {lv['name']}"
@@ -153,7 +163,8 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
         f"<tr><th>{esc(k)}</th><td class=num>{_fmt(mat.get(k))}</td>"
         f"<td>{esc(str(mat.get('sources', {}).get(k, '')))}</td></tr>"
         for k in ("band_gap_0K_eV", "varshni_alpha_eV_per_K", "varshni_beta_K",
-                  "electron_dos_mass", "hole_dos_mass", "relative_permittivity"))
+                  "electron_dos_mass", "hole_dos_mass", "relative_permittivity",
+                  "electron_conductivity_mass", "hole_conductivity_mass"))
     inflation = st.get("error_inflation") or 1.0
     inflated = (f" Standard errors inflated by √χ²_red = {inflation:.3g}, as the points "
                 "scatter more than their stated uncertainties." if inflation > 1.0 else "")
@@ -176,7 +187,7 @@ when the errors are inflated or fitted), the other parameters refitted; one-side
 end is a limit of the model's range (a concentration floor, the band gap) rather than set by
 the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
-BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}</p>
+BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_sentence(st)}</p>
 {_alternatives_html(d.get("alternatives") or [])}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
