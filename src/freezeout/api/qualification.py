@@ -71,9 +71,20 @@ def _fit_summary(fit):
                       tuple(comp.ci95), fit.n_points, fit.reduced_chi2, tuple(fit.warnings))
 
 
+def outside_paths(lot: LotFile) -> list[str]:
+    """The lot's run and material files outside the lot file's folder (resolved paths)."""
+    base = lot.path.parent
+    files = [p for w in lot.wafers for p in (w.run, w.material_file) if p is not None]
+    return list(dict.fromkeys(str(p) for p in files if not p.is_relative_to(base)))
+
+
 def build_qualification(lot: LotFile, outcomes: dict[str, WaferOutcome],
                         sha256: str) -> LotQualification:
-    """Decide the lot's claims from the wafers' outcomes and make the qualification record."""
+    """Decide the lot's claims from the wafers' outcomes and make the qualification record.
+
+    When the lot names files outside its folder (read only with ``allow_outside``), the
+    provenance options say so: ``allow_outside_paths`` and ``paths_outside_lot_folder``.
+    """
     import datetime as dt
 
     from freezeout.claims import evaluate_lot
@@ -92,10 +103,14 @@ def build_qualification(lot: LotFile, outcomes: dict[str, WaferOutcome],
             how=o.how, reason=o.reason, fit=None if o.fit is None else _fit_summary(o.fit),
             hall_factor=None if o.measurement is None else o.measurement.hall_factor,
             note=w.note)
+    options = lot_options()
+    outside = outside_paths(lot)
+    if outside:
+        options |= {"allow_outside_paths": True, "paths_outside_lot_folder": outside}
     provenance = LotProvenance(
         lot_file=lot.path.name, lot_input_sha256=sha256, tool_version=__version__,
         date=dt.datetime.now(dt.UTC).replace(microsecond=0).isoformat(),
-        options=lot_options())
+        options=options)
     return LotQualification(lot, verdict, inputs, provenance)
 
 
@@ -157,7 +172,8 @@ def _refuse_overwrite(lot: LotFile, folder: Path | None, db: str | None) -> None
 
 def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool = True,
                 db: str | None = None, workers: int | None = None,
-                progress: Progress | None = None) -> QualificationOutcome:
+                progress: Progress | None = None,
+                allow_outside: bool = False) -> QualificationOutcome:
     """Qualify a lot: measure every wafer, decide every claim, report and store.
 
     Parameters
@@ -175,6 +191,9 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
         wafer; 1 fits in this process).
     progress
         Called after each wafer with (done, total, wafer id).
+    allow_outside
+        Read run and material files outside the lot file's folder (``..``, absolute paths,
+        symbolic links out); refused by default. The report and lot.json then say so.
 
     Raises
     ------
@@ -188,7 +207,7 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
 
     if workers is not None and workers < 1:
         raise InputError(f"--workers must be at least 1, got {workers}")
-    lot = load_lot(path)
+    lot = load_lot(path, allow_outside=allow_outside)
     folder = None
     if out is not None or report:
         folder = Path(out) if out is not None else default_lot_folder(lot.lot)

@@ -34,6 +34,24 @@ _NET_DOPANT_SPELLINGS = (*_TYPE_DOPANT_SPELLINGS, "phosphorous")
 
 _PERCENT = re.compile(r"\s*([0-9.eE+\-]+)\s*%\s*")
 
+#: Values a claim may state, in canonical units (cm^-3, ohm cm), both ends included. Project
+#: choice, no source: wider than any semiconductor wafer's net doping or resistivity, so a value
+#: outside is a typing slip (1e300 for 1e13), refused instead of decided.
+PLAUSIBLE_RANGE = {"net_doping": (1e8, 1e23), "resistivity": (1e-6, 1e12)}
+
+
+def _check_plausible(ctx: LotContext, i: int, key: str, quantity: str, value: float,
+                     written: float, unit: str, canonical: str) -> None:
+    """Refuse a claim value (canonical units) outside :data:`PLAUSIBLE_RANGE`."""
+    lo, hi = PLAUSIBLE_RANGE[quantity]
+    if lo * (1 - 1e-9) <= value <= hi * (1 + 1e-9):
+        return
+    what = "net doping" if quantity == "net_doping" else "resistivity"
+    shown = f"{written:g} {unit}" + ("" if unit == canonical else f" = {value:g} {canonical}")
+    raise ctx.error(f"{key} = {shown} is outside the {what} values a claim may state "
+                    f"({lo:g} to {hi:g} {canonical}; freezeout's own plausibility limits): "
+                    "check the number and its unit", key_path("claim", i, key), "claim", i, key)
+
 
 def _dopant_name(raw: str | None, spellings: tuple[str, ...]) -> str | None:
     """A dopant as written (lower case), boron and phosphorus normalised; None if absent."""
@@ -182,6 +200,9 @@ def parse_claim(ctx: LotContext, d: dict, i: int) -> Claim:
     if has_limits:
         lo = None if raw["min"] is None else float(u.to_canonical(raw["min"]))
         hi = None if raw["max"] is None else float(u.to_canonical(raw["max"]))
+        for k, v in (("min", lo), ("max", hi)):
+            if v is not None:
+                _check_plausible(ctx, i, k, quantity, v, raw[k], unit, canonical)
         if lo is not None and hi is not None and not lo < hi:
             raise ctx.error(f"max ({raw['max']:g}) must be greater than min ({raw['min']:g})",
                             key_path(t, i, "max"), t, i, "max")
@@ -193,8 +214,9 @@ def parse_claim(ctx: LotContext, d: dict, i: int) -> Claim:
         if "tolerance" not in d:
             raise ctx.error("nominal given without tolerance", key_path(t, i, "tolerance"),
                             t, i, "nominal")
-        window, tolerance_percent = _nominal_window(
-            ctx, d, i, u, unit, float(u.to_canonical(raw["nominal"])), canonical)
+        nominal = float(u.to_canonical(raw["nominal"]))
+        _check_plausible(ctx, i, "nominal", quantity, nominal, raw["nominal"], unit, canonical)
+        window, tolerance_percent = _nominal_window(ctx, d, i, u, unit, nominal, canonical)
     else:
         raise ctx.error(f"a {quantity} claim needs min and/or max, or nominal and tolerance",
                         key, t, i)

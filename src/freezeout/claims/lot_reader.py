@@ -129,7 +129,24 @@ def _parse_measurement(ctx: LotContext, top: dict) -> HallFactor:
     return _parse_hall(ctx, d, "measurement", None, HallFactor())
 
 
-def _material_of(ctx: LotContext, d: dict, i: int, base: Path) -> tuple[str, Path | None]:
+def _inside(ctx: LotContext, resolved: Path, base: Path, i: int, key: str,
+            allow_outside: bool) -> Path:
+    """Refuse a wafer's file that leaves the lot's folder (``..``, absolute, symlink out).
+
+    ``resolved`` is the path with every symbolic link followed; ``base`` the lot file's
+    resolved folder. Project choice, no source: a lot names the files beside it, so a lot
+    received from elsewhere cannot make freezeout read (and copy into a report) any file.
+    """
+    if allow_outside or resolved.is_relative_to(base):
+        return resolved
+    raise ctx.error(
+        f"{key} {resolved} is outside the lot's folder {base} (through '..', an absolute path "
+        "or a symbolic link); pass --allow-outside-paths (API: allow_outside=True) to read it",
+        key_path("wafer", i, key), "wafer", i, key)
+
+
+def _material_of(ctx: LotContext, d: dict, i: int, base: Path,
+                 allow_outside: bool = False) -> tuple[str, Path | None]:
     """The wafer's material name, and its resolved material file (None: bundled)."""
     t = "wafer"
     material = read_string(ctx, d, "material", t, i, required=False)
@@ -143,7 +160,8 @@ def _material_of(ctx: LotContext, d: dict, i: int, base: Path) -> tuple[str, Pat
         except InputError as exc:
             raise ctx.error(exc.message, key_path(t, i, "material"), t, i,
                             "material") from None
-    material_file = (base / material_file_s).resolve()
+    material_file = _inside(ctx, (base / material_file_s).resolve(), base, i, "material_file",
+                            allow_outside)
     if not material_file.is_file():
         raise ctx.error(f"material file not found: {material_file}",
                         key_path(t, i, "material_file"), t, i, "material_file")
@@ -154,16 +172,17 @@ def _material_of(ctx: LotContext, d: dict, i: int, base: Path) -> tuple[str, Pat
                         "material_file") from None
 
 
-def _parse_wafer(ctx: LotContext, d: dict, i: int, base: Path, lot_hall: HallFactor) -> Wafer:
+def _parse_wafer(ctx: LotContext, d: dict, i: int, base: Path, lot_hall: HallFactor,
+                 allow_outside: bool = False) -> Wafer:
     t = "wafer"
     check_keys(ctx, d, _WAFER_KEYS, t, i)
     if "id" in d and isinstance(d["id"], int) and not isinstance(d["id"], bool):
         raise ctx.error(f"id must be a string (write id = \"{d['id']}\")",
                         key_path(t, i, "id"), t, i, "id")
     wid = read_string(ctx, d, "id", t, i, required=True)
-    material, material_file = _material_of(ctx, d, i, base)
+    material, material_file = _material_of(ctx, d, i, base, allow_outside)
     run_s = read_string(ctx, d, "run", t, i, required=True)
-    run = (base / run_s).resolve()
+    run = _inside(ctx, (base / run_s).resolve(), base, i, "run", allow_outside)
     if not run.is_file():
         raise ctx.error(f"run file not found: {run}", key_path(t, i, "run"), t, i, "run")
     note = read_string(ctx, d, "note", t, i, required=False)
@@ -228,7 +247,7 @@ def _cross_checks(ctx: LotContext, claims: list[Claim], wafers: list[Wafer]) -> 
         seen[w.wafer_id] = w
 
 
-def parse_lot(text: str, path: str | Path) -> LotFile:
+def parse_lot(text: str, path: str | Path, *, allow_outside: bool = False) -> LotFile:
     """Parse the text of a lot file.
 
     Parameters
@@ -238,6 +257,9 @@ def parse_lot(text: str, path: str | Path) -> LotFile:
     path
         The lot file's path; ``run`` and ``material_file`` paths are resolved relative to its
         directory, and it is named in errors.
+    allow_outside
+        Accept ``run`` and ``material_file`` paths that leave the lot file's folder (through
+        ``..``, an absolute path or a symbolic link); refused by default.
 
     Returns
     -------
@@ -247,9 +269,9 @@ def parse_lot(text: str, path: str | Path) -> LotFile:
     Raises
     ------
     InputError
-        For a TOML syntax error, an unknown or missing key, a wrong type, a missing file or an
-        impossible claim; ``file``, ``line`` (when it can be found) and the key path as
-        ``column`` say where.
+        For a TOML syntax error, values nested too deep, an unknown or missing key, a wrong
+        type, a missing file, a file outside the lot's folder or an impossible claim; ``file``,
+        ``line`` (when it can be found) and the key path as ``column`` say where.
     """
     path = Path(path).resolve()
     ctx = LotContext(path, text)
@@ -260,6 +282,10 @@ def parse_lot(text: str, path: str | Path) -> LotFile:
         m = re.search(r"line (\d+)", msg)
         raise InputError(f"not valid TOML: {msg}", file=str(path),
                          line=int(m.group(1)) if m else None) from None
+    except RecursionError:
+        # tomllib descends once per [ or { level; no lot file nests more than a few
+        raise InputError("not a lot file: arrays or inline tables nested too deep",
+                         file=str(path), line=_deepest_line(text)) from None
     check_keys(ctx, top, _TOP_KEYS, "", None)
     supplier = read_string(ctx, top, "supplier", "", None, required=True)
     lot = read_string(ctx, top, "lot", "", None, required=True)
@@ -270,20 +296,37 @@ def parse_lot(text: str, path: str | Path) -> LotFile:
     measurement = _parse_measurement(ctx, top)
     claims = [parse_claim(ctx, d, i) for i, d in
               enumerate(read_tables(ctx, top, "claim"), start=1)]
-    wafers = [_parse_wafer(ctx, d, i, path.parent, measurement) for i, d in
+    wafers = [_parse_wafer(ctx, d, i, path.parent, measurement, allow_outside) for i, d in
               enumerate(read_tables(ctx, top, "wafer"), start=1)]
     _cross_checks(ctx, claims, wafers)
     return LotFile(path, supplier, lot, date, decision, tuple(claims), tuple(wafers),
                    certificate, note, measurement)
 
 
-def load_lot(path: str | Path) -> LotFile:
+def _deepest_line(text: str) -> int | None:
+    """The line (1-based) where brackets and braces first nest deepest, ignoring strings."""
+    depth = best = 0
+    best_line = None
+    for lineno, line in enumerate(text.splitlines(), start=1):
+        for ch in line:
+            if ch in "[{":
+                depth += 1
+                if depth > best:
+                    best, best_line = depth, lineno
+            elif ch in "]}":
+                depth = max(depth - 1, 0)
+    return best_line
+
+
+def load_lot(path: str | Path, *, allow_outside: bool = False) -> LotFile:
     """Read and parse a lot file.
 
     Parameters
     ----------
     path
         Path of the TOML lot file.
+    allow_outside
+        Accept wafer files outside the lot file's folder (see :func:`parse_lot`).
 
     Returns
     -------
@@ -302,4 +345,4 @@ def load_lot(path: str | Path) -> LotFile:
         raise InputError("lot file not found", file=str(p)) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot read lot file: {exc}", file=str(p)) from None
-    return parse_lot(text, p)
+    return parse_lot(text, p, allow_outside=allow_outside)

@@ -36,6 +36,10 @@ def qualify_command(
     workers: Annotated[int | None, typer.Option(
         "--workers", "-j", help="Processes fitting wafers at once (default: the number of "
         "CPUs, at most one per wafer; 1 fits in this process).")] = None,
+    allow_outside_paths: Annotated[bool, typer.Option(
+        "--allow-outside-paths", help="Read run and material files outside the lot file's "
+        "folder ('..', absolute paths, symbolic links out); refused by default. The report "
+        "says so.")] = False,
 ) -> int:
     """Qualify a lot; see HELP."""
     from rich.progress import (
@@ -58,7 +62,8 @@ def qualify_command(
                        description=f"measured wafer {wafer_id}")
 
         outcome = api.qualify_lot(lot, out=out, report=not json_output, db=db,
-                                  workers=workers, progress=progress)
+                                  workers=workers, progress=progress,
+                                  allow_outside=allow_outside_paths)
     if json_output:
         print_json(outcome.to_dict())
     else:

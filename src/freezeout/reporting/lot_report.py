@@ -345,6 +345,10 @@ def render_lot_html(qualification: LotQualification,
     sub.append(f"{len(v.wafers)} wafers")
     sub.append(f"{esc(rule)} rule, k = {k}")
     note = f"<p>{esc(str(lot.note))}</p>" if lot.note else ""
+    outside = prov.options.get("paths_outside_lot_folder")
+    if outside:  # read only because the user allowed it (qualify --allow-outside-paths)
+        note += ("<p class=caution>Allowed by --allow-outside-paths: this lot read files "
+                 f"outside the lot file's folder: {esc(', '.join(map(str, outside)))}.</p>")
     # the deference sentence stands once, in bold under the rule
     sentence = str(v.sentence or "").replace(DEFERENCE, "").strip()
     return f"""<!doctype html>
