@@ -9,8 +9,8 @@ the covariance (Wald) intervals covered the truth in fewer than 95 % of the repl
 A 95 % interval must cover the true value in about 95 % of repeated experiments (the
 definition of a confidence interval; J. Neyman, Phil. Trans. R. Soc. A 236, 333 (1937)).
 With 100 replicates the count of a true 95 % interval lies within 91-99 with probability
-0.96 (binomial, computed here with scipy.stats); the bounds are the brief's (project
-choice, no source).
+0.96 (binomial, computed here with scipy.stats); the bounds 91-99 are a project
+choice, no source.
 
 The fits run in-process on runs built in memory, over two worker processes.
 """

@@ -36,7 +36,7 @@ Q_SI = 1.602176634e-19  # [C]
 # sample with contacts 1..4 counter-clockwise (positive field towards the viewer):
 # R_12,43 and its reciprocal R_43,12 are R_A; R_23,14 and R_14,23 are R_B (van der Pauw,
 # Philips Res. Rep. 13, 1 (1958): R_AB,CD = R_CD,AB); the Hall diagonals are
-# R(1,3,2,4) = k B + m and R(2,4,3,1) = k B - m (the brief's convention: current 1 -> 3,
+# R(1,3,2,4) = k B + m and R(2,4,3,1) = k B - m (project convention, no source: current 1 -> 3,
 # positive field, V2 - V4 > 0 for holes; the second diagonal is the first turned by one
 # contact; reciprocity R_AB,CD(B) = R_CD,AB(-B) makes the misalignment m change sign).
 RESISTANCE_CONFIGS = ((1, 2, 4, 3), (4, 3, 1, 2), (2, 3, 1, 4), (1, 4, 2, 3))
@@ -181,8 +181,8 @@ def test_hall_density_uses_the_exact_si_charge():
 def test_sheet_density_worked_number():
     """I = 1 mA, B = 0.5 T, V_H = 3.12 mV -> n_s = I B / (q V_H) = 1.000e14 cm^-2.
 
-    Value from the vetted check list of the issue (computed); formula: Hall effect in a
-    thin layer, n_s = I B / (q V_H) (van der Pauw 1958, Hall section).
+    Value computed here from the formula of the Hall effect in a thin layer,
+    n_s = I B / (q V_H) (van der Pauw 1958, Hall section).
     """
     n_s = sheet_density(1e-3, 0.5, 3.12e-3)
     assert n_s == pytest.approx(1.000e14, rel=5e-4)

@@ -63,7 +63,7 @@ def test_symmetric_case_is_pi_over_ln2():
     """R_A = R_B = R gives R_s = pi R / ln 2 = 4.532360 R (van der Pauw 1958, Eq. 5)."""
     for r in (1e-3, 1.0, 7.25, 3.3e6):
         assert sheet_resistance(r, r) == pytest.approx(math.pi * r / math.log(2), rel=1e-14)
-    assert sheet_resistance(1.0, 1.0) == pytest.approx(4.532360, abs=5e-7)  # vetted list
+    assert sheet_resistance(1.0, 1.0) == pytest.approx(4.532360, abs=5e-7)  # pi/ln 2, computed here
     assert correction_factor(5.0, 5.0) == pytest.approx(1.0, rel=1e-14)
 
 
@@ -74,8 +74,8 @@ def test_symmetric_case_is_pi_over_ln2():
 def test_correction_factor_against_mpmath_and_listed_values(q, f_listed, rs_listed):
     """f(Q) and R_s (R_A = 1 ohm) against mpmath's root of the cosh form.
 
-    The listed values (issue's vetted check list, computed) are rounded; the mpmath root is
-    the tight check.
+    The listed values are rounded roots of van der Pauw's equation (1958), computed here with
+    mpmath beforehand; the mpmath root in this test is the tight check.
     """
     f_mp = mp_correction_factor(q)
     assert correction_factor(1.0, q) == pytest.approx(float(f_mp), rel=1e-12)
