@@ -48,9 +48,12 @@ def test_varshni_silicon(t, eg):
 def test_silicon_intrinsic_density_against_misiakos_tsamakis():
     """n_i(T) = 5.29e19 (T/300)^2.54 exp(-6726/T) cm^-3, 78-340 K (K. Misiakos, D. Tsamakis,
     J. Appl. Phys. 74, 3293 (1993)). Our n_i uses constant DOS masses and the Varshni gap, a
-    different parameter set: published sets spread by about 10 % at 300 K (n_i(300 K) from
-    8.7e9 to 1.07e10), so the level is checked to 15 % and the temperature dependence (the
-    activation energy of n_i T^-3/2 over 200-340 K) to 2 %."""
+    different parameter set. Published n_i(300 K) spread by about 10 %: 9.65e9 (P. P. Altermatt
+    et al., J. Appl. Phys. 93, 1598 (2003)), 1.00e10 (R. Sproul, M. A. Green, J. Appl. Phys.
+    70, 846 (1991); the number from memory), 8.7e9 computed here from the Levinshtein et al.
+    handbook's Nc, Nv and Varshni gap. So the level is checked to 15 % and the temperature
+    dependence (the activation energy of n_i T^-3/2 over 200-340 K) to 2 %; both tolerances
+    are our own choice."""
     si = get_material("Si")
     t = np.array([78.0, 100.0, 150.0, 200.0, 250.0, 300.0, 340.0])
     mt = 5.29e19 * (t / 300.0) ** 2.54 * np.exp(-6726.0 / t)

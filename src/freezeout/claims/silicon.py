@@ -22,6 +22,11 @@ Valid ranges are enforced: a resistivity outside the stated range, or a density 
 of that range under eq. (1) or eq. (2), raises :class:`freezeout.errors.InputError` (a
 ``ValueError``).
 
+The standard also gives a relation for arsenic-doped silicon; it is not implemented here, so an
+arsenic claim that needs a conversion is refused rather than converted with the phosphorus
+relation. The edition of the standard (or of SEMI MF723) named in the purchase contract governs;
+these relations are the ones of the 1999 edition as published by Thurber et al. (from memory).
+
 References
 ----------
 .. [1] ASTM F723-99, standard practice for conversion between resistivity and dopant density

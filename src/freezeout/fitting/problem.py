@@ -78,7 +78,9 @@ class Problem:
 
         The uncertainty of the independent variable is carried into the residual by the
         law of propagation of uncertainty (ISO/IEC Guide 98-3 (GUM), 5.1.2) applied to the
-        model's temperature dependence.
+        model's temperature dependence: the effective-variance method of least squares
+        (J. Orear, "Least squares when both variables have uncertainties", Am. J. Phys. 50,
+        912 (1982); from memory).
         """
         slope = self.log_slope(values)
         self.sigma = np.sqrt(base_sigma**2 + (slope * temperature_err) ** 2)
