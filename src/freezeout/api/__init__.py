@@ -4,6 +4,7 @@ Every call imports the numerical stack only when it runs, so ``import freezeout`
 CLI's ``--help``) stays fast.
 """
 
+from freezeout._version import __version__ as __version__
 from freezeout.api.fits import (
     FIT_REPORT_FILES,
     default_report_folder,

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import os
 import sys
+from typing import Annotated
 
 import typer
 
@@ -32,6 +33,23 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
 )
+
+def _print_version(value: bool) -> None:
+    if value:
+        from freezeout.api import __version__
+
+        typer.echo(f"freezeout {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _options(
+    version: Annotated[bool, typer.Option(
+        "--version", help="Print the version and exit.", is_eager=True,
+        callback=_print_version)] = False,
+) -> None:
+    """Options before the command."""
+
 
 app.command("fit", help=fit_cmd.HELP)(fit_cmd.fit_command)
 app.command("simulate", help=simulate_cmd.HELP)(simulate_cmd.simulate_command)

@@ -8,6 +8,7 @@ from typing import Annotated
 import typer
 
 from freezeout import api
+from freezeout.api.fits import check_history_url
 from freezeout.cli.common import (
     DbOpt,
     JsonOpt,
@@ -18,6 +19,7 @@ from freezeout.cli.common import (
     parse_number,
     print_json,
 )
+from freezeout.cli.render import clean, console, num, say, show, text
 from freezeout.errors import InputError
 
 HELP = ("Fit a temperature run (reduced CSV or raw readings) to the carrier model and write "
@@ -71,6 +73,8 @@ def fit_command(
         if not sep:
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
+    if not no_history:  # a URL the history cannot use fails before the fit, nothing written
+        check_history_url(db)
     folder = None
     if out is not None or not json_output:
         folder = out if out is not None else api.default_report_folder(run)
@@ -80,8 +84,12 @@ def fit_command(
                           degeneracy=degeneracy, fix=fixes, bounds=bounds,
                           include_mixed=include_mixed, include_flagged=include_flagged,
                           thickness=thickness)
+    replacing = folder is not None and Path(folder).is_dir() and any(Path(folder).iterdir())
     written = {} if folder is None else api.write_fit_report(result, folder)
-    saved = None if no_history else api.record_fit(result, db)
+    if replacing:
+        typer.echo(f"replaced the earlier report in {folder}", err=json_output)
+    saved = None if no_history else api.record_fit(result, db,
+                                                   report=folder if written else None)
     if json_output:
         print_json(result.to_dict())
     else:
@@ -93,14 +101,15 @@ def fit_command(
 
 
 def _print_summary(result, written) -> None:
-    from rich.console import Console
     from rich.table import Table
+    from rich.text import Text
 
-    con = Console()
+    con = console()
     d = result.to_dict()
     st = d["statistics"]
-    table = Table(title=f"{d['provenance']['input']}: {d['carrier']}-type "
-                  f"{d['material']['name']}, {st['n_points']} points", title_justify="left")
+    table = Table(title=text(f"{d['provenance']['input']}: {d['carrier']}-type "
+                             f"{d['material']['name']}, {st['n_points']} points"),
+                  title_justify="left")
     for col in ("parameter", "value", "std. error", "95 % interval"):
         table.add_column(col, justify="right" if col != "parameter" else "left")
 
@@ -108,16 +117,17 @@ def _print_summary(result, written) -> None:
 
     def row(name, est, unit):
         lo, hi = est["ci95"]
-        ci = "—" if lo is None else f"{lo:.4g} … {hi:.4g}"
-        se = "—" if est["stderr"] is None else f"{est['stderr']:.2g}"
+        ci = Text("—" if lo is None else f"{num(lo)} … {num(hi)}")
+        se = "—" if est["stderr"] is None else num(est["stderr"], 2)
         if est.get("method"):  # how the interval was computed, under it
-            ci = f"{ci}\n[dim]{est['method']}[/dim]"
+            ci.append("\n")
+            ci.append(clean(est["method"]), style="dim")
         if est.get("fixed"):
-            se, ci = "fixed", "fixed (held)"
+            se, ci = "fixed", Text("fixed (held)")
         if name in user_bounds:
             b_lo, b_hi = user_bounds[name]
-            name = f"{name}\n bounds {b_lo:.3g}…{b_hi:.3g}"
-        table.add_row(name, f"{est['value']:.4g} {unit}", se, ci)
+            name = f"{name}\n bounds {num(b_lo, 3)}…{num(b_hi, 3)}"
+        table.add_row(text(name), text(f"{num(est['value'])} {unit}".rstrip()), text(se), ci)
 
     for lv in d["levels"]:
         row(f"N_{lv['name']}", lv["concentration_cm3"], "cm^-3")
@@ -125,15 +135,14 @@ def _print_summary(result, written) -> None:
             row(f"E_{lv['name']}", lv["energy_eV"], "eV")
     row("net doping", d["net_doping_cm3"], "cm^-3")
     row("compensation ratio", d["compensation_ratio"], "")
-    con.print(table)
-    con.print(f"chi^2 = {st['chi2']:.4g}, reduced chi^2 = {st['reduced_chi2']:.4g}, "
-              f"AIC = {st['aic']:.4g}, BIC = {st['bic']:.4g}")
+    show(con, table)
+    say(con, f"chi^2 = {num(st['chi2'])}, reduced chi^2 = {num(st['reduced_chi2'])}, "
+             f"AIC = {num(st['aic'])}, BIC = {num(st['bic'])}")
     if st.get("rms_residual_percent") is not None:
         note = ("" if st["weighted"] else "; unweighted, so reduced chi^2 is the residual "
                 "variance in ln units, not a goodness-of-fit test")
-        con.print(f"rms residual = {st['rms_residual_percent']:.2g} % (ln density){note}",
-                  highlight=False)
+        say(con, f"rms residual = {num(st['rms_residual_percent'], 2)} % (ln density){note}")
     for w in d["warnings"]:
-        con.print(f"[yellow]warning:[/yellow] {w}", highlight=False)
+        say(con, Text.assemble(("warning: ", "yellow"), clean(w)))
     if written:
-        con.print(f"report: {written['report.html']}", highlight=False)
+        say(con, f"report: {written['report.html']}")

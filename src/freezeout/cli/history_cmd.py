@@ -9,6 +9,7 @@ import typer
 
 from freezeout import api
 from freezeout.cli.common import DbOpt, JsonOpt, print_json
+from freezeout.cli.render import console, num, say, show, text
 
 HELP = ("List the fits and lot qualifications stored in the history database, and draw the "
         "trend of measured over claimed values per lot for each supplier (a PNG per "
@@ -23,8 +24,9 @@ def _result_text(rec) -> str:
                     if x)
     if rec.net_doping is None:
         return head or "—"
-    se = "" if rec.net_doping_stderr is None else f" ± {rec.net_doping_stderr:.2g}"
-    return f"{head}: {abs(rec.net_doping):.4g}{se}" if head else f"{abs(rec.net_doping):.4g}{se}"
+    se = "" if rec.net_doping_stderr is None else f" ± {num(rec.net_doping_stderr, 2)}"
+    value = num(abs(rec.net_doping))
+    return f"{head}: {value}{se}" if head else f"{value}{se}"
 
 
 def history_command(
@@ -54,13 +56,11 @@ def history_command(
 
 
 def _print(records, suppliers, trends, figures) -> None:
-    from rich.console import Console
     from rich.table import Table
-    from rich.text import Text
 
-    con = Console()
+    con = console()
     if not records:
-        con.print("no records match", highlight=False, markup=False)
+        say(con, "no records match")
     else:
         table = Table(title=f"{len(records)} record(s) (date: lot date for lots, storage "
                       "date (UTC) for fits)", title_justify="left")
@@ -73,13 +73,12 @@ def _print(records, suppliers, trends, figures) -> None:
         table.add_column("verdict / net doping [cm^-3]", overflow="fold")
         for r in records:
             date = r.lot_date if r.lot_date is not None else r.created_at.date()
-            table.add_row(*(Text(x) for x in (r.kind, str(r.record_id), date.isoformat(),
+            table.add_row(*(text(x) for x in (r.kind, str(r.record_id), date.isoformat(),
                                               r.supplier or "—", r.lot or "—", r.input_name,
                                               _result_text(r))))
-        con.print(table)
+        show(con, table)
     for s in suppliers:
         if s not in trends:
-            con.print(f"no lot with numeric claims stored for supplier {s!r}: no trend",
-                      highlight=False, markup=False)
+            say(con, f"no lot with numeric claims stored for supplier {s!r}: no trend")
         elif figures.get(s) is not None:
-            con.print(f"trend for {s}: {figures[s]}", highlight=False, markup=False)
+            say(con, f"trend for {s}: {figures[s]}")

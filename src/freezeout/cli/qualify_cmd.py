@@ -14,10 +14,10 @@ from typing import Annotated
 import typer
 from rich.console import Console
 from rich.table import Table
-from rich.text import Text
 
 from freezeout import api
 from freezeout.cli.common import DbOpt, JsonOpt, print_json
+from freezeout.cli.render import console, markup_safe, say, show, text
 
 HELP = ("Qualify a wafer lot: fit every wafer's run, decide each certificate claim with the "
         "measurement uncertainty (lot file's decision rule), write lot_report.html, lot.json "
@@ -59,7 +59,7 @@ def qualify_command(
 
         def progress(done: int, total: int, wafer_id: str) -> None:
             bar.update(task, total=total, completed=done,
-                       description=f"measured wafer {wafer_id}")
+                       description=f"measured wafer {markup_safe(wafer_id)}")
 
         outcome = api.qualify_lot(lot, out=out, report=not json_output, db=db,
                                   workers=workers, progress=progress,
@@ -100,8 +100,8 @@ def indeterminate_lines(doc: dict) -> list[str]:
 
 def _print_summary(outcome) -> None:
     doc = outcome.to_dict()
-    con = Console()
-    table = Table(title=Text(f"Lot {doc['lot']} ({doc['supplier']}, {doc['date']}), "
+    con = console()
+    table = Table(title=text(f"Lot {doc['lot']} ({doc['supplier']}, {doc['date']}), "
                              f"{doc['decision']['rule']} rule"), title_justify="left")
     for col in ("wafer", "verdict", "decided by", "margin [U]", "measured from"):
         table.add_column(col, justify="right" if col == "margin [U]" else "left")
@@ -110,16 +110,18 @@ def _print_summary(outcome) -> None:
         how = w["input"]["how"]
         if w["input"]["reason"]:
             how += f": {w['input']['reason']}"
-        table.add_row(*(Text(x) for x in (w["id"], w["verdict"], w["decided_by"] or "—",
+        table.add_row(*(text(x) for x in (w["id"], w["verdict"], w["decided_by"] or "—",
                                           "—" if m is None else f"{m:+.2f}", how)))
-    con.print(table)
+    show(con, table)
     for line in indeterminate_lines(doc):
-        con.print(line, highlight=False, markup=False, soft_wrap=True)
-    con.print(doc["sentence"], highlight=False, markup=False)
+        say(con, line)
+    say(con, doc["sentence"])
     if outcome.written:
-        con.print(f"report: {outcome.written['lot_report.html']}", highlight=False,
-                  markup=False)
+        say(con, f"report: {outcome.written['lot_report.html']}")
     saved = outcome.lot_record
+    if saved is None:
+        say(con, "history: not recorded (--no-history)")
+        return
     state = "stored" if saved.created else "already stored, nothing new"
-    con.print(f"history: lot record {saved.record_id} ({state}); {outcome.fits_new} new fit "
-              "record(s)", highlight=False, markup=False)
+    say(con, f"history: lot record {saved.record_id} ({state}); {outcome.fits_new} new fit "
+             "record(s)")

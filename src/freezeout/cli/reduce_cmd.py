@@ -8,12 +8,12 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.console import Console
-from rich.markup import escape
 from rich.table import Table
+from rich.text import Text
 
 from freezeout import api
 from freezeout.cli.common import parse_assignments, parse_number
+from freezeout.cli.render import clean, console, num, say, show, text
 
 __all__ = ["HELP", "reduce_command"]
 
@@ -21,6 +21,10 @@ HELP = ("Reduce raw van der Pauw and Hall readings (one row per reading) to a re
         "that fit reads, with data-quality findings per temperature.")
 
 _SEVERITY_STYLE = {"info": "cyan", "warning": "yellow", "severe": "bold red"}
+#: The mark after a flag's code, so a severity reads without colour (CI logs, pipes).
+_SEVERITY_MARK = {"info": "", "warning": "?", "severe": "!"}
+#: The word in the findings table.
+_SEVERITY_WORD = {"info": "info", "warning": "warning", "severe": "severe!"}
 
 
 def _parse_thresholds(items: list[str] | None) -> dict[str, float]:
@@ -31,24 +35,27 @@ def _parse_thresholds(items: list[str] | None) -> dict[str, float]:
 def _fmt(value: float, err: float | None = None) -> str:
     if not math.isfinite(value):
         return str(value)
-    text = f"{value:.4g}"
+    out = f"{value:.4g}"
     if err is not None and math.isfinite(err):
-        text += f"±{err:.2g}"
-    return text
+        out += f"±{err:.2g}"
+    return out
 
 
 def _summary_table(run) -> Table:
     c = run.majority_carrier
     table = Table(title=f"Reduced run ({run.n_points} set points)",
-                  caption="flags: yellow = warning, red ! = severe, cyan = info")
+                  caption="flags: CODE! = severe (red), CODE? = warning (yellow), CODE = info "
+                  "(cyan)")
     for name in ("T [K]", "rho [ohm cm]", "R_H [cm^3/C]", f"{c} [cm^-3]", "mu_H [cm^2/(V s)]",
                  "flags"):
-        table.add_column(escape(name), justify="left" if name == "flags" else "right")
+        table.add_column(text(name), justify="left" if name == "flags" else "right")
     for i in range(run.n_points):
-        marks = []
+        marks = Text()
         for f in run.findings_at(i):
-            bang = "!" if f.severity == "severe" else ""
-            marks.append(f"[{_SEVERITY_STYLE[f.severity]}]{f.code}{bang}[/]")
+            if marks:
+                marks.append(" ")
+            marks.append(clean(f.code) + _SEVERITY_MARK[f.severity],
+                         style=_SEVERITY_STYLE[f.severity])
         table.add_row(
             f"{run.temperature[i]:.4g}",
             _fmt(run.resistivity[i], run.resistivity_err[i]),
@@ -56,7 +63,7 @@ def _summary_table(run) -> Table:
             _fmt(run.density[i], run.density_err[i]) + ("" if run.carrier[i] == c
                                                          else f" ({run.carrier[i]})"),
             _fmt(run.mobility[i], run.mobility_err[i]),
-            " ".join(marks) if marks else "[green]clean[/]",
+            marks if marks else Text("clean", style="green"),
         )
     return table
 
@@ -97,8 +104,8 @@ def reduce_command(
         typer.echo(json.dumps(outcome.to_dict(), allow_nan=False))
         return
     run = outcome.run
-    console = Console()
-    console.print(_summary_table(run))
+    con = console()
+    show(con, _summary_table(run))
     if run.findings:
         detail = Table(title="Data-quality findings")
         detail.add_column("T [K]", justify="right")
@@ -107,11 +114,9 @@ def reduce_command(
         detail.add_column("finding")
         for f in run.findings:
             style = _SEVERITY_STYLE[f.severity]
-            detail.add_row(f"{f.temperature:.4g}", f"[{style}]{f.severity}[/]", f.code,
-                           escape(f.message))
-        console.print(detail)
-    console.print(
-        f"wrote {outcome.output} ({run.n_points} points, {outcome.n_flagged} flagged, "
-        f"{outcome.n_severe} severe; severe points are kept but left out of fit unless asked)",
-        markup=False, highlight=False,
-    )
+            detail.add_row(num(f.temperature), Text(_SEVERITY_WORD[f.severity], style=style),
+                           text(f.code), text(f.message))
+        show(con, detail)
+    say(con, f"wrote {outcome.output} ({run.n_points} points, {outcome.n_flagged} flagged, "
+             f"{outcome.n_severe} severe; severe points are kept but left out of fit unless "
+             "asked)")

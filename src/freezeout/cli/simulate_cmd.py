@@ -18,6 +18,7 @@ from freezeout.cli.common import (
     parse_number,
     print_json,
 )
+from freezeout.cli.render import clean
 from freezeout.errors import InputError
 
 HELP = ("Simulate n, p, E_F and ionized fractions versus temperature for given levels; the "
@@ -59,7 +60,7 @@ def simulate_command(
     if json_output:
         print_json(sim.to_dict())
     elif out is not None:
-        sys.stderr.write(f"wrote {out}\n")
+        sys.stderr.write(f"wrote {clean(out)}\n")
     else:
         sys.stdout.write(api.simulation_csv(sim, statistics))
     return 0
