@@ -30,6 +30,10 @@ from freezeout.records.verdicts import (
 )
 from freezeout.reporting.fit_report import CSS
 
+#: First characters that make a spreadsheet read a text cell as a formula (OWASP "CSV
+#: Injection"); such text cells of lot.csv get a leading ``'``, numbers are left alone.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
 #: Columns of lot.csv, one row per wafer and claim.
 CSV_COLUMNS = (
     "lot", "supplier", "lot_date", "wafer", "claim", "quantity", "unit", "temperature_K",
@@ -179,8 +183,8 @@ def lot_csv(qualification: LotQualification) -> str:
     def cell(x) -> str:
         if x is None:
             return ""
-        if isinstance(x, str):
-            return x
+        if isinstance(x, str):  # text a spreadsheet would run as a formula is quoted
+            return "'" + x if x[:1] in _FORMULA_START else x
         v = finite_or_none(x)
         return "" if v is None else repr(v)
 
