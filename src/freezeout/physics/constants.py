@@ -17,5 +17,7 @@ Q = _c.e
 M0 = _c.m_e
 #: Planck constant. [J s]
 H = _c.h
+#: Reduced Planck constant h / (2 pi). [J s]
+HBAR = _c.hbar
 #: Vacuum permittivity. [F/m]
 EPS0 = _c.epsilon_0
