@@ -10,6 +10,7 @@ from freezeout._version import __version__
 from freezeout.api.materials import load_material
 from freezeout.api.runs import load_run
 from freezeout.api.simulation import check_statistics
+from freezeout.errors import InputError
 
 if TYPE_CHECKING:
     from freezeout.fitting.result import FitResult
@@ -98,6 +99,7 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         else:
             notes.append(f"no material given and none stated in {where}: assumed Si")
     mat = load_material(material, material_file)
+    check_gap_open(mat, run.temperature, input_path)
     options = {"material": mat.name, "material_file": None if material_file is None
                else str(material_file), "donors": donors, "acceptors": acceptors,
                "statistics": statistics, "hall_factor": hall_factor, "degeneracy": degeneracy,
@@ -120,6 +122,59 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
     return result
+
+
+def check_gap_open(mat: Material, temperature, file: str | None = None) -> None:
+    """Refuse a material whose band gap closes at one of the run's temperatures.
+
+    Parameters
+    ----------
+    mat
+        The material.
+    temperature
+        The run's temperatures. [K]
+    file
+        The run file, named in the error.
+
+    Raises
+    ------
+    InputError
+        Naming the first temperature (ascending) where E_g(T) <= 0, as simulate does.
+    """
+    import numpy as np
+
+    t = np.sort(np.asarray(temperature, dtype=float))
+    closed = t[~(np.asarray(mat.band_gap(t), dtype=float) > 0)]
+    if closed.size:
+        raise InputError(
+            f"the band gap of {mat.name} closes at {closed[0]:.5g} K, within the run's "
+            f"temperatures ({t[0]:.5g} to {t[-1]:.5g} K): the carrier model needs an open gap; "
+            "check the material's band gap and Varshni parameters", file=file)
+
+
+def check_history_url(db: str | None) -> None:
+    """Refuse, before any work, a ``--db`` URL the history cannot use (not opened here).
+
+    Raises
+    ------
+    InputError
+        ``--db: history database: ...`` for a URL that is neither a SQLite file nor
+        ``postgresql://`` (the message :func:`freezeout.storage.open_history` gives).
+    """
+    if db is None:
+        return
+    from sqlalchemy.engine import make_url
+
+    from freezeout.storage.engine import normalize_url
+
+    try:
+        url = make_url(normalize_url(db))
+    except Exception as exc:  # noqa: BLE001 - any unreadable URL is bad input
+        raise InputError(f"--db: history database: cannot read the URL {db!r}: {exc}") from None
+    if url.get_backend_name() not in ("sqlite", "postgresql"):
+        raise InputError(f"--db: history database: unsupported database "
+                         f"{url.render_as_string(hide_password=True)!r}: use a SQLite file or "
+                         "a postgresql:// URL")
 
 
 #: Every file a fit report may write into its folder (freezeout.reporting.fit_report).
@@ -158,7 +213,18 @@ def write_fit_report(result: FitResult, folder: str | Path) -> dict[str, Path]:
     return _write(result, folder)
 
 
-def record_fit(result: FitResult, db: str | None = None) -> SaveOutcome:
+def history_failure(exc: Exception, report: str | Path | None) -> InputError:
+    """The error for a history database that failed, saying whether a report was kept."""
+    msg = getattr(exc, "message", None) or str(exc) or type(exc).__name__
+    if not msg.startswith("--db: history database") and not msg.startswith("history database"):
+        msg = f"history database: {msg}"
+    if report is not None:
+        msg += f"; the report in {report} was written and kept"
+    return InputError(msg, file=getattr(exc, "file", None))
+
+
+def record_fit(result: FitResult, db: str | None = None, *,
+               report: str | Path | None = None) -> SaveOutcome:
     """Store a fit in the history database (once per input and options).
 
     Parameters
@@ -168,18 +234,27 @@ def record_fit(result: FitResult, db: str | None = None) -> SaveOutcome:
     db
         Database URL (``sqlite:///FILE`` or ``postgresql://...``); default ``$FREEZEOUT_DB``,
         else a SQLite file in the user data folder.
+    report
+        The report folder already written for this fit, named in the error if storing fails
+        (the report stays).
 
     Raises
     ------
     InputError
-        The database cannot be opened, or is the fit's run or material file.
+        The database cannot be opened or written (the message says whether ``report`` was
+        written and kept), or is the fit's run or material file.
     """
+    from sqlalchemy.exc import SQLAlchemyError
+
     from freezeout.api.guard import refuse_overwrite, sqlite_file
-    from freezeout.storage import open_history
+    from freezeout.storage import StorageError, open_history
 
     refuse_overwrite([sqlite_file(db)], _fit_inputs(result), option="--db")
-    store = open_history(db)
     try:
-        return store.save_fit(result)
-    finally:
-        store.close()
+        store = open_history(db)
+        try:
+            return store.save_fit(result)
+        finally:
+            store.close()
+    except (InputError, StorageError, SQLAlchemyError, OSError) as exc:
+        raise history_failure(exc, report) from exc

@@ -155,11 +155,29 @@ def measure_wafer(job: WaferJob) -> WaferOutcome:
     return WaferOutcome(job.wafer_id, "fit", sha, measured, replace(result, raw=None))
 
 
-def _ignore_interrupts() -> None:
-    """Worker start-up: leave Ctrl-C to the parent, which stops the workers itself."""
+def _watch_parent(parent_pid: int, period: float = 1.0) -> None:
+    """Exit this process as soon as its parent is gone (polled every ``period`` [s])."""
+    import os
+    import time
+
+    while True:
+        if os.getppid() != parent_pid:
+            os._exit(1)  # the parent was killed: nobody wants this wafer's result
+        time.sleep(period)
+
+
+def _start_worker(parent_pid: int) -> None:
+    """Worker start-up: leave Ctrl-C to the parent, and die with the parent.
+
+    A parent killed outright (SIGKILL, out of memory) cannot stop its workers, so each
+    watches it from a daemon thread and exits when its parent process changes.
+    """
     import signal
+    import threading
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    threading.Thread(target=_watch_parent, args=(parent_pid,), name="watch-parent",
+                     daemon=True).start()
 
 
 def measure_wafers(jobs: Sequence[WaferJob], workers: int,
@@ -184,8 +202,10 @@ def measure_wafers(jobs: Sequence[WaferJob], workers: int,
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
     ctx = multiprocessing.get_context("spawn")
+    import os
+
     pool = ProcessPoolExecutor(max_workers=workers, mp_context=ctx,
-                               initializer=_ignore_interrupts)
+                               initializer=_start_worker, initargs=(os.getpid(),))
     try:
         futures = {pool.submit(measure_wafer, job): job.wafer_id for job in jobs}
         for fut in as_completed(futures):

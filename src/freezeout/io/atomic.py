@@ -1,10 +1,30 @@
-"""Writing files so that a reader never sees half of one: temporary file, then rename."""
+"""Writing files so that a reader never sees half of one: temporary file, then rename.
+
+A folder of files that belong together (a report) is written whole the same way: into a
+sibling temporary folder, then renamed into place (:func:`atomic_folder`). Temporaries left
+by a killed run (``.<name>.<random>.tmp`` files, ``.<name>.tmp-<random>`` folders) are removed
+by the next run in the same folder once they are older than :data:`STALE_AFTER_S`.
+"""
 
 from __future__ import annotations
 
+import glob
 import os
+import re
+import secrets
+import shutil
 import tempfile
+import time
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
+
+#: Age after which a temporary of ours is taken as left by a killed run (project choice). [s]
+STALE_AFTER_S = 600.0
+
+# tempfile's names: 8 characters of [a-z0-9_]; the set-aside folder: 12 hex digits
+_TMP_FILE = re.compile(r"^\.(?P<name>.+)\.[a-z0-9_]{8}\.tmp$")
+_TMP_DIR = re.compile(r"^\.(?P<name>.+)\.tmp-(?:[a-z0-9_]{8}|(?P<old>old-)[0-9a-f]{12})$")
 
 
 def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
@@ -15,6 +35,7 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     """
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
+    _clean_own_stale(p)
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
     try:
         umask = os.umask(0)
@@ -34,6 +55,145 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     return p
 
 
+def _clean_own_stale(p: Path) -> None:
+    """Remove stale temporaries of this very file name (``.<name>.<random>.tmp``)."""
+    now = time.time()
+    for old in p.parent.glob(f".{glob.escape(p.name)}.*.tmp"):
+        try:
+            if (_TMP_FILE.match(old.name) and not old.is_symlink()
+                    and now - old.stat().st_mtime >= STALE_AFTER_S):
+                old.unlink()
+        except OSError:
+            continue
+
+
 def atomic_write_text(path: str | Path, text: str) -> Path:
     """Text (UTF-8) version of :func:`atomic_write_bytes`."""
     return atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def clean_stale(folder: str | Path, max_age: float = STALE_AFTER_S) -> list[Path]:
+    """Remove our temporaries older than ``max_age`` seconds from ``folder``; return them.
+
+    Only names of our own patterns are touched: ``.<name>.<random>.tmp`` files (from
+    :func:`atomic_write_bytes`) and ``.<name>.tmp-<random>`` folders (from
+    :func:`atomic_folder`). A folder set aside while being replaced
+    (``.<name>.tmp-old-<random>``) whose ``<name>`` no longer exists is renamed back instead:
+    it is the last whole report.
+    """
+    folder = Path(folder)
+    removed: list[Path] = []
+    now = time.time()
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return removed
+    for entry in entries:
+        m_dir = _TMP_DIR.match(entry.name)
+        m_file = None if m_dir else _TMP_FILE.match(entry.name)
+        if not (m_dir or m_file):
+            continue
+        try:
+            if entry.is_symlink() or now - entry.stat().st_mtime < max_age:
+                continue
+            path = Path(entry.path)
+            if m_dir and entry.is_dir():
+                original = folder / m_dir.group("name")
+                if m_dir.group("old") and not os.path.lexists(original):
+                    os.rename(path, original)
+                    continue
+                shutil.rmtree(path)
+            elif m_file and entry.is_file():
+                path.unlink()
+            else:
+                continue
+            removed.append(path)
+        except OSError:
+            continue  # another run may be cleaning too; the next one retries
+    return removed
+
+
+def _set_aside_name(target: Path) -> Path:
+    return target.parent / f".{target.name}.tmp-old-{secrets.token_hex(6)}"
+
+
+def _swap_in(tmp: Path, target: Path) -> None:
+    """Rename ``tmp`` to ``target``; an existing ``target`` is set aside, then deleted."""
+    if not os.path.lexists(target):
+        os.rename(tmp, target)
+        return
+    aside = _set_aside_name(target)
+    os.rename(target, aside)
+    try:
+        os.rename(tmp, target)
+    except BaseException:
+        os.rename(aside, target)
+        raise
+    shutil.rmtree(aside, ignore_errors=True)
+
+
+def _move_files_in(tmp: Path, target: Path, owned: set[str]) -> None:
+    """Move each file of ``tmp`` into ``target``, and drop owned names the new set lacks."""
+    new = {p.name for p in tmp.iterdir()}
+    for name in sorted(new):
+        os.replace(tmp / name, target / name)
+    for name in owned - new:
+        p = target / name
+        if p.is_file() and not p.is_symlink():
+            p.unlink()
+    shutil.rmtree(tmp, ignore_errors=True)
+
+
+@contextmanager
+def atomic_folder(target: str | Path, owned: Iterable[str] | None = None) -> Iterator[Path]:
+    """Write a folder of files as a whole: yield a sibling temporary folder to fill.
+
+    On a normal exit the temporary folder (``.<name>.tmp-<random>``, same parent) replaces
+    ``target`` by renames: an existing ``target`` is renamed aside, the new folder renamed in,
+    then the old one deleted; a reader (or a kill) sees the old set or the new set, never a
+    new file beside an old one. On any error the temporary folder is removed and ``target``
+    is left as it was. Stale temporaries of killed runs in the parent are cleaned first
+    (:func:`clean_stale`).
+
+    Parameters
+    ----------
+    target
+        The folder to write (created with its parents if needed; a symbolic link to a folder
+        is followed, the link kept).
+    owned
+        The file names this writer may replace. If ``target`` holds anything else (a folder
+        shared with the user's own files), it is not replaced whole: the new files are moved
+        in one by one (each by a rename), owned names the new set lacks are removed, and
+        every other entry is kept. None: ``target`` is the writer's alone.
+
+    Yields
+    ------
+    Path
+        The temporary folder; write the files there (with :func:`atomic_write_bytes`).
+    """
+    target = Path(target)
+    if target.is_symlink():
+        target = Path(os.path.realpath(target))
+    parent = target.parent
+    parent.mkdir(parents=True, exist_ok=True)
+    if os.path.lexists(target) and not target.is_dir():
+        raise NotADirectoryError(f"{target} exists and is not a folder")
+    clean_stale(parent)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=parent))
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o777 & ~umask)
+        yield tmp
+        owned_set = None if owned is None else set(owned)
+        foreign = [] if owned_set is None or not target.is_dir() else [
+            e for e in os.listdir(target)
+            if e not in owned_set and not (_TMP_FILE.match(e) or _TMP_DIR.match(e))]
+        if foreign:
+            clean_stale(target)
+            _move_files_in(tmp, target, owned_set or set())
+        else:
+            _swap_in(tmp, target)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise

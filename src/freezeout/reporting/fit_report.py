@@ -9,7 +9,11 @@ from pathlib import Path
 
 from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
-from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
+from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
+
+#: Every file a fit report may write into its folder (replaced as a set).
+REPORT_FILES = ("fit.json", "report.html", "density.png", "residuals.png",
+                "fermi_level.png", "ionization.png", "transport.png")
 
 CSS = """
 body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;max-width:980px;
@@ -211,12 +215,20 @@ cryogens, strong magnets, heated stages and mains-powered instruments (README, S
 
 
 def write_fit_report(result: FitResult, out_dir: str | Path) -> dict[str, Path]:
-    """Write fit.json, the figures and report.html into ``out_dir`` (each atomically)."""
+    """Write fit.json, the figures and report.html into ``out_dir``, as one set.
+
+    The files are written into a sibling temporary folder that then replaces ``out_dir``
+    (:func:`freezeout.io.atomic.atomic_folder`): a failure or a kill leaves the earlier report
+    whole, never a new fit.json beside an old report.html. A folder that also holds other
+    files keeps them; only the report's own files (:data:`REPORT_FILES`) are replaced.
+    """
     out = Path(out_dir)
     figures = _figure_files(result)
-    paths = {"fit.json": atomic_write_text(out / "fit.json",
-                                           json.dumps(result.to_dict(), indent=2) + "\n")}
-    for name, (png, _) in figures.items():
-        paths[name] = atomic_write_bytes(out / name, png)
-    paths["report.html"] = atomic_write_text(out / "report.html", render_html(result, figures))
-    return paths
+    page = render_html(result, figures)
+    names = ["fit.json", *figures, "report.html"]
+    with atomic_folder(out, owned=REPORT_FILES) as tmp:
+        atomic_write_text(tmp / "fit.json", json.dumps(result.to_dict(), indent=2) + "\n")
+        for name, (png, _) in figures.items():
+            atomic_write_bytes(tmp / name, png)
+        atomic_write_text(tmp / "report.html", page)
+    return {name: out / name for name in names}
