@@ -121,11 +121,12 @@ def history(*, supplier: str | None = None, since: str | _dt.date | None = None,
         raise InputError(f"--kind must be 'fit' or 'lot', got {kind!r}")
     database = sqlite_file(db)
     refuse_overwrite([out], [database])
-    store = open_history(db)
+    store = open_history(db, read_only=True)
     try:
         records = tuple(store.list_records(supplier=supplier, since=day, kind=kind))
-        if supplier is not None:
-            suppliers = [supplier]
+        if supplier is not None:  # as stored (the match ignores case and blanks)
+            stored = sorted({r.supplier for r in records if r.kind == "lot" and r.supplier})
+            suppliers = [stored[0] if stored else supplier.strip()]
         elif kind == "fit":
             suppliers = []
         else:

@@ -34,8 +34,12 @@ def qualify_command(
     db: DbOpt = None,
     json_output: JsonOpt = False,
     workers: Annotated[int | None, typer.Option(
-        "--workers", "-j", help="Processes fitting wafers at once (default: the number of "
-        "CPUs, at most one per wafer; 1 fits in this process).")] = None,
+        "--workers", "-j", help="Processes fitting wafers at once (default: 1, in this "
+        "process, for a lot of up to 5 wafers, else one per 3 wafers up to the number of "
+        "CPUs).")] = None,
+    no_history: Annotated[bool, typer.Option(
+        "--no-history", help="A trial run: store nothing in the history database; the "
+        "report says the run was not recorded.")] = False,
     allow_outside_paths: Annotated[bool, typer.Option(
         "--allow-outside-paths", help="Read run and material files outside the lot file's "
         "folder ('..', absolute paths, symbolic links out); refused by default. The report "
@@ -63,7 +67,8 @@ def qualify_command(
 
         outcome = api.qualify_lot(lot, out=out, report=not json_output, db=db,
                                   workers=workers, progress=progress,
-                                  allow_outside=allow_outside_paths)
+                                  allow_outside=allow_outside_paths,
+                                  record=not no_history)
     if json_output:
         print_json(outcome.to_dict())
     else:

@@ -121,6 +121,9 @@ class LotProvenance:
         When the qualification ran (UTC, ISO 8601 to the second).
     options
         The settings that, with the inputs, determine the result (plain JSON values).
+    recorded
+        False for a trial run not stored in the history (``qualify --no-history``); the
+        JSON then carries ``"recorded": false``.
     """
 
     lot_file: str
@@ -128,12 +131,16 @@ class LotProvenance:
     tool_version: str
     date: str
     options: Mapping = field(default_factory=dict)
+    recorded: bool = True
 
     def to_dict(self) -> dict:
         """Plain-JSON form (``provenance`` of the lot JSON)."""
-        return {"lot_file": self.lot_file, "lot_input_sha256": self.lot_input_sha256,
-                "tool": "freezeout", "tool_version": self.tool_version, "date": self.date,
-                "options": dict(self.options)}
+        out = {"lot_file": self.lot_file, "lot_input_sha256": self.lot_input_sha256,
+               "tool": "freezeout", "tool_version": self.tool_version, "date": self.date,
+               "options": dict(self.options)}
+        if not self.recorded:
+            out["recorded"] = False
+        return out
 
 
 @dataclass(frozen=True)

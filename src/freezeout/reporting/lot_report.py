@@ -34,6 +34,10 @@ from freezeout.reporting.fit_report import CSS
 #: Injection"); such text cells of lot.csv get a leading ``'``, numbers are left alone.
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
+#: The provenance row of a trial run that was not stored (``qualify --no-history``).
+_NOT_RECORDED = ("<tr><th>history</th><td>not recorded: a trial run, not stored in the "
+                 "history database</td></tr>")
+
 #: Columns of lot.csv, one row per wafer and claim.
 CSV_COLUMNS = (
     "lot", "supplier", "lot_date", "wafer", "claim", "quantity", "unit", "temperature_K",
@@ -387,6 +391,7 @@ wafers.</div>
 (the lot file and every run and material file it names)</td></tr>
 <tr><th>tool</th><td>freezeout {esc(str(prov.tool_version))}</td></tr>
 <tr><th>qualified (UTC)</th><td>{esc(str(prov.date))}</td></tr>
+{"" if prov.recorded else _NOT_RECORDED}
 <tr><th>options</th><td><code>{opts}</code></td></tr></table>
 <p class=sub>Exports: lot.json (this report's data) and lot.csv (one row per wafer and
 claim).</p>

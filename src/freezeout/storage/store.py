@@ -23,7 +23,7 @@ from freezeout.errors import InputError
 from freezeout.fitting.result import FitResult
 from freezeout.records.history import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.records.qualification import LotQualification
-from freezeout.storage.engine import StorageError, default_url, make_engine
+from freezeout.storage.engine import StorageError, default_url, make_engine, normalize_url
 from freezeout.storage.migrations import migrate, schema_version_of
 from freezeout.storage.rows import claim_rows, fit_row, lot_row
 from freezeout.storage.schema import claim_records, fit_records, lot_records
@@ -40,6 +40,17 @@ def _as_date(since: _dt.date | str | None) -> _dt.date | None:
         return _dt.date.fromisoformat(str(since).strip())
     except ValueError:
         raise InputError(f"not a date (write 2026-11-03): {since!r}", column="since") from None
+
+
+def _same_supplier(a: str, b: str) -> bool:
+    """Suppliers match ignoring case and surrounding blanks (as people type them)."""
+    return a.strip().casefold() == b.strip().casefold()
+
+
+def _supplier_names(conn: Connection, supplier: str) -> list[str]:
+    """The stored spellings of a supplier (compared in Python: SQLite folds only ASCII)."""
+    names = conn.execute(select(lot_records.c.supplier).distinct()).scalars()
+    return [n for n in names if n is not None and _same_supplier(n, supplier)]
 
 
 class Store:
@@ -204,7 +215,7 @@ class Store:
             if kind in (None, "lot"):
                 q = select(lot_records)
                 if supplier is not None:
-                    q = q.where(lot_records.c.supplier == supplier)
+                    q = q.where(lot_records.c.supplier.in_(_supplier_names(conn, supplier)))
                 if day is not None:
                     q = q.where(lot_records.c.lot_date >= day)
                 for r in conn.execute(q).mappings():
@@ -273,7 +284,8 @@ class Store:
         Parameters
         ----------
         supplier
-            The supplier, as written in the lot files.
+            The supplier, as written in the lot files (case and surrounding blanks
+            ignored).
 
         Returns
         -------
@@ -283,10 +295,10 @@ class Store:
         q = (select(lot_records.c.id, lot_records.c.lot, lot_records.c.lot_date,
                     lot_records.c.verdict, lot_records.c.created_at, claim_records)
              .join(claim_records, claim_records.c.lot_record_id == lot_records.c.id)
-             .where(lot_records.c.supplier == supplier)
              .where(claim_records.c.measured.is_not(None))
              .where(claim_records.c.claimed.is_not(None)))
         with self.engine.begin() as conn:
+            q = q.where(lot_records.c.supplier.in_(_supplier_names(conn, supplier)))
             rows = conn.execute(q).mappings().all()
         latest: dict[str, tuple[_dt.datetime, int]] = {}
         for r in rows:
@@ -347,13 +359,30 @@ def open_store(url: str | None = None) -> Store:
     return Store(engine)
 
 
-def open_history(url: str | None = None) -> Store:
+def _sqlite_path(url: str) -> str | None:
+    """The file a SQLite URL names, or None (another backend, in memory, unreadable URL)."""
+    from sqlalchemy.engine import make_url
+
+    try:
+        u = make_url(normalize_url(url))
+    except Exception:  # noqa: BLE001 - a bad URL is reported when the engine is made
+        return None
+    db = u.database
+    if u.get_backend_name() != "sqlite" or not db or db == ":memory:" or db.startswith("file:"):
+        return None
+    return db
+
+
+def open_history(url: str | None = None, *, read_only: bool = False) -> Store:
     """:func:`open_store`, with a database that cannot be used reported as bad input.
 
     Parameters
     ----------
     url
         As for :func:`open_store` (what ``--db`` gives).
+    read_only
+        For a command that only reads (``history``): a SQLite file that does not exist is
+        an error, not a new empty database.
 
     Returns
     -------
@@ -364,8 +393,16 @@ def open_history(url: str | None = None) -> Store:
     ------
     InputError
         ``--db: history database: ...`` for an unsupported URL or a database newer than this
-        code.
+        code; with ``read_only``, ``no history database at PATH`` for a missing SQLite file
+        (nothing is created).
     """
+    if read_only:
+        import os
+
+        path = _sqlite_path(url if url is not None else default_url())
+        if path is not None and not os.path.isfile(path):
+            raise InputError(f"no history database at {path} (nothing stored there yet, or a "
+                             "mistyped --db or $FREEZEOUT_DB)")
     try:
         return open_store(url)
     except StorageError as exc:
