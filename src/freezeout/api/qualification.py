@@ -234,8 +234,11 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
         write over the lot file or one of its runs or material files (checked before any
         wafer is measured; nothing is written).
     """
+    from sqlalchemy.exc import SQLAlchemyError
+
+    from freezeout.api.fits import history_failure
     from freezeout.claims import load_lot, lot_input_sha256
-    from freezeout.storage import open_history
+    from freezeout.storage import StorageError, open_history
 
     if workers is not None and workers < 1:
         raise InputError(f"--workers must be at least 1, got {workers}")
@@ -258,8 +261,11 @@ def qualify_lot(path: str | Path, *, out: str | Path | None = None, report: bool
             written = write_lot_report(qualification, folder)
         fits = [o.fit for o in outcomes.values() if o.fit is not None]
         saved_lot, fits_new = None, 0
-        if store is not None:
-            saved_lot, fits_new = store.save_qualification(qualification, fits)
+        try:
+            if store is not None:
+                saved_lot, fits_new = store.save_qualification(qualification, fits)
+        except (StorageError, SQLAlchemyError, OSError) as exc:
+            raise history_failure(exc, folder if written else None) from exc
     finally:
         if store is not None:
             store.close()

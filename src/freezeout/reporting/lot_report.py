@@ -16,7 +16,7 @@ import json
 from collections.abc import Mapping
 from pathlib import Path
 
-from freezeout.io.atomic import atomic_write_bytes, atomic_write_text
+from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
 from freezeout.numbers import finite_or_none, slug
 from freezeout.records.lot import LotFile
 from freezeout.records.qualification import LotQualification, WaferInput
@@ -401,7 +401,11 @@ claim).</p>
 
 def write_lot_report(qualification: LotQualification,
                      out_dir: str | Path) -> dict[str, Path]:
-    """Write lot.json, lot.csv, the charts and lot_report.html into ``out_dir``, each atomically.
+    """Write lot.json, lot.csv, the charts and lot_report.html into ``out_dir``, as one set.
+
+    The files are written into a sibling temporary folder that then replaces ``out_dir``
+    (:func:`freezeout.io.atomic.atomic_folder`); a failure or a kill leaves the earlier report
+    whole. A folder that also holds other files keeps them.
 
     Parameters
     ----------
@@ -417,14 +421,14 @@ def write_lot_report(qualification: LotQualification,
     """
     out = Path(out_dir)
     figures = lot_figures(qualification)
-    doc = qualification.to_dict()
-    paths = {
-        "lot.json": atomic_write_text(out / "lot.json",
-                                      json.dumps(doc, indent=2, allow_nan=False) + "\n"),
-        "lot.csv": atomic_write_text(out / "lot.csv", lot_csv(qualification)),
-    }
-    for name, (png, _) in figures.items():
-        paths[name] = atomic_write_bytes(out / name, png)
-    paths["lot_report.html"] = atomic_write_text(out / "lot_report.html",
-                                                 render_lot_html(qualification, figures))
-    return paths
+    doc = json.dumps(qualification.to_dict(), indent=2, allow_nan=False) + "\n"
+    page = render_lot_html(qualification, figures)
+    names = ["lot.json", "lot.csv", *figures, "lot_report.html"]
+    owned = {*lot_report_files(qualification.lot), *names}
+    with atomic_folder(out, owned=owned) as tmp:
+        atomic_write_text(tmp / "lot.json", doc)
+        atomic_write_text(tmp / "lot.csv", lot_csv(qualification))
+        for name, (png, _) in figures.items():
+            atomic_write_bytes(tmp / name, png)
+        atomic_write_text(tmp / "lot_report.html", page)
+    return {name: out / name for name in names}
