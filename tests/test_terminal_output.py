@@ -119,3 +119,12 @@ def test_lot_csv_formula_cells_are_text():
     assert any(m.startswith("-") for m in margins)
     for m in margins:
         float(m)
+
+
+def test_error_messages_are_cleaned(tmp_path, monkeypatch, capsys):
+    # a file name carrying an escape sequence, quoted back in the error message
+    missing = tmp_path / "run\x1b[2J.csv"
+    code, out, err = cli(monkeypatch, capsys, "fit", missing, "--no-history", "--json")
+    assert code == 2 and out == ""
+    assert "freezeout: error:" in err and "run.csv" in err  # the sequence is removed whole
+    assert "\x1b" not in err

@@ -22,6 +22,7 @@ from freezeout.cli import (
     reduce_cmd,
     simulate_cmd,
 )
+from freezeout.cli.render import clean
 from freezeout.errors import FitError, InputError
 
 app = typer.Typer(
@@ -64,10 +65,10 @@ def main() -> None:
     try:
         rv = app(standalone_mode=False)
     except InputError as exc:
-        sys.stderr.write(f"freezeout: error: {exc}\n")
+        sys.stderr.write(f"freezeout: error: {clean(exc)}\n")
         sys.exit(2)
     except FitError as exc:
-        sys.stderr.write(f"freezeout: fit failed: {exc}\n")
+        sys.stderr.write(f"freezeout: fit failed: {clean(exc)}\n")
         sys.exit(1)
     except typer.Exit as exc:
         sys.exit(exc.exit_code)
@@ -78,13 +79,14 @@ def main() -> None:
         sys.stderr.write("interrupted\n")
         sys.exit(130)
     except OSError as exc:  # a file or folder that cannot be written or read
-        where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
-        sys.stderr.write(f"freezeout: error: cannot use{where}: {exc.strerror or exc}\n")
+        where = f" {clean(exc.filename)}" if getattr(exc, "filename", None) else ""
+        sys.stderr.write(f"freezeout: error: cannot use{where}: {clean(exc.strerror or exc)}\n")
         sys.exit(2)
     except Exception as exc:
         if type(exc).__module__.startswith("sqlalchemy"):
             orig = getattr(exc, "orig", None) or exc
-            sys.stderr.write(f"freezeout: error: history database: {str(orig).splitlines()[0]}"
+            first = clean(str(orig).splitlines()[0])
+            sys.stderr.write(f"freezeout: error: history database: {first}"
                              " (check --db or $FREEZEOUT_DB)\n")
             sys.exit(2)
         if hasattr(exc, "show") and hasattr(exc, "exit_code"):
@@ -93,7 +95,7 @@ def main() -> None:
             sys.exit(exc.exit_code)
         if os.environ.get("FREEZEOUT_DEBUG"):  # a bug: FREEZEOUT_DEBUG=1 shows the traceback
             raise
-        sys.stderr.write(f"freezeout: internal error: {type(exc).__name__}: {exc}\n"
+        sys.stderr.write(f"freezeout: internal error: {type(exc).__name__}: {clean(exc)}\n"
                          "(set FREEZEOUT_DEBUG=1 for the traceback, and please report it)\n")
         sys.exit(1)
     sys.exit(rv if isinstance(rv, int) else 0)
