@@ -149,3 +149,42 @@ def test_fifty_temperatures_are_fast():
     evaluate()
     per_call = min(timeit.repeat(evaluate, number=20, repeat=5)) / 20
     assert per_call < 5e-3
+
+
+def test_carrier_mobility_puts_the_mechanisms_together():
+    from freezeout.physics.carrier_mobility import carrier_mobility
+
+    t = np.linspace(20.0, 400.0, 50)
+    got = carrier_mobility(t, mass=0.26, permittivity=11.7, lattice_mobility_300=1400.0,
+                           lattice_exponent=2.4, ionized_density=2e16,
+                           screening_density=np.full_like(t, 1e16), neutral_density=5e15)
+    np.testing.assert_allclose(got.ionized,
+                               mob.brooks_herring_mobility(t, 2e16, 1e16, 0.26, 11.7))
+    np.testing.assert_allclose(got.matthiessen,
+                               mob.matthiessen_mobility(got.lattice, got.ionized, got.neutral))
+    ref = hf.scattering_average([got.lattice, got.ionized, got.neutral], [S_L, S_I, S_N])
+    np.testing.assert_allclose(got.hall_factor, ref.hall_factor, rtol=1e-15)
+    np.testing.assert_allclose(got.hall, got.hall_factor * got.drift, rtol=1e-15)
+    # unscreened form when no screening density is given; no impurities, lattice alone
+    cw = carrier_mobility(300.0, mass=0.26, permittivity=11.7, lattice_mobility_300=1400.0,
+                          lattice_exponent=2.4, ionized_density=1e17)
+    assert cw.ionized == pytest.approx(mob.conwell_weisskopf_mobility(300.0, 1e17, 0.26, 11.7))
+    pure = carrier_mobility(t, mass=0.26, permittivity=11.7, lattice_mobility_300=1400.0,
+                            lattice_exponent=2.4, ionized_density=0.0, screening_density=1e15)
+    np.testing.assert_allclose(pure.drift, mob.lattice_mobility(t, 1400.0, 2.4), rtol=1e-12)
+    np.testing.assert_allclose(pure.hall_factor, 3 * np.pi / 8, rtol=1e-12)
+
+
+def test_missing_material_keys_are_named():
+    from freezeout.physics.carrier_mobility import scattering_parameters
+    from freezeout.physics.materials import get_material, material_from_mapping
+
+    assert scattering_parameters(get_material("Si"), "n") == (
+        get_material("Si").electron_conductivity_mass, get_material("Si").relative_permittivity)
+    base = {"name": "X", "band_gap_0K_eV": 1.0, "varshni_alpha_eV_per_K": 1e-4,
+            "varshni_beta_K": 100.0, "electron_dos_mass": 1.0, "hole_dos_mass": 1.0}
+    no_eps = material_from_mapping({**base, "electron_conductivity_mass": 0.3})
+    with pytest.raises(InputError, match="relative_permittivity"):
+        scattering_parameters(no_eps, "n")
+    with pytest.raises(InputError, match="hole_conductivity_mass"):
+        scattering_parameters(no_eps, "p")
