@@ -78,6 +78,10 @@ def scattering_parameters(material: Material, carrier: str) -> tuple[float, floa
     ------
     InputError
         When the material lacks either; the message names the missing key.
+
+    References
+    ----------
+    Project choice, no source (the keys of :data:`freezeout.physics.materials.MATERIAL_KEYS`).
     """
     mass = material.conductivity_mass(carrier)
     if material.relative_permittivity is None:
@@ -115,6 +119,11 @@ def carrier_mobility(temperature, *, mass, permittivity, lattice_mobility_300, l
     Returns
     -------
     CarrierMobility
+
+    References
+    ----------
+    As in the module docstring: [1]_ Brooks-Herring, [2]_ Conwell-Weisskopf, [3]_ Erginsoy,
+    [4]_ the averages of the combined relaxation time.
     """
     t, n_i = np.broadcast_arrays(np.asarray(temperature, dtype=float),
                                  np.asarray(ionized_density, dtype=float))

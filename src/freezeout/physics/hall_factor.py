@@ -22,8 +22,9 @@ Quadrature: the integrands carry half-integer powers of x, for which a Gauss-Lag
 in x converges only algebraically. In u = sqrt(x) the weight becomes 2 u^4 e^(-u^2) du and
 every single-mechanism integrand is a polynomial in u, so a Gauss rule for the Laguerre-type
 weight e^(-u^2) on [0, inf) (half-range Hermite) is exact for them and converges
-geometrically for mixtures. Its nodes come once from the Lanczos (discretized Stieltjes)
-procedure [3]_ applied to a Gauss-Legendre discretization of the weight.
+geometrically for mixtures (:data:`QUADRATURE_NODES` = 64 nodes). Its nodes come once
+(about 10 ms, cached) from the Lanczos (discretized Stieltjes) procedure [3]_ applied to a
+Gauss-Legendre discretization of the weight.
 
 References
 ----------

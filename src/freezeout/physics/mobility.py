@@ -16,7 +16,8 @@ prefactor maps to tau_0) is in :mod:`freezeout.physics.hall_factor`.
 References
 ----------
 .. [1] H. Brooks, "Scattering by ionized impurities in semiconductors", Phys. Rev. 83, 879
-   (1951) (abstract of the APS meeting; the full derivation with C. Herring is unpublished).
+   (1951) (a meeting abstract; the full derivation with C. Herring is unpublished; title
+   and note from memory).
 .. [2] D. Chattopadhyay, H. J. Queisser, "Electron scattering by ionized impurities in
    semiconductors", Rev. Mod. Phys. 53, 745 (1981). doi:10.1103/RevModPhys.53.745
 .. [3] E. Conwell, V. F. Weisskopf, "Theory of impurity scattering in semiconductors",
