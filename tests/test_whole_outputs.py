@@ -302,3 +302,26 @@ def test_killing_qualify_leaves_no_worker(tmp_path):
         if parent.poll() is None:
             parent.kill()
             parent.wait(timeout=5)
+
+
+def test_atomic_folder_on_the_working_directory_moves_files_in(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    with atomic.atomic_folder(".") as tmp:
+        (tmp / "fit.json").write_text("{}")
+    assert Path.cwd() == tmp_path and (tmp_path / "fit.json").read_text() == "{}"
+    assert [p.name for p in tmp_path.iterdir()] == ["fit.json"]
+    assert [p.name for p in tmp_path.parent.iterdir() if ".tmp-" in p.name] == []
+
+
+def test_lot_report_replaced_as_a_set(tmp_path):
+    from freezeout.api import qualify_lot
+
+    rep = tmp_path / "rep"
+    rep.mkdir()
+    (rep / "lot.json").write_text("an earlier lot.json")
+    (rep / "chart_claim9.png").write_text("a chart of an earlier claim")
+    qualify_lot(LOT, out=rep, workers=1)
+    names = sorted(p.name for p in rep.iterdir())
+    assert "chart_claim9.png" not in names and "lot_report.html" in names
+    assert json.loads((rep / "lot.json").read_text())["lot"] == "KRW-2611-07"
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".")) == []

@@ -15,7 +15,7 @@ import secrets
 import shutil
 import tempfile
 import time
-from collections.abc import Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
@@ -113,6 +113,15 @@ def clean_stale(folder: str | Path, max_age: float = STALE_AFTER_S) -> list[Path
     return removed
 
 
+def _holds_cwd(target: Path) -> bool:
+    """Whether the working directory is ``target`` or inside it."""
+    try:
+        cwd = Path.cwd().resolve()
+        return cwd.is_relative_to(target.resolve())
+    except OSError:
+        return False
+
+
 def _set_aside_name(target: Path) -> Path:
     return target.parent / f".{target.name}.tmp-old-{secrets.token_hex(6)}"
 
@@ -132,20 +141,21 @@ def _swap_in(tmp: Path, target: Path) -> None:
     shutil.rmtree(aside, ignore_errors=True)
 
 
-def _move_files_in(tmp: Path, target: Path, owned: set[str]) -> None:
+def _move_files_in(tmp: Path, target: Path, owned: Callable[[str], bool]) -> None:
     """Move each file of ``tmp`` into ``target``, and drop owned names the new set lacks."""
     new = {p.name for p in tmp.iterdir()}
     for name in sorted(new):
         os.replace(tmp / name, target / name)
-    for name in owned - new:
+    for name in os.listdir(target):
         p = target / name
-        if p.is_file() and not p.is_symlink():
+        if name not in new and owned(name) and p.is_file() and not p.is_symlink():
             p.unlink()
     shutil.rmtree(tmp, ignore_errors=True)
 
 
 @contextmanager
-def atomic_folder(target: str | Path, owned: Iterable[str] | None = None) -> Iterator[Path]:
+def atomic_folder(target: str | Path,
+                  owned: Iterable[str] | Callable[[str], bool] | None = None) -> Iterator[Path]:
     """Write a folder of files as a whole: yield a sibling temporary folder to fill.
 
     On a normal exit the temporary folder (``.<name>.tmp-<random>``, same parent) replaces
@@ -161,37 +171,53 @@ def atomic_folder(target: str | Path, owned: Iterable[str] | None = None) -> Ite
         The folder to write (created with its parents if needed; a symbolic link to a folder
         is followed, the link kept).
     owned
-        The file names this writer may replace. If ``target`` holds anything else (a folder
-        shared with the user's own files), it is not replaced whole: the new files are moved
-        in one by one (each by a rename), owned names the new set lacks are removed, and
-        every other entry is kept. None: ``target`` is the writer's alone.
+        The file names this writer may replace, or a test of a name. If ``target`` holds
+        anything else (a folder shared with the user's own files), it is not replaced whole:
+        the new files are moved in one by one (each by a rename), owned names the new set
+        lacks are removed, and every other entry is kept. None: ``target`` is the writer's
+        alone. The working directory (or a folder holding it) is filled the same way.
 
     Yields
     ------
     Path
         The temporary folder; write the files there (with :func:`atomic_write_bytes`).
     """
-    target = Path(target)
+    target = Path(os.path.abspath(target))
     if target.is_symlink():
         target = Path(os.path.realpath(target))
     parent = target.parent
     parent.mkdir(parents=True, exist_ok=True)
     if os.path.lexists(target) and not target.is_dir():
         raise NotADirectoryError(f"{target} exists and is not a folder")
-    clean_stale(parent)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=parent))
+    # never rename the file-system root or a folder holding the working directory
+    in_place = target == parent or _holds_cwd(target)
+    tmp = None
+    if not in_place:
+        clean_stale(parent)
+        try:
+            tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=parent))
+        except PermissionError:  # a folder we may write in, in a parent we may not
+            in_place = True
+    if tmp is None:
+        target.mkdir(exist_ok=True)
+        clean_stale(target)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{target.name or 'root'}.tmp-", dir=target))
     try:
         umask = os.umask(0)
         os.umask(umask)
         os.chmod(tmp, 0o777 & ~umask)
         yield tmp
-        owned_set = None if owned is None else set(owned)
-        foreign = [] if owned_set is None or not target.is_dir() else [
-            e for e in os.listdir(target)
-            if e not in owned_set and not (_TMP_FILE.match(e) or _TMP_DIR.match(e))]
-        if foreign:
+        if owned is None:
+            mine: Callable[[str], bool] = lambda name: True  # noqa: E731
+        elif callable(owned):
+            mine = owned
+        else:
+            mine = set(owned).__contains__
+        foreign = target.is_dir() and any(
+            not (mine(e) or _TMP_FILE.match(e) or _TMP_DIR.match(e)) for e in os.listdir(target))
+        if foreign or in_place:
             clean_stale(target)
-            _move_files_in(tmp, target, owned_set or set())
+            _move_files_in(tmp, target, mine)
         else:
             _swap_in(tmp, target)
     except BaseException:

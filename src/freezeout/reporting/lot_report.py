@@ -13,6 +13,7 @@ import csv
 import html
 import io
 import json
+import re
 from collections.abc import Mapping
 from pathlib import Path
 
@@ -424,7 +425,11 @@ def write_lot_report(qualification: LotQualification,
     doc = json.dumps(qualification.to_dict(), indent=2, allow_nan=False) + "\n"
     page = render_lot_html(qualification, figures)
     names = ["lot.json", "lot.csv", *figures, "lot_report.html"]
-    owned = {*lot_report_files(qualification.lot), *names}
+    known = {*lot_report_files(qualification.lot), *names}
+
+    def owned(name: str) -> bool:  # this report's files, and any lot report's charts
+        return name in known or re.fullmatch(r"chart_[A-Za-z0-9_]+\.png", name) is not None
+
     with atomic_folder(out, owned=owned) as tmp:
         atomic_write_text(tmp / "lot.json", doc)
         atomic_write_text(tmp / "lot.csv", lot_csv(qualification))
