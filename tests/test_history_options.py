@@ -53,6 +53,18 @@ def test_history_does_not_create_a_database(monkeypatch, capsys, tmp_path):
     assert not missing.exists()
 
 
+def test_history_before_anything_was_stored(monkeypatch, capsys, tmp_path):
+    """A new user's first ``history`` (default database not made yet): no records, exit 0,
+    and still no database file (project choice, no source)."""
+    import freezeout.storage.engine as engine
+
+    monkeypatch.delenv("FREEZEOUT_DB", raising=False)
+    monkeypatch.setattr(engine.platformdirs, "user_data_dir", lambda app: str(tmp_path / app))
+    code, out, err = cli(monkeypatch, capsys, "history")
+    assert code == 0 and "no records match" in out, err
+    assert not list(tmp_path.rglob("history.sqlite*"))
+
+
 def _single_point_lot(tmp_path):
     (tmp_path / "r.csv").write_text("# synthetic\nT [K],n [cm^-3],n_err [cm^-3]\n"
                                     "296.15,9e14,9e12\n")

@@ -121,6 +121,8 @@ def history(*, supplier: str | None = None, since: str | _dt.date | None = None,
         raise InputError(f"--kind must be 'fit' or 'lot', got {kind!r}")
     database = sqlite_file(db)
     refuse_overwrite([out], [database])
+    if db is None and not _default_store_exists():
+        return HistoryResult(())  # nothing stored yet on this machine: no records, no error
     store = open_history(db, read_only=True)
     try:
         records = tuple(store.list_records(supplier=supplier, since=day, kind=kind))
@@ -149,3 +151,20 @@ def history(*, supplier: str | None = None, since: str | _dt.date | None = None,
             write_trend_png(pts, s, path)
         figures[s] = path
     return HistoryResult(records, tuple(suppliers), trends, figures)
+
+
+def _default_store_exists() -> bool:
+    """Whether the default history (``$FREEZEOUT_DB``, else the user data folder) exists.
+
+    Only the built-in default counts as "not yet made"; a URL given in ``$FREEZEOUT_DB`` or
+    ``--db`` that names no database is an error (a mistyped path), reported by the store.
+    """
+    import os
+
+    from freezeout.storage import ENV_VAR, default_url
+
+    if os.environ.get(ENV_VAR):
+        return True
+    url = default_url()
+    path = url.removeprefix("sqlite:///") if url.startswith("sqlite:///") else None
+    return path is None or os.path.isfile(path)
