@@ -9,7 +9,6 @@ integrals are computed here with mpmath.
 
 from __future__ import annotations
 
-import timeit
 
 import mpmath as mp
 import numpy as np
@@ -132,23 +131,6 @@ def test_bad_arguments():
         hf.scattering_average([1.0, 2.0], [S_L])
     with pytest.raises(InputError):
         hf.scattering_average([], [])
-
-
-def test_fifty_temperatures_are_fast():
-    # project choice, no source: mobilities and r_H at 50 temperatures well under 1 ms (the
-    # bound here is loose for a busy machine)
-    t = np.linspace(20.0, 400.0, 50)
-    nd = np.full_like(t, 1e16)
-
-    def evaluate():
-        mu_l = mob.lattice_mobility(t, 1400.0, 2.4)
-        mu_i = mob.brooks_herring_mobility(t, 2e16, nd, 0.26, 11.7)
-        mu_n = mob.erginsoy_mobility(nd, 0.26, 11.7)
-        return hf.scattering_average([mu_l, mu_i, mu_n], [S_L, S_I, S_N])
-
-    evaluate()
-    per_call = min(timeit.repeat(evaluate, number=20, repeat=5)) / 20
-    assert per_call < 5e-3
 
 
 def test_carrier_mobility_puts_the_mechanisms_together():
