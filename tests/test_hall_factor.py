@@ -9,7 +9,6 @@ integrals are computed here with mpmath.
 
 from __future__ import annotations
 
-
 import mpmath as mp
 import numpy as np
 import pytest
