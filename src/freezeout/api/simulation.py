@@ -57,6 +57,9 @@ def simulate(
     acceptors: Sequence[LevelSpec] = (),
     temperatures=(10.0, 700.0, 60),
     statistics: str = "fermi-dirac",
+    mobility: Sequence[str] | str = (),
+    lattice_mu300: float | None = None,
+    lattice_exponent: float | None = None,
 ):
     """Simulate a run: n, p, E_F and ionized fractions versus temperature.
 
@@ -71,6 +74,15 @@ def simulate(
         temperatures. [K]
     statistics
         ``"fermi-dirac"`` or ``"boltzmann"``.
+    mobility
+        Scattering mechanisms of the majority carrier's mobility, e.g. ``("lattice",
+        "brooks-herring")`` or ``"lattice+brooks-herring"`` (valid: lattice,
+        brooks-herring, conwell-weisskopf, neutral); empty for no transport columns. With
+        them the run gains ``mu_H``, ``rho`` and ``R_H`` of the majority carrier, the Hall
+        factor from the scattering.
+    lattice_mu300, lattice_exponent
+        Lattice mobility at 300 K and exponent a of mu_L ~ T^-a, needed with ``lattice``.
+        [cm^2/(V s)], [1]
 
     Returns
     -------
@@ -107,7 +119,13 @@ def simulate(
             if lv.energy is not None and not lv.energy < gap:
                 raise InputError(f"{kind} ionization energy {lv.energy:g} eV is not below the "
                                  f"band gap ({gap:.4g} eV)")
-    return _simulate(mat, t, levels["donor"], levels["acceptor"], statistics)
+    if mobility:
+        from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
+
+        check_lattice(check_mechanisms(mobility), lattice_mu300, lattice_exponent)
+    return _simulate(mat, t, levels["donor"], levels["acceptor"], statistics,
+                     mobility=mobility, lattice_mu300=lattice_mu300,
+                     lattice_exponent=lattice_exponent)
 
 
 def simulation_metadata(sim, statistics: str) -> dict[str, str]:
@@ -119,6 +137,14 @@ def simulation_metadata(sim, statistics: str) -> dict[str, str]:
             meta[f"{kind}_{i}"] = f"{lv.concentration:g} cm^-3, " + (
                 "fully ionized" if lv.energy is None
                 else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
+    tr = getattr(sim, "transport", None)
+    if tr is not None:
+        meta["mobility"] = "+".join(tr.models) + (
+            f" (lattice {tr.lattice_mobility_300:g} cm^2/(V s) at 300 K, exponent "
+            f"{tr.lattice_exponent:g})" if "lattice" in tr.models else "")
+        meta["mobility_carrier"] = tr.carrier
+        # the R_H column carries r_H(T) from the scattering: no one constant Hall factor
+        meta["hall_factor_varies"] = "yes (R_H = -+ r_H(T) / (q n), r_H from the scattering)"
     return meta
 
 

@@ -36,6 +36,15 @@ def simulate_command(
     acceptor: Annotated[list[str] | None, typer.Option(
         "--acceptor", help="CONC,ENERGY_EV[,G] (cm^-3, eV above E_v). Repeatable.")] = None,
     statistics: StatisticsOpt = "fermi-dirac",
+    mobility: Annotated[str | None, typer.Option(
+        "--mobility", help="Scattering mechanisms of the majority carrier joined by '+' "
+        "(lattice, brooks-herring, conwell-weisskopf, neutral): adds mu_H, rho and R_H "
+        "columns.")] = None,
+    lattice_mu300: Annotated[str | None, typer.Option(
+        "--lattice-mu300", help="Lattice mobility at 300 K [cm^2/(V s)] (with lattice).")
+    ] = None,
+    lattice_exponent: Annotated[str | None, typer.Option(
+        "--lattice-exponent", help="Exponent a of mu_L ~ T^-a (with lattice).")] = None,
     out: Annotated[Path | None, typer.Option("--out", "-o", help="CSV file to write "
                                              "(default: stdout).")] = None,
     json_output: JsonOpt = False,
@@ -52,9 +61,15 @@ def simulate_command(
         raise InputError(f"--temperatures: N {parts[2]!r} is not a whole number") from None
     donors = [parse_level(x, "donor") for x in donor or []]
     acceptors = [parse_level(x, "acceptor") for x in acceptor or []]
+    mu300 = None if lattice_mu300 is None else parse_number(lattice_mu300, "--lattice-mu300")
+    exponent = (None if lattice_exponent is None
+                else parse_number(lattice_exponent, "--lattice-exponent"))
+    if mobility is None and (mu300 is not None or exponent is not None):
+        raise InputError("--lattice-mu300 and --lattice-exponent need --mobility with lattice")
     sim = api.simulate(material=material, material_file=material_file, donors=donors,
                        acceptors=acceptors, temperatures=(t_min, t_max, n),
-                       statistics=statistics)
+                       statistics=statistics, mobility=mobility or (), lattice_mu300=mu300,
+                       lattice_exponent=exponent)
     if out is not None:
         api.write_simulation_csv(sim, statistics, out, material_file=material_file)
     if json_output:

@@ -239,7 +239,8 @@ def run_from_table(table: Table, *, hall_factor: float | None = None,
             if stated is None:
                 notes.append("carrier type not stated: assumed electrons (n); name the column "
                              "'n' or 'p', or add a '# carrier: p' line")
-        if rh is not None:
+        if rh is not None and "hall_factor_varies" not in meta:
+            # (a file whose R_H carries a temperature-dependent r_H cannot agree with one r_H)
             note = density_hall_note(np.abs(dens), dens_err, rh, rh_err, r_file, t, line_nos,
                                      plan)
             if note:
