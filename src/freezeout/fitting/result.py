@@ -235,6 +235,10 @@ class FitResult:
         out one.
     raw
         The lmfit MinimizerResult of the retained start (not serialized).
+    mobility
+        The mobility part of a joint density and mobility fit
+        (:class:`freezeout.fitting.mobility_model.MobilityFit`), or None for a density-only
+        fit; in the JSON under ``mobility`` keyed by carrier (``electron`` / ``hole``).
     """
 
     carrier: str
@@ -261,6 +265,7 @@ class FitResult:
     error_inflation: float = 1.0
     alternatives: tuple = ()
     raw: Any = field(default=None, repr=False, compare=False)
+    mobility: Any = None
 
     def _ln_residual(self) -> np.ndarray:
         """ln(model) - ln(measured) at the points used, in temperature order."""
@@ -316,7 +321,7 @@ class FitResult:
         """The JSON document printed by ``freezeout fit --json``."""
         corr = [[finite_or_none(x) for x in row] for row in np.asarray(self.correlation)]
         levels, net, comp = self._fixed_marked()
-        return {
+        out = {
             "schema_version": SCHEMA_VERSION,
             "carrier": self.carrier,
             "levels": levels,
@@ -340,3 +345,7 @@ class FitResult:
             "data": self.data.to_dict(),
             "optimizer_message": self.optimizer_message,
         }
+        if self.mobility is not None:
+            carrier = {"n": "electron", "p": "hole"}[self.mobility.carrier]
+            out["mobility"] = {carrier: self.mobility.to_dict()}
+        return out
