@@ -135,3 +135,23 @@ def test_run_hall_factor_option(fits):
     # project choice, no source)
     np.testing.assert_allclose(joint.mobility.model_hall_factor, 1.0)
     assert joint.levels[0].concentration.value == pytest.approx(1e16, rel=0.1)
+
+
+def test_p_type_with_neutral_impurities():
+    # holes, Brooks-Herring plus Erginsoy neutral scattering (C. Erginsoy, Phys. Rev. 79,
+    # 1013 (1950)); tolerances project choice, no source
+    sim = api.simulate(material="Si", acceptors=[(1e16, 0.045, None)],
+                       donors=[(2e14, None, None)], temperatures=(60.0, 300.0, 40),
+                       mobility="lattice+brooks-herring+neutral", lattice_mu300=470.0,
+                       lattice_exponent=2.2)
+    rng = np.random.default_rng(3)
+    p = sim.p * (1 + 0.02 * rng.standard_normal(40))
+    mu = sim.transport.hall_mobility * (1 + 0.02 * rng.standard_normal(40))
+    run = RunData(source="s", sha256="0" * 64, temperature=sim.temperature, density=p,
+                  density_err=0.02 * p, carrier="p", point_carrier=("p",) * 40, mobility=mu,
+                  mobility_err=0.02 * mu)
+    joint = fit_run_joint(run, SI, mobility="lattice+brooks-herring+neutral")
+    assert joint.levels[-1].kind == "donor"
+    assert joint.levels[-1].concentration.value == pytest.approx(2e14, rel=0.25)
+    assert joint.mobility.lattice_mu300.value == pytest.approx(470.0, rel=0.05)
+    assert list(joint.to_dict()["mobility"]) == ["hole"]
