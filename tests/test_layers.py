@@ -99,16 +99,53 @@ def test_rooms_are_small(module, path):
     assert n <= 450, f"{module} has {n} lines; the limit is 450"
 
 
+def _lazy_reexport(node) -> bool:
+    """A PEP 562 ``__getattr__``/``__dir__`` that only imports and returns names, or the
+    frozen set of names it serves (``_NAME = frozenset({...})``)."""
+    if isinstance(node, ast.FunctionDef) and node.name in ("__getattr__", "__dir__"):
+        calls = [n.func for n in ast.walk(node) if isinstance(n, ast.Call)]
+        allowed = {"getattr", "globals", "sorted", "AttributeError", "frozenset"}
+        return all(isinstance(f, ast.Name) and f.id in allowed for f in calls)
+    if isinstance(node, ast.Assign) and len(node.targets) == 1:
+        target, value = node.targets[0], node.value
+        return (isinstance(target, ast.Name) and target.id.startswith("_")
+                and isinstance(value, ast.Call) and getattr(value.func, "id", "") == "frozenset")
+    return False
+
+
 def test_package_faces_only_reexport():
-    """A package's ``__init__.py`` holds imports, ``__all__`` and a docstring, nothing else."""
+    """A package's ``__init__.py`` holds imports, ``__all__``, a docstring and, for lazy
+    re-export, a ``__getattr__``/``__dir__`` that only imports and returns; nothing else."""
     for path in SRC.rglob("__init__.py"):
         tree = ast.parse(path.read_text(encoding="utf-8"))
         for node in tree.body:
             ok = isinstance(node, ast.Import | ast.ImportFrom) or (
                 isinstance(node, ast.Expr) and isinstance(node.value, ast.Constant)) or (
                 isinstance(node, ast.Assign) and [getattr(t, "id", None) for t in node.targets]
-                == ["__all__"])
+                == ["__all__"]) or _lazy_reexport(node)
             assert ok, f"{path.relative_to(SRC)} line {node.lineno}: only re-exports belong here"
+
+
+def test_lazy_faces_serve_every_name():
+    """Every name a lazy face lists resolves (so no re-export is a dead string)."""
+    import freezeout
+    import freezeout.api
+
+    for module in (freezeout, freezeout.api):
+        for name in module.__all__:
+            assert getattr(module, name) is not None, f"{module.__name__}.{name}"
+
+
+def test_help_does_not_load_the_api_modules():
+    """``freezeout --help`` imports the CLI, typer and rich, not the API's modules."""
+    import subprocess
+    import sys
+
+    code = ("import sys, freezeout.cli.app; "
+            "print(sorted(m for m in sys.modules if m.startswith('freezeout.api.')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "[]"
 
 
 def test_the_table_catches_an_upward_import(tmp_path):

@@ -8,7 +8,6 @@ from typing import Annotated
 import typer
 
 from freezeout import api
-from freezeout.api.fits import check_history_url
 from freezeout.cli.common import (
     DbOpt,
     JsonOpt,
@@ -74,7 +73,7 @@ def fit_command(
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
     if not no_history:  # a URL the history cannot use fails before the fit, nothing written
-        check_history_url(db)
+        api.check_history_url(db)
     folder = None
     if out is not None or not json_output:
         folder = out if out is not None else api.default_report_folder(run)
