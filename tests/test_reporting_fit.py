@@ -164,8 +164,9 @@ def test_transport_figure(result):
 def test_write_fit_report_files(result, tmp_path):
     """fit.json is the result's document, each PNG decodes, report.html embeds them."""
     paths = write_fit_report(result, tmp_path / "out")
-    assert sorted(paths) == ["density.png", "fermi_level.png", "fit.json", "ionization.png",
-                             "report.html", "residuals.png", "transport.png"]
+    assert sorted(paths) == ["curves.csv", "density.png", "fermi_level.png", "fit.json",
+                             "ionization.png", "report.html", "residuals.csv", "residuals.png",
+                             "transport.png"]
     assert all(p.parent == tmp_path / "out" and p.is_file() for p in paths.values())
     assert json.loads(paths["fit.json"].read_text()) == json.loads(
         json.dumps(result.to_dict()))

@@ -11,6 +11,7 @@ from freezeout.api.materials import load_material
 from freezeout.api.runs import load_run
 from freezeout.api.simulation import check_statistics
 from freezeout.errors import InputError
+from freezeout.reporting.fit_report import REPORT_FILES as FIT_REPORT_FILES
 
 if TYPE_CHECKING:
     from freezeout.fitting.result import FitResult
@@ -177,11 +178,6 @@ def check_history_url(db: str | None) -> None:
                          "a postgresql:// URL")
 
 
-#: Every file a fit report may write into its folder (freezeout.reporting.fit_report).
-FIT_REPORT_FILES = ("fit.json", "report.html", "density.png", "residuals.png",
-                    "fermi_level.png", "ionization.png", "transport.png")
-
-
 def fit_report_outputs(folder: str | Path) -> list[Path]:
     """The report folder and every file the report may write in it."""
     folder = Path(folder)
@@ -199,8 +195,12 @@ def default_report_folder(run_path: str | Path) -> Path:
     return Path("reports") / Path(run_path).stem
 
 
-def write_fit_report(result: FitResult, folder: str | Path) -> dict[str, Path]:
-    """Write fit.json, the figures and report.html into ``folder``; return name -> path.
+def write_fit_report(result: FitResult, folder: str | Path, *, svg: bool = False
+                     ) -> dict[str, Path]:
+    """Write the fit report into ``folder``; return name -> path.
+
+    fit.json, the figures (PNG; SVG too with ``svg``), curves.csv, residuals.csv and
+    report.html.
 
     Refuses (:class:`InputError`, nothing written) a folder that is, or whose report files
     would be, the run or material file the fit read
@@ -210,7 +210,7 @@ def write_fit_report(result: FitResult, folder: str | Path) -> dict[str, Path]:
     from freezeout.reporting.fit_report import write_fit_report as _write
 
     refuse_overwrite(fit_report_outputs(folder), _fit_inputs(result))
-    return _write(result, folder)
+    return _write(result, folder, svg=svg)
 
 
 def history_failure(exc: Exception, report: str | Path | None) -> InputError:

@@ -62,6 +62,8 @@ def fit_command(
     db: DbOpt = None,
     no_history: Annotated[bool, typer.Option(
         "--no-history", help="Do not store the fit in the history database.")] = False,
+    svg: Annotated[bool, typer.Option(
+        "--svg", help="Also write every figure as SVG beside its PNG.")] = False,
 ) -> int:
     """Fit a run; see HELP."""
     fixes = {k: parse_number(v, f"--fix {k}") for k, v in
@@ -84,7 +86,7 @@ def fit_command(
                           include_mixed=include_mixed, include_flagged=include_flagged,
                           thickness=thickness)
     replacing = folder is not None and Path(folder).is_dir() and any(Path(folder).iterdir())
-    written = {} if folder is None else api.write_fit_report(result, folder)
+    written = {} if folder is None else api.write_fit_report(result, folder, svg=svg)
     if replacing:
         typer.echo(f"replaced the earlier report in {folder}", err=json_output)
     saved = None if no_history else api.record_fit(result, db,

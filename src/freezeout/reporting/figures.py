@@ -426,9 +426,9 @@ def residual_columns(result: FitResult) -> dict[str, np.ndarray]:
                 "left_out": reason}
 
 
-def png_bytes(fig_or_ax) -> bytes:
-    """Render a Figure (or the Figure of an Axes) to PNG bytes."""
+def png_bytes(fig_or_ax, fmt: str = "png") -> bytes:
+    """Render a Figure (or the Figure of an Axes) to PNG (or ``fmt``, e.g. SVG) bytes."""
     fig = fig_or_ax if isinstance(fig_or_ax, Figure) else fig_or_ax.figure
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=130)
+    fig.savefig(buf, format=fmt, dpi=130)
     return buf.getvalue()

@@ -11,9 +11,13 @@ from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
 
-#: Every file a fit report may write into its folder (replaced as a set).
-REPORT_FILES = ("fit.json", "report.html", "density.png", "residuals.png",
-                "fermi_level.png", "ionization.png", "transport.png")
+#: The figures a fit report may draw (``.png``, and ``.svg`` on request).
+FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport")
+
+#: Every file a fit report may write into its folder (replaced as a set): the result, the
+#: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
+REPORT_FILES = ("fit.json", "report.html", "curves.csv", "residuals.csv",
+                *(f"{stem}.{ext}" for stem in FIGURE_STEMS for ext in ("png", "svg")))
 
 CSS = """
 body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;max-width:980px;
@@ -63,27 +67,51 @@ def _rms_sentence(st: dict) -> str:
     return f" rms residual {rms:.2g} % (ln density).{note}"
 
 
-def _figure_files(result: FitResult) -> dict[str, tuple[bytes, str]]:
+def _figure_files(result: FitResult, curves=None, svg: dict | None = None
+                  ) -> dict[str, tuple[bytes, str]]:
+    """PNG bytes and caption per figure; with ``svg`` (a dict), its SVG bytes go there too."""
     from freezeout.reporting import figures as fg
 
-    curves = model_curves(result)
-    out = {
-        "density.png": (fg.png_bytes(fg.density_axes(result, curves)),
-                        "Carrier density versus 1000/T: measured points, the fit, and the "
-                        "contribution of each level and of intrinsic generation."),
-        "residuals.png": (fg.png_bytes(fg.residual_axes(result)),
-                          "Residuals of the fit, measured/fitted − 1."),
-        "fermi_level.png": (fg.png_bytes(fg.fermi_figure(result, curves)),
-                            "Fermi level in the gap, with the band edges and level energies; "
-                            "right: measured from the majority band edge."),
-        "ionization.png": (fg.png_bytes(fg.ionization_axes(result, curves)),
-                           "Ionized fraction of each level."),
+    curves = model_curves(result) if curves is None else curves
+    drawn = {
+        "density": (fg.density_axes(result, curves),
+                    "Carrier density versus 1000/T: measured points, the fit, and the "
+                    "contribution of each level and of intrinsic generation."),
+        "residuals": (fg.residual_axes(result), "Residuals of the fit, measured/fitted − 1."),
+        "fermi_level": (fg.fermi_figure(result, curves),
+                        "Fermi level in the gap, with the band edges and level energies; "
+                        "right: measured from the majority band edge."),
+        "ionization": (fg.ionization_axes(result, curves), "Ionized fraction of each level."),
     }
     tr = fg.transport_figure(result)
     if tr is not None:
-        out["transport.png"] = (fg.png_bytes(tr), "Resistivity and Hall mobility versus "
-                                "temperature (crosses: points left out of the fit).")
+        drawn["transport"] = (tr, "Resistivity and Hall mobility versus temperature "
+                              "(crosses: points left out of the fit).")
+    out = {}
+    for stem, (fig, caption) in drawn.items():
+        out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
+        if svg is not None:
+            svg[f"{stem}.svg"] = fg.png_bytes(fig, "svg")
     return out
+
+
+def _csv_text(columns: dict) -> str:
+    """Named columns as CSV text (header row of the names; empty cell for NaN)."""
+    import csv
+    import io
+
+    import numpy as np
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    names = list(columns)
+    w.writerow(names)
+    arrays = [np.asarray(columns[k]) for k in names]
+    for i in range(len(arrays[0]) if arrays else 0):
+        w.writerow(["" if isinstance(a[i], float | np.floating) and not np.isfinite(a[i])
+                    else (repr(float(a[i])) if isinstance(a[i], float | np.floating)
+                          else str(a[i])) for a in arrays])
+    return buf.getvalue()
 
 
 def _alternatives_html(alternatives: list[dict]) -> str:
@@ -214,21 +242,37 @@ cryogens, strong magnets, heated stages and mains-powered instruments (README, S
 """
 
 
-def write_fit_report(result: FitResult, out_dir: str | Path) -> dict[str, Path]:
-    """Write fit.json, the figures and report.html into ``out_dir``, as one set.
+def write_fit_report(result: FitResult, out_dir: str | Path, *, svg: bool = False
+                     ) -> dict[str, Path]:
+    """Write fit.json, the figures, curves.csv, residuals.csv and report.html, as one set.
+
+    ``curves.csv`` holds the model on a fine temperature grid and ``residuals.csv`` the
+    measured points beside the model (:func:`freezeout.reporting.figures.curve_columns`,
+    :func:`~freezeout.reporting.figures.residual_columns`); with ``svg`` every figure is also
+    written as SVG.
 
     The files are written into a sibling temporary folder that then replaces ``out_dir``
     (:func:`freezeout.io.atomic.atomic_folder`): a failure or a kill leaves the earlier report
     whole, never a new fit.json beside an old report.html. A folder that also holds other
     files keeps them; only the report's own files (:data:`REPORT_FILES`) are replaced.
     """
+    from freezeout.reporting.figures import curve_columns, residual_columns
+
     out = Path(out_dir)
-    figures = _figure_files(result)
+    curves = model_curves(result)
+    svgs: dict[str, bytes] | None = {} if svg else None
+    figures = _figure_files(result, curves, svgs)
     page = render_html(result, figures)
-    names = ["fit.json", *figures, "report.html"]
+    tables = {"curves.csv": _csv_text(curve_columns(result, curves)),
+              "residuals.csv": _csv_text(residual_columns(result))}
+    names = ["fit.json", *figures, *(svgs or {}), *tables, "report.html"]
     with atomic_folder(out, owned=REPORT_FILES) as tmp:
         atomic_write_text(tmp / "fit.json", json.dumps(result.to_dict(), indent=2) + "\n")
         for name, (png, _) in figures.items():
             atomic_write_bytes(tmp / name, png)
+        for name, data in (svgs or {}).items():
+            atomic_write_bytes(tmp / name, data)
+        for name, text in tables.items():
+            atomic_write_text(tmp / name, text)
         atomic_write_text(tmp / "report.html", page)
     return {name: out / name for name in names}
