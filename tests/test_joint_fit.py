@@ -155,3 +155,37 @@ def test_p_type_with_neutral_impurities():
     assert joint.levels[-1].concentration.value == pytest.approx(2e14, rel=0.25)
     assert joint.mobility.lattice_mu300.value == pytest.approx(470.0, rel=0.05)
     assert list(joint.to_dict()["mobility"]) == ["hole"]
+
+
+def test_fit_command_with_mobility(tmp_path, monkeypatch, capsys):
+    # the CLI path: a noiseless simulated run, density-only versus joint (project choice,
+    # no source: the joint fit must give back the simulated levels)
+    from cli_runner import cli
+
+    path = tmp_path / "sim.csv"
+    code, _, err = cli(monkeypatch, capsys, "simulate", "-t", "60:300:30", "--donor",
+                       "1e16,0.045", "--acceptor", "2e14,none", "--mobility",
+                       "lattice+brooks-herring", "--lattice-mu300", "1400",
+                       "--lattice-exponent", "2.4", "-o", path)
+    assert code == 0, err
+    code, out, err = cli(monkeypatch, capsys, "fit", path, "--json", "--no-history")
+    assert code == 0, err
+    plain = json.loads(out)
+    assert "mobility" not in plain and "mobility" not in plain["provenance"]["options"]
+    code, out, err = cli(monkeypatch, capsys, "fit", path, "--json", "--no-history",
+                         "--mobility", "lattice+brooks-herring")
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["provenance"]["options"]["mobility"]["models"] == ["lattice", "brooks-herring"]
+    block = doc["mobility"]["electron"]
+    assert block["lattice_mu300_cm2_per_Vs"]["value"] == pytest.approx(1400.0, rel=1e-3)
+    assert doc["levels"][-1]["concentration_cm3"]["value"] == pytest.approx(2e14, rel=1e-3)
+    code, _, err = cli(monkeypatch, capsys, "fit", path, "--no-history", "--json",
+                       "--lattice-mu300", "1400")
+    assert code != 0 and "need --mobility" in err
+    bare = tmp_path / "bare.csv"
+    bare.write_text("T [K],n [cm^-3]\n" + "".join(f"{t},{1e15 * (1 + t / 100)}\n"
+                                                 for t in range(60, 301, 20)))
+    code, _, err = cli(monkeypatch, capsys, "fit", bare, "--no-history", "--json",
+                       "--mobility", "lattice+brooks-herring")
+    assert code != 0 and "mobility column" in err

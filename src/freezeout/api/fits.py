@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -35,6 +35,9 @@ def fit_file(
     include_mixed: bool = False,
     include_flagged: bool = False,
     thickness: str | None = None,
+    mobility: Sequence[str] | str = (),
+    lattice_mu300: float | None = None,
+    lattice_exponent: float | None = None,
 ) -> FitResult:
     """Read a run, fit it and return the :class:`~freezeout.fitting.result.FitResult`.
 
@@ -61,6 +64,13 @@ def fit_file(
         Keep points that failed a severe data-quality check.
     thickness
         Sample thickness for a raw file, e.g. ``"350um"`` (overrides the file's).
+    mobility
+        Scattering mechanisms for a joint fit of the density and the Hall mobility (e.g.
+        ``("lattice", "brooks-herring")``; must include ``lattice``); empty (default) for
+        the density-only fit. The run needs a mobility column, or a resistivity column
+        beside the density (:func:`freezeout.fitting.joint.fit_run_joint`).
+    lattice_mu300, lattice_exponent
+        Optional starting values of the fitted lattice term. [cm^2/(V s)], [1]
     """
     check_statistics(statistics)
     run = load_run(path, hall_factor=hall_factor, include_mixed=include_mixed,
@@ -69,7 +79,9 @@ def fit_file(
                           material=material, material_file=material_file, donors=donors,
                           acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
                           degeneracy=degeneracy, fix=fix, bounds=bounds,
-                          include_mixed=include_mixed, include_flagged=include_flagged)
+                          include_mixed=include_mixed, include_flagged=include_flagged,
+                          mobility=mobility, lattice_mu300=lattice_mu300,
+                          lattice_exponent=lattice_exponent)
 
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
@@ -80,11 +92,16 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    fix: Mapping[str, float] | None = None,
                    bounds: Mapping[str, tuple[float, float]] | None = None,
                    include_mixed: bool = False, include_flagged: bool = False,
-                   where: str = "the file") -> FitResult:
+                   where: str = "the file", mobility: Sequence[str] | str = (),
+                   lattice_mu300: float | None = None,
+                   lattice_exponent: float | None = None) -> FitResult:
     """Fit a run record with the options and provenance of :func:`fit_file`.
 
     ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
-    note made when no material is given ("the file", "the table").
+    note made when no material is given ("the file", "the table"). With ``mobility`` the
+    density-only fit is followed by the joint fit of density and Hall mobility, and the
+    options record the mechanisms (absent otherwise, so a density-only fit's options are
+    unchanged).
     """
     import datetime as _dt
     from dataclasses import replace
@@ -92,6 +109,11 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     from freezeout.fitting.fit import fit_run
 
     statistics = check_statistics(statistics)
+    models = ()
+    if mobility:
+        from freezeout.physics.majority_mobility import check_mechanisms
+
+        models = check_mechanisms(mobility)
     notes = []
     if material is None and material_file is None:
         stated = run.metadata.get("material")
@@ -106,6 +128,9 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                "statistics": statistics, "hall_factor": hall_factor, "degeneracy": degeneracy,
                "fix": dict(fix or {}), "bounds": {k: list(v) for k, v in (bounds or {}).items()},
                "include_mixed": include_mixed, "include_flagged": include_flagged}
+    if models:
+        options["mobility"] = {"models": list(models), "lattice_mu300_start": lattice_mu300,
+                               "lattice_exponent_start": lattice_exponent}
     provenance = {
         "input": input_name,
         "input_path": input_path,
@@ -120,6 +145,12 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
                      degeneracy=degeneracy, fix=fix, bounds=bounds,
                      include_flagged=include_flagged, provenance=provenance)
+    if models:
+        from freezeout.fitting.joint import fit_run_joint
+
+        result = fit_run_joint(run, mat, mobility=models, lattice_mu300=lattice_mu300,
+                               lattice_exponent=lattice_exponent, base=result, fix=fix,
+                               bounds=bounds)
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
     return result

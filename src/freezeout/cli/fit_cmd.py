@@ -59,6 +59,16 @@ def fit_command(
         "--include-flagged", help="Keep points that failed a severe quality check.")] = False,
     thickness: Annotated[str | None, typer.Option(
         help="Sample thickness for a raw file, e.g. 350um (overrides the file).")] = None,
+    mobility: Annotated[str | None, typer.Option(
+        "--mobility", help="Fit the Hall mobility too: scattering mechanisms joined by '+' "
+        "(lattice, brooks-herring, conwell-weisskopf, neutral; lattice required, its mu_300 "
+        "and exponent are fitted). Needs a mobility or resistivity column.")] = None,
+    lattice_mu300: Annotated[str | None, typer.Option(
+        "--lattice-mu300", help="Start of the fitted lattice mobility at 300 K "
+        "[cm^2/(V s)] (with --mobility).")] = None,
+    lattice_exponent: Annotated[str | None, typer.Option(
+        "--lattice-exponent", help="Start of the fitted lattice exponent a, mu_L ~ T^-a "
+        "(with --mobility).")] = None,
     db: DbOpt = None,
     no_history: Annotated[bool, typer.Option(
         "--no-history", help="Do not store the fit in the history database.")] = False,
@@ -74,6 +84,11 @@ def fit_command(
         if not sep:
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
+    mu300 = None if lattice_mu300 is None else parse_number(lattice_mu300, "--lattice-mu300")
+    exponent = (None if lattice_exponent is None
+                else parse_number(lattice_exponent, "--lattice-exponent"))
+    if mobility is None and (mu300 is not None or exponent is not None):
+        raise InputError("--lattice-mu300 and --lattice-exponent need --mobility")
     if not no_history:  # a URL the history cannot use fails before the fit, nothing written
         api.check_history_url(db)
     folder = None
@@ -84,7 +99,8 @@ def fit_command(
                           acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
                           degeneracy=degeneracy, fix=fixes, bounds=bounds,
                           include_mixed=include_mixed, include_flagged=include_flagged,
-                          thickness=thickness)
+                          thickness=thickness, mobility=mobility or (), lattice_mu300=mu300,
+                          lattice_exponent=exponent)
     replacing = folder is not None and Path(folder).is_dir() and any(Path(folder).iterdir())
     written = {} if folder is None else api.write_fit_report(result, folder, svg=svg)
     if replacing:
@@ -136,6 +152,9 @@ def _print_summary(result, written) -> None:
             row(f"E_{lv['name']}", lv["energy_eV"], "eV")
     row("net doping", d["net_doping_cm3"], "cm^-3")
     row("compensation ratio", d["compensation_ratio"], "")
+    for carrier, block in (d.get("mobility") or {}).items():
+        row(f"{carrier} lattice mu_300", block["lattice_mu300_cm2_per_Vs"], "cm^2/(V s)")
+        row(f"{carrier} lattice exponent", block["lattice_exponent"], "")
     show(con, table)
     say(con, f"chi^2 = {num(st['chi2'])}, reduced chi^2 = {num(st['reduced_chi2'])}, "
              f"AIC = {num(st['aic'])}, BIC = {num(st['bic'])}")
