@@ -168,3 +168,20 @@ def test_trend_figure_from_trend_points(tmp_path):
     with pytest.raises(ValueError, match="no trend points"):
         write_trend_png([], TRICKY, tmp_path / "none.png")
     assert not (tmp_path / "none.png").exists()
+
+
+def test_uncertainty_bars_stand_beside_their_markers(mixed):
+    """The ±U bars are drawn beside each wafer's marker, so a U smaller than the marker is
+    still seen (project choice, no source)."""
+    from matplotlib.collections import LineCollection
+
+    from freezeout.reporting.lot_figures import BAR_OFFSET
+
+    ax = claim_axes(mixed.verdict, "claim[2]")
+    markers = [x for line in ax.get_lines() if line.get_linestyle() in ("None", "none", "")
+               for x in line.get_xdata()]
+    bars = [seg[0][0] for c in ax.collections if isinstance(c, LineCollection)
+            for seg in c.get_segments() if len(seg) == 2 and seg[0][0] == seg[1][0]]
+    assert markers and bars
+    for x in bars:
+        assert min(abs(x - m - BAR_OFFSET) for m in markers) < 1e-9

@@ -34,6 +34,10 @@ _QUANTITY_LABEL = {
 }
 _UNIT_LABEL = {"cm^-3": "cm$^{-3}$", "ohm cm": "Ω cm"}
 
+#: Horizontal offset of a wafer's ±U/±u bars from its marker, in wafer slots (project
+#: choice): beside the marker, not under it. [1]
+BAR_OFFSET = 0.16
+
 
 def unit_label(unit: str | None) -> str:
     """A canonical unit written for a matplotlib label (``cm^-3`` -> cm⁻³)."""
@@ -142,12 +146,16 @@ def claim_axes(verdict: LotVerdict, claim_key: str, ax=None):
             # error bars that stay above zero on a log axis
             lower_u = np.where(np.isfinite(bu), np.minimum(bu, yy * 0.999 if log else bu), 0.0)
             upper_u = np.where(np.isfinite(bu), bu, 0.0)
-            ax.errorbar(x[sel], yy, yerr=[lower_u, upper_u], fmt="none", ecolor=col,
-                        elinewidth=1.0, capsize=5, capthick=1.0, zorder=3)
+            # the bars stand beside the marker, so a U smaller than the marker stays visible
+            xb = x[sel] + BAR_OFFSET
+            ax.errorbar(xb, yy, yerr=[lower_u, upper_u], fmt="none", ecolor=col,
+                        elinewidth=1.0, capsize=4, capthick=1.0, zorder=3)
             lower_s = np.where(np.isfinite(uu), np.minimum(uu, yy * 0.999 if log else uu), 0.0)
             upper_s = np.where(np.isfinite(uu), uu, 0.0)
-            ax.errorbar(x[sel], yy, yerr=[lower_s, upper_s], fmt="none", ecolor=col,
+            ax.errorbar(xb, yy, yerr=[lower_s, upper_s], fmt="none", ecolor=col,
                         elinewidth=3.2, alpha=0.55, zorder=3)
+            ax.plot(np.stack([x[sel], xb]), np.stack([yy, yy]), color=col, lw=0.8,
+                    alpha=0.6, zorder=3)  # a short tie from the marker to its bars
             ax.plot(x[sel], yy, st["marker"], ms=8, color=col,
                     mfc=col if st["filled"] else "white", mew=1.6, ls="none", zorder=4,
                     label=verdict)
