@@ -11,6 +11,7 @@ import sys
 from freezeout._version import __version__ as __version__
 from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K, HALL_FACTOR_RANGE
 
+_BATCH = frozenset({"BatchFit", "default_comparison_folder", "fit_files", "write_comparison"})
 _FITS = frozenset({
     "FIT_REPORT_FILES", "check_history_url", "default_report_folder", "fit_file",
     "fit_report_outputs", "record_fit", "write_fit_report"
@@ -38,7 +39,11 @@ def __getattr__(name: str):
     their module's (``history``), which ``from freezeout.api import history`` would resolve
     through this very function.
     """
-    if name in _FITS:
+    if name in _BATCH:
+        import freezeout.api.batch  # noqa: F401  (the module, taken from sys.modules)
+
+        module = sys.modules["freezeout.api.batch"]
+    elif name in _FITS:
         import freezeout.api.fits  # noqa: F401  (the module, taken from sys.modules)
 
         module = sys.modules["freezeout.api.fits"]
@@ -87,6 +92,7 @@ def __dir__() -> list[str]:
 
 
 __all__ = [
+    "BatchFit", "default_comparison_folder", "fit_files", "write_comparison",
     "DEFAULT_GROUPING_TOLERANCE_K", "HALL_FACTOR_RANGE", "__version__", "EXIT_CODES",
     "FIT_OPTIONS", "FIT_REPORT_FILES", "HistoryResult", "QualificationOutcome", "ReduceOutcome",
     "WaferJob", "WaferOutcome", "build_qualification", "check_history_url", "check_statistics",

@@ -26,9 +26,10 @@ HELP = ("Fit a temperature run (reduced CSV or raw readings) to the carrier mode
 
 
 def fit_command(
-    run: Annotated[Path, typer.Argument(
-        metavar="RUN.csv", help="Run file: reduced CSV, or raw van der Pauw/Hall readings "
-        "(recognised and reduced on the way in).")],
+    run: Annotated[list[Path], typer.Argument(
+        metavar="RUN.csv...", help="Run file(s): reduced CSV, or raw van der Pauw/Hall "
+        "readings (recognised and reduced on the way in). Several runs are fitted with the "
+        "same options, each with its own report, plus comparison.csv and overlay.png.")],
     material: MaterialOpt = None,
     material_file: MaterialFileOpt = None,
     donors: Annotated[int, typer.Option(help="Donor levels: partially ionized levels for an "
@@ -91,30 +92,64 @@ def fit_command(
         raise InputError("--lattice-mu300 and --lattice-exponent need --mobility")
     if not no_history:  # a URL the history cannot use fails before the fit, nothing written
         api.check_history_url(db)
+    options = dict(material=material, material_file=material_file, donors=donors,
+                   acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
+                   degeneracy=degeneracy, fix=fixes, bounds=bounds, include_mixed=include_mixed,
+                   include_flagged=include_flagged, thickness=thickness,
+                   mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent)
+    runs = list(run)
+    if len(runs) == 1:
+        result = _fit_one(runs[0], out, json_output, svg, db, no_history, options)
+        if json_output:
+            print_json(result.to_dict())
+        return 0
+    batch = api.fit_files(runs, **options)  # refuses a run named twice before any fit
+    folder = None
+    if out is not None or not json_output:
+        folder = out if out is not None else api.default_comparison_folder()
+        api.refuse_overwrite([folder / "comparison.csv", folder / "overlay.png"],
+                             [*runs, material_file])
+    for path, result in zip(runs, batch.results, strict=True):
+        _report_one(path, result, None if folder is None else folder / path.stem,
+                    json_output, svg, db, no_history, material_file)
+    compared = {} if folder is None else api.write_comparison(batch, folder)
+    if json_output:
+        print_json(batch.to_dict())
+    else:
+        for name, where in compared.items():
+            typer.echo(f"{name}: {where}")
+    return 0
+
+
+def _fit_one(run: Path, out: Path | None, json_output: bool, svg: bool, db, no_history: bool,
+             options: dict):
+    """Fit one run, write its report, record it; return the result."""
     folder = None
     if out is not None or not json_output:
         folder = out if out is not None else api.default_report_folder(run)
+        api.refuse_overwrite(api.fit_report_outputs(folder), [run, options["material_file"]])
+    result = api.fit_file(run, **options)
+    _report_one(run, result, folder, json_output, svg, db, no_history,
+                options["material_file"])
+    return result
+
+
+def _report_one(run: Path, result, folder: Path | None, json_output: bool, svg: bool, db,
+                no_history: bool, material_file) -> None:
+    """Write a fit's report into ``folder`` (if any), record it and print its summary."""
+    if folder is not None:
         api.refuse_overwrite(api.fit_report_outputs(folder), [run, material_file])
-    result = api.fit_file(run, material=material, material_file=material_file, donors=donors,
-                          acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
-                          degeneracy=degeneracy, fix=fixes, bounds=bounds,
-                          include_mixed=include_mixed, include_flagged=include_flagged,
-                          thickness=thickness, mobility=mobility or (), lattice_mu300=mu300,
-                          lattice_exponent=exponent)
     replacing = folder is not None and Path(folder).is_dir() and any(Path(folder).iterdir())
     written = {} if folder is None else api.write_fit_report(result, folder, svg=svg)
     if replacing:
         typer.echo(f"replaced the earlier report in {folder}", err=json_output)
     saved = None if no_history else api.record_fit(result, db,
                                                    report=folder if written else None)
-    if json_output:
-        print_json(result.to_dict())
-    else:
+    if not json_output:
         _print_summary(result, written)
         if saved is not None:
             how = "stored" if saved.created else "already stored for this input and options"
             typer.echo(f"history: fit record {saved.record_id} ({how})")
-    return 0
 
 
 def _print_summary(result, written) -> None:

@@ -1,0 +1,73 @@
+"""Several runs fitted with the same options, compared in one table and one figure."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from freezeout.api.fits import fit_file
+from freezeout.errors import InputError
+
+if TYPE_CHECKING:
+    from freezeout.fitting.result import FitResult
+
+
+@dataclass(frozen=True)
+class BatchFit:
+    """The fits of several runs.
+
+    Attributes
+    ----------
+    results
+        One fit per run, in the order given.
+    """
+
+    results: tuple[FitResult, ...]
+
+    def comparison(self) -> list[dict]:
+        """One row per run (see :func:`freezeout.reporting.comparison.comparison_rows`)."""
+        from freezeout.reporting.comparison import comparison_rows
+
+        return comparison_rows(self.results)
+
+    def to_dict(self) -> dict:
+        """What ``freezeout fit A.csv B.csv ... --json`` prints: every fit and the table."""
+        from freezeout.numbers import finite_or_none
+
+        rows = [{k: finite_or_none(v) if isinstance(v, float) else v for k, v in row.items()}
+                for row in self.comparison()]
+        return {"runs": [r.to_dict() for r in self.results], "comparison": rows}
+
+
+def fit_files(paths: Sequence[str | Path], **options) -> BatchFit:
+    """Fit every run with the same options (those of :func:`freezeout.api.fits.fit_file`).
+
+    Raises
+    ------
+    InputError
+        No run given, a run named twice, or a run that cannot be read (its message names it).
+    """
+    paths = [Path(p) for p in paths]
+    if not paths:
+        raise InputError("give at least one run to fit")
+    seen = set()
+    for p in paths:
+        key = p.resolve() if p.exists() else p
+        if key in seen:
+            raise InputError("this run is named twice", file=str(p))
+        seen.add(key)
+    return BatchFit(tuple(fit_file(p, **options) for p in paths))
+
+
+def write_comparison(batch: BatchFit, folder: str | Path) -> dict[str, Path]:
+    """Write comparison.csv and overlay.png into ``folder``."""
+    from freezeout.reporting.comparison import write_comparison as _write
+
+    return _write(batch.results, folder)
+
+
+def default_comparison_folder() -> Path:
+    """Where ``fit A.csv B.csv ...`` writes its comparison by default."""
+    return Path("reports") / "comparison"
