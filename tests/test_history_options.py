@@ -8,6 +8,7 @@ Wafers"). Every rule checked here is project choice, no source.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import pytest
 
@@ -107,3 +108,26 @@ def test_qualify_without_history(monkeypatch, capsys, tmp_path):
 def test_default_workers(wafers, cpus, expected):
     # spawned workers re-import the stack, so a small lot runs faster in one process
     assert default_workers(wafers, cpus) == expected
+
+
+def test_history_table_shows_the_options_each_record_used(monkeypatch, capsys, tmp_path):
+    """The terminal table names the options of each fit (what was set) and the fit settings
+    of a lot's wafers; the full options are in --json (project choice, no source)."""
+    from freezeout.cli.history_cmd import options_text
+
+    assert options_text({"material": "Si", "donors": 2, "acceptors": 1, "fix": {"E_D1": 0.045},
+                         "bounds": {"N_A": [1e12, 1e15]}, "include_mixed": False,
+                         "hall_factor": None}) == (
+        "material=Si donors=2 acceptors=1 fix E_D1=0.045 bounds N_A=1e12:1e15")
+    assert options_text({"fit": {"donors": 1, "acceptors": 1, "statistics": "fermi-dirac"},
+                         "temperature_tolerance_K": 1.0}) == (
+        "donors=1 acceptors=1 statistics=fermi-dirac")
+    assert options_text({}) == "—"
+    sample = Path(__file__).resolve().parents[1] / "sample_data" / "harrowgate_si_n_run.csv"
+    db = f"sqlite:///{tmp_path / 'h.sqlite'}"
+    code, _, err = cli(monkeypatch, capsys, "fit", sample, "--donors", "1", "--fix",
+                       "E_D1=0.0455", "--json", "--db", db)
+    assert code == 0, err
+    monkeypatch.setenv("COLUMNS", "300")
+    code, out, _ = cli(monkeypatch, capsys, "history", "--db", db)
+    assert code == 0 and "fix E_D1=0.0455" in out and "donors=1" in out

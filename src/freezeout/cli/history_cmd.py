@@ -55,6 +55,36 @@ def history_command(
     return 0
 
 
+#: The fit options shown in the history table, in this order (the rest stay in --json).
+_SHOWN_OPTIONS = ("material", "donors", "acceptors", "statistics", "hall_factor", "degeneracy",
+                  "fix", "bounds", "include_mixed", "include_flagged", "mobility")
+
+
+def options_text(options) -> str:
+    """The options a record was made with, compact: ``donors=1 acceptors=1 fix E_D1=0.045``.
+
+    For a fit: the options that were set (None, False and empty ones left out); for a lot:
+    the fit settings used for its wafers. Everything is in ``--json``.
+    """
+    opts = dict(options or {})
+    if "fit" in opts and isinstance(opts["fit"], dict):  # a lot: the wafers' fit settings
+        opts = opts["fit"]
+    parts = []
+    for key in _SHOWN_OPTIONS:
+        value = opts.get(key)
+        if value in (None, False, {}, [], ()):
+            continue
+        if isinstance(value, dict):
+            inner = " ".join(f"{k}={num(v[0], 3)}:{num(v[1], 3)}" if isinstance(v, list | tuple)
+                             else f"{k}={num(v, 4)}" for k, v in value.items())
+            parts.append(f"{key} {inner}")
+        elif value is True:
+            parts.append(key.replace("_", "-"))
+        else:
+            parts.append(f"{key}={num(value, 4) if isinstance(value, float) else value}")
+    return " ".join(parts) or "—"
+
+
 def _print(records, suppliers, trends, figures) -> None:
     from rich.table import Table
 
@@ -71,11 +101,12 @@ def _print(records, suppliers, trends, figures) -> None:
         table.add_column("lot", no_wrap=True)
         table.add_column("input", overflow="fold")
         table.add_column("verdict / net doping [cm^-3]", overflow="fold")
+        table.add_column("options", overflow="fold")
         for r in records:
             date = r.lot_date if r.lot_date is not None else r.created_at.date()
             table.add_row(*(text(x) for x in (r.kind, str(r.record_id), date.isoformat(),
                                               r.supplier or "—", r.lot or "—", r.input_name,
-                                              _result_text(r))))
+                                              _result_text(r), options_text(r.options))))
         show(con, table)
     for s in suppliers:
         if s not in trends:
