@@ -10,9 +10,11 @@ from pathlib import Path
 from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
+from freezeout.reporting.mobility_figure import narrowing_html
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
-FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport")
+FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
+                "mobility")
 
 #: Every file a fit report may write into its folder (replaced as a set): the result, the
 #: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
@@ -87,6 +89,13 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
     if tr is not None:
         drawn["transport"] = (tr, "Resistivity and Hall mobility versus temperature "
                               "(crosses: points left out of the fit).")
+    from freezeout.reporting.mobility_figure import mobility_figure
+
+    mo = mobility_figure(result)
+    if mo is not None:
+        drawn["mobility"] = (mo, "Hall mobility of the joint fit: measured points and the "
+                             "model of the named scattering mechanisms; below, the Hall "
+                             "factor r_H(T) the model used.")
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
@@ -220,7 +229,7 @@ end is a limit of the model's range (a concentration floor, the band gap) rather
 the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_sentence(st)}</p>
-{_alternatives_html(d.get("alternatives") or [])}
+{_alternatives_html(d.get("alternatives") or [])}{narrowing_html(result)}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
 {quality}
