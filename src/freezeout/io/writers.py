@@ -29,6 +29,8 @@ def format_csv(columns: Mapping[str, np.ndarray], metadata: Mapping[str, str] = 
 def _cell(x) -> str:
     if isinstance(x, str):
         return x
+    if isinstance(x, bool | np.bool_):
+        return str(bool(x))
     x = float(x)
     return "" if not np.isfinite(x) else repr(x)
 

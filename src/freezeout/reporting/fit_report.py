@@ -10,6 +10,7 @@ from pathlib import Path
 from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
+from freezeout.io.writers import format_csv
 from freezeout.reporting.mobility_figure import narrowing_html
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
@@ -102,25 +103,6 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
         if svg is not None:
             svg[f"{stem}.svg"] = fg.png_bytes(fig, "svg")
     return out
-
-
-def _csv_text(columns: dict) -> str:
-    """Named columns as CSV text (header row of the names; empty cell for NaN)."""
-    import csv
-    import io
-
-    import numpy as np
-
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    names = list(columns)
-    w.writerow(names)
-    arrays = [np.asarray(columns[k]) for k in names]
-    for i in range(len(arrays[0]) if arrays else 0):
-        w.writerow(["" if isinstance(a[i], float | np.floating) and not np.isfinite(a[i])
-                    else (repr(float(a[i])) if isinstance(a[i], float | np.floating)
-                          else str(a[i])) for a in arrays])
-    return buf.getvalue()
 
 
 def _alternatives_html(alternatives: list[dict]) -> str:
@@ -272,8 +254,8 @@ def write_fit_report(result: FitResult, out_dir: str | Path, *, svg: bool = Fals
     svgs: dict[str, bytes] | None = {} if svg else None
     figures = _figure_files(result, curves, svgs)
     page = render_html(result, figures)
-    tables = {"curves.csv": _csv_text(curve_columns(result, curves)),
-              "residuals.csv": _csv_text(residual_columns(result))}
+    tables = {"curves.csv": format_csv(curve_columns(result, curves)),
+              "residuals.csv": format_csv(residual_columns(result))}
     names = ["fit.json", *figures, *(svgs or {}), *tables, "report.html"]
     with atomic_folder(out, owned=REPORT_FILES) as tmp:
         atomic_write_text(tmp / "fit.json", json.dumps(result.to_dict(), indent=2) + "\n")
