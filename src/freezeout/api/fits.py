@@ -27,7 +27,7 @@ def fit_file(
     donors: int = 1,
     acceptors: int = 1,
     statistics: str = "fermi-dirac",
-    hall_factor: float | None = None,
+    hall_factor: float | str | None = None,
     *,
     degeneracy: float | None = None,
     fix: Mapping[str, float] | None = None,
@@ -38,6 +38,7 @@ def fit_file(
     mobility: Sequence[str] | str = (),
     lattice_mu300: float | None = None,
     lattice_exponent: float | None = None,
+    carriers: str = "majority",
 ) -> FitResult:
     """Read a run, fit it and return the :class:`~freezeout.fitting.result.FitResult`.
 
@@ -52,8 +53,12 @@ def fit_file(
     statistics
         ``"fermi-dirac"`` or ``"boltzmann"``.
     hall_factor
-        Hall scattering factor r_H; None (default) keeps the file's own (a reduced run's
-        ``# hall_factor:`` line), else 1. [1]
+        Hall scattering factor: a number r [1] (the density is r / (q |R_H|); with
+        ``mobility`` also mu_H = r mu), or ``"scattering"`` (needs ``mobility``): r_H(T)
+        = <tau^2>/<tau>^2 of the mechanisms at every point, for the density and the
+        mobility alike (:func:`fit_run_record`). None (default) keeps the file's own (a
+        reduced run's ``# hall_factor:`` line), else 1; with ``mobility`` and no stated
+        line, ``"scattering"``.
     degeneracy
         Degeneracy of the majority levels (default 2 donors, 4 acceptors). [1]
     fix, bounds
@@ -71,9 +76,15 @@ def fit_file(
         beside the density (:func:`freezeout.fitting.joint.fit_run_joint`).
     lattice_mu300, lattice_exponent
         Optional starting values of the fitted lattice term. [cm^2/(V s)], [1]
+    carriers
+        ``"majority"`` (default): the majority carrier alone; ``"both"``: fit the signed
+        R_H(T) and rho(T) with electrons and holes, mixed-conduction points included
+        (:func:`freezeout.fitting.two_carrier.fit_run_two_carrier`; mechanisms from
+        ``mobility``, default ``lattice+brooks-herring``).
     """
     check_statistics(statistics)
-    run = load_run(path, hall_factor=hall_factor, include_mixed=include_mixed,
+    run = load_run(path, hall_factor=reader_hall_factor(hall_factor, mobility),
+                   include_mixed=include_mixed,
                    thickness=thickness)
     return fit_run_record(run, input_name=Path(path).name, input_path=str(path),
                           material=material, material_file=material_file, donors=donors,
@@ -81,27 +92,37 @@ def fit_file(
                           degeneracy=degeneracy, fix=fix, bounds=bounds,
                           include_mixed=include_mixed, include_flagged=include_flagged,
                           mobility=mobility, lattice_mu300=lattice_mu300,
-                          lattice_exponent=lattice_exponent)
+                          lattice_exponent=lattice_exponent, carriers=carriers)
 
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    material: str | Material | None = None,
                    material_file: str | Path | None = None, donors: int = 1,
                    acceptors: int = 1, statistics: str = "fermi-dirac",
-                   hall_factor: float | None = None, degeneracy: float | None = None,
+                   hall_factor: float | str | None = None,
+                   degeneracy: float | None = None,
                    fix: Mapping[str, float] | None = None,
                    bounds: Mapping[str, tuple[float, float]] | None = None,
                    include_mixed: bool = False, include_flagged: bool = False,
                    where: str = "the file", mobility: Sequence[str] | str = (),
                    lattice_mu300: float | None = None,
-                   lattice_exponent: float | None = None) -> FitResult:
+                   lattice_exponent: float | None = None,
+                   carriers: str = "majority") -> FitResult:
     """Fit a run record with the options and provenance of :func:`fit_file`.
 
     ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
     note made when no material is given ("the file", "the table"). With ``mobility`` the
     density-only fit is followed by the joint fit of density and Hall mobility, and the
-    options record the mechanisms (absent otherwise, so a density-only fit's options are
-    unchanged).
+    options record the mechanisms and the Hall factor applied (absent otherwise, so a
+    density-only fit's options are unchanged).
+
+    The Hall factor of a joint fit (project choice, no source): a number given here, or the
+    run's stated one (a ``# hall_factor:`` line, which ``freezeout reduce`` always writes), is
+    one constant r for both series; ``"scattering"``, or no number and none stated, is
+    r_H(T) from the mechanisms at every point for both series (the density column, computed
+    with the run's r_run, modelled as r_run n / r_H(T); mu_H = r_H(T) mu). A constant the
+    user states is a measurement of the sample and wins; without one, the scattering the fit
+    already computes gives r_H(T), which moves by 10-20 % over a run.
     """
     import datetime as _dt
     from dataclasses import replace
@@ -109,11 +130,15 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     from freezeout.fitting.fit import fit_run
 
     statistics = check_statistics(statistics)
+    carriers = check_carriers(carriers)
+    if carriers == "both" and not mobility:
+        mobility = "lattice+brooks-herring"
     models = ()
     if mobility:
         from freezeout.physics.majority_mobility import check_mechanisms
 
         models = check_mechanisms(mobility)
+    source = joint_hall_factor(hall_factor, models, run)
     notes = []
     if material is None and material_file is None:
         stated = run.metadata.get("material")
@@ -128,9 +153,13 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                "statistics": statistics, "hall_factor": hall_factor, "degeneracy": degeneracy,
                "fix": dict(fix or {}), "bounds": {k: list(v) for k, v in (bounds or {}).items()},
                "include_mixed": include_mixed, "include_flagged": include_flagged}
+    if carriers == "both":
+        options["carriers"] = "both"
     if models:
         options["mobility"] = {"models": list(models), "lattice_mu300_start": lattice_mu300,
-                               "lattice_exponent_start": lattice_exponent}
+                               "lattice_exponent_start": lattice_exponent,
+                               "hall_factor": ("scattering" if source == "scattering"
+                                               else float(run.hall_factor))}
     provenance = {
         "input": input_name,
         "input_path": input_path,
@@ -145,15 +174,81 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
                      degeneracy=degeneracy, fix=fix, bounds=bounds,
                      include_flagged=include_flagged, provenance=provenance)
-    if models:
+    if carriers == "both":
+        from freezeout.fitting.two_carrier import fit_run_two_carrier
+
+        result = fit_run_two_carrier(run, mat, mobility=models, hall_factor=hall_factor,
+                                     base=result, include_flagged=include_flagged, fix=fix,
+                                     bounds=bounds)
+    elif models:
         from freezeout.fitting.joint import fit_run_joint
 
         result = fit_run_joint(run, mat, mobility=models, lattice_mu300=lattice_mu300,
-                               lattice_exponent=lattice_exponent, base=result, fix=fix,
-                               bounds=bounds)
+                               lattice_exponent=lattice_exponent, hall_factor=source,
+                               base=result, fix=fix, bounds=bounds)
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
     return result
+
+
+def _is_scattering(hall_factor) -> bool:
+    """Whether ``hall_factor`` is the word ``scattering``; InputError for any other word."""
+    if not isinstance(hall_factor, str):
+        return False
+    if hall_factor.strip().lower() == "scattering":
+        return True
+    raise InputError(f"hall factor: expected a number or 'scattering', got {hall_factor!r}")
+
+
+def reader_hall_factor(hall_factor, mobility=()) -> float | None:
+    """The Hall factor the run reader applies: None (the file's own) for ``"scattering"``.
+
+    Raises
+    ------
+    InputError
+        ``"scattering"`` without mobility mechanisms, or a word other than ``scattering``.
+    """
+    if _is_scattering(hall_factor):
+        if not mobility:
+            raise InputError("--hall-factor scattering computes r_H(T) from the scattering "
+                             "mechanisms: give them with --mobility (e.g. "
+                             "lattice+brooks-herring), or give a number")
+        return None
+    return hall_factor
+
+
+def joint_hall_factor(hall_factor, models, run: RunData) -> str | None:
+    """``"scattering"`` or ``"constant"`` for a joint fit (rule of :func:`fit_run_record`).
+
+    None without ``models`` (a density-only fit); an InputError for ``"scattering"`` then.
+    """
+    reader_hall_factor(hall_factor, models)
+    if not models:
+        return None
+    if _is_scattering(hall_factor):
+        return "scattering"
+    if hall_factor is not None or "hall_factor" in run.metadata:
+        return "constant"
+    return "scattering"
+
+
+#: Ways to model the conduction: the majority carrier alone, or electrons and holes.
+CARRIER_CHOICES = ("majority", "both")
+
+
+def check_carriers(carriers: str) -> str:
+    """The carriers option checked (``"majority"`` or ``"both"``).
+
+    Raises
+    ------
+    InputError
+        Any other value; the message lists the valid ones.
+    """
+    key = str(carriers).strip().lower()
+    if key not in CARRIER_CHOICES:
+        raise InputError(f"unknown carriers choice {carriers!r}; valid: "
+                         + ", ".join(CARRIER_CHOICES))
+    return key
 
 
 def check_gap_open(mat: Material, temperature, file: str | None = None) -> None:

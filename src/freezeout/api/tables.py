@@ -13,7 +13,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import TYPE_CHECKING
 
-from freezeout.api.fits import fit_run_record
+from freezeout.api.fits import fit_run_record, reader_hall_factor
 from freezeout.api.simulation import check_statistics
 from freezeout.errors import InputError
 
@@ -70,7 +70,7 @@ def fit_table(
     from freezeout.io.reduced_csv_reader import read_reduced_frame
 
     statistics = check_statistics(statistics)
-    run = read_reduced_frame(frame, source=name, hall_factor=hall_factor,
+    run = read_reduced_frame(frame, source=name, hall_factor=reader_hall_factor(hall_factor),
                              include_mixed=include_mixed, metadata=metadata)
     return fit_run_record(run, input_name=name, input_path=None, material=material,
                          material_file=material_file, donors=donors, acceptors=acceptors,

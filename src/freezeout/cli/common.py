@@ -39,6 +39,19 @@ def parse_number(text: str, what: str) -> float:
     return v
 
 
+def parse_hall_factor(text: str | None) -> float | str | None:
+    """``--hall-factor``: None, the word ``scattering``, or a finite number."""
+    if text is None:
+        return None
+    if text.strip().lower() == "scattering":
+        return "scattering"
+    try:
+        return parse_number(text, "--hall-factor")
+    except InputError:
+        raise InputError(f"--hall-factor: expected a number or 'scattering', got {text!r}"
+                         ) from None
+
+
 def parse_assignments(items: list[str] | None, what: str) -> dict[str, str]:
     """``NAME=VALUE`` items into a dict."""
     out = {}

@@ -15,6 +15,7 @@ from freezeout.cli.common import (
     MaterialOpt,
     StatisticsOpt,
     parse_assignments,
+    parse_hall_factor,
     parse_number,
     print_json,
 )
@@ -38,9 +39,12 @@ def fit_command(
                                            "for a p-type run, 0/1 compensating acceptor for "
                                            "n-type.")] = 1,
     statistics: StatisticsOpt = "fermi-dirac",
-    hall_factor: Annotated[float | None, typer.Option(
-        "--hall-factor", help="Hall scattering factor r_H (default: the file's own "
-        "'# hall_factor:' line, else 1).")] = None,
+    hall_factor: Annotated[str | None, typer.Option(
+        "--hall-factor", metavar="R|scattering", help="Hall scattering factor: a number r "
+        "(density r/(q|R_H|), and with --mobility mu_H = r mu), or 'scattering' (needs "
+        "--mobility): r_H(T) from the mechanisms at every point, for the density and the "
+        "mobility alike. Default: the file's own '# hall_factor:' line, else 1; with "
+        "--mobility and no such line, scattering.")] = None,
     out: Annotated[Path | None, typer.Option("--out", "-o", help="Report folder (default: "
                                              "reports/<run name>/; with --json, no report "
                                              "unless --out is given).")] = None,
@@ -71,6 +75,11 @@ def fit_command(
         "--lattice-exponent", help="Start of the fitted lattice exponent a, mu_L ~ T^-a "
         "(with --mobility).")] = None,
     db: DbOpt = None,
+    carriers: Annotated[str, typer.Option(
+        "--carriers", help="'majority' (default): the majority carrier's Hall density; "
+        "'both': fit the signed R_H(T) and rho(T) with electrons and holes, mixed-conduction "
+        "points included (mechanisms from --mobility, default lattice+brooks-herring). "
+        "Needs R_H and resistivity columns, or raw readings.")] = "majority",
     no_history: Annotated[bool, typer.Option(
         "--no-history", help="Do not store the fit in the history database.")] = False,
     svg: Annotated[bool, typer.Option(
@@ -85,6 +94,11 @@ def fit_command(
         if not sep:
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
+    r_hall = parse_hall_factor(hall_factor)
+    if r_hall == "scattering" and mobility is None:
+        raise InputError("--hall-factor scattering computes r_H(T) from the scattering "
+                         "mechanisms: give them with --mobility (e.g. lattice+brooks-herring), "
+                         "or give a number")
     mu300 = None if lattice_mu300 is None else parse_number(lattice_mu300, "--lattice-mu300")
     exponent = (None if lattice_exponent is None
                 else parse_number(lattice_exponent, "--lattice-exponent"))
@@ -93,10 +107,11 @@ def fit_command(
     if not no_history:  # a URL the history cannot use fails before the fit, nothing written
         api.check_history_url(db)
     options = dict(material=material, material_file=material_file, donors=donors,
-                   acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
+                   acceptors=acceptors, statistics=statistics, hall_factor=r_hall,
                    degeneracy=degeneracy, fix=fixes, bounds=bounds, include_mixed=include_mixed,
                    include_flagged=include_flagged, thickness=thickness,
-                   mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent)
+                   mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent,
+                   carriers=carriers)
     runs = list(run)
     if len(runs) == 1:
         result = _fit_one(runs[0], out, json_output, svg, db, no_history, options)
@@ -190,6 +205,12 @@ def _print_summary(result, written) -> None:
     for carrier, block in (d.get("mobility") or {}).items():
         row(f"{carrier} lattice mu_300", block["lattice_mu300_cm2_per_Vs"], "cm^2/(V s)")
         row(f"{carrier} lattice exponent", block["lattice_exponent"], "")
+    if "hall_sign_reversal_K" in d:
+        rev = (d.get("two_carrier") or {}).get("hall_sign_reversal")
+        if rev is None:
+            table.add_row("Hall sign reversal", "none in range", "—", Text("—"))
+        else:
+            row("Hall sign reversal", rev, "K")
     show(con, table)
     say(con, f"chi^2 = {num(st['chi2'])}, reduced chi^2 = {num(st['reduced_chi2'])}, "
              f"AIC = {num(st['aic'])}, BIC = {num(st['bic'])}")

@@ -5,7 +5,10 @@ mobility then adds what the density alone cannot see: the ionized-impurity densi
 N_I = n + 2 N_A (one donor level) enters mu_H at every temperature, so a compensation the
 density bounds only from above becomes measurable. Free parameters: the level parameters of
 the density fit (held values stay held) and the lattice term mu_300 (fitted as log10) and
-a. Residuals: (ln model - ln data) / sigma for each series, with its own sigma: the
+a. One Hall factor for both series (:mod:`freezeout.fitting.mobility_model`): r_H(T) from the
+scattering (the density column r_run / (q |R_H|) modelled as r_run n / r_H(T), mu_H = r_H mu)
+or the run's constant r (density n, mu_H = r mu).
+Residuals: (ln model - ln data) / sigma for each series, with its own sigma: the
 stated uncertainties, or, without them, the series' own scatter, estimated from a first
 pass (sigma_k^2 = SSR_k / (N_k - p N_k / N); project choice, no source). Start: a batch
 scan over the compensating concentration and the lattice pair (one vectorized solve), then
@@ -13,34 +16,34 @@ a bounded trust-region least squares (scipy.optimize.least_squares, "trf").
 
 Standard errors come from the Jacobian at the solution, cov = (J^T J)^-1 scaled by
 max(chi^2/dof, 1) (the convention of the density fit); intervals are Wald intervals, in log
-space for concentrations and mu_300 ("wald-log"), clipped to the parameter's range.
-The FitResult's levels, net doping, compensation ratio, correlation and model densities are
-those of the joint fit; its chi^2, AIC and BIC stay those of the density-only fit (ln n
-alone, the statistics other fits of the run compare with); the joint chi^2 is in the
-``mobility`` block.
+space for concentrations and mu_300 ("wald-log"), clipped to the parameter's range
+(:mod:`freezeout.fitting.joint_result`). The FitResult's levels, net doping,
+compensation ratio, correlation and model densities (the model of the measured density
+column: r_run n / r_H(T) with the scattering r_H) are those of the joint fit; its chi^2, AIC
+and BIC stay those of the density-only fit (ln n alone, the statistics other fits of the run
+compare with); the joint chi^2 is in the ``mobility`` block.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import replace
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import optimize
 
 from freezeout.errors import FitError, InputError
 from freezeout.fitting.fit import fit_run
+from freezeout.fitting.joint_result import build_result
 from freezeout.fitting.mobility_model import (
-    HALL_FACTOR_SOURCES,
-    MobilityFit,
+    check_hall_factor_source,
     measured_hall_mobility,
-    model_hall_mobility,
+    model_series,
 )
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, internal_options
 from freezeout.fitting.problem import Problem
-from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
+from freezeout.fitting.result import FitResult
 from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
 from freezeout.physics.neutrality import BandState, solve_levels
 from freezeout.records.run import RunData
@@ -87,7 +90,11 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
     lattice_mu300, lattice_exponent
         Optional starting values (else from the hottest points). [cm^2/(V s)], [1]
     hall_factor
-        ``"scattering"`` (mu_H = r_H(T) mu) or ``"run"`` (mu_H = r mu, the run's r).
+        ``"scattering"`` (default): r_H(T) = <tau^2>/<tau>^2 of the chosen mechanisms at
+        every point, for both series (the density column, computed with the run's constant
+        r_run, modelled as r_run n / r_H(T); mu_H = r_H(T) mu). ``"constant"`` (``"run"``
+        also read): the run's constant r for both (density n; mu_H = r mu). The API picks
+        between them (:func:`freezeout.api.fits.fit_run_record`).
     base
         A density-only fit of the same run and options, if already made (else made here).
     **fit_options
@@ -103,9 +110,7 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
     if "lattice" not in models:
         raise InputError("the joint fit fits the lattice term: include 'lattice' in the "
                          "mobility mechanisms")
-    if hall_factor not in HALL_FACTOR_SOURCES:
-        raise InputError(f"unknown hall factor source {hall_factor!r}; valid: "
-                         + ", ".join(HALL_FACTOR_SOURCES))
+    hall_factor = check_hall_factor_source(hall_factor)
     if lattice_mu300 is not None or lattice_exponent is not None:
         check_lattice(models, lattice_mu300 or 1.0, 0.0 if lattice_exponent is None
                       else lattice_exponent)
@@ -148,9 +153,7 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
 
     def series(values, warm=True):
         res = model.solve(values, warm=warm)
-        ln_mu, cm = model_hall_mobility(model, values, res, models, hall_factor,
-                                        run.hall_factor)
-        return model.majority_log(res), ln_mu, cm
+        return model_series(model, values, res, models, hall_factor, run.hall_factor)
 
     mu0, a0 = _lattice_start(t[m_ok], mu_used[m_ok])
     if lattice_mu300 is not None:
@@ -189,12 +192,12 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
                        bands.log_nc[None, :], bands.log_nv[None, :])
         try:
             res = solve_levels(bb, donors, acceptors, model.statistics, init)
-            ln_mu, _ = model_hall_mobility(model, values, res, models, hall_factor,
-                                           run.hall_factor)
+            ln_n, ln_mu, _ = model_series(model, values, res, models, hall_factor,
+                                          run.hall_factor)
         except (RuntimeError, ValueError, FloatingPointError):
             return optimize.approx_derivative(residuals, x, args=(sig_n, sig_mu),
                                               bounds=(lo, hi))
-        r = np.concatenate([model.majority_log(res) / sig_n, ln_mu[:, m_ok] / sig_mu], axis=1)
+        r = np.concatenate([ln_n / sig_n, ln_mu[:, m_ok] / sig_mu], axis=1)
         p = x.size
         jac = ((r[:p] - r[p:]) / (2.0 * h[:, None])).T
         if not np.all(np.isfinite(jac)):
@@ -222,8 +225,8 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
     if not np.all(np.isfinite(out.fun)) or np.max(np.abs(out.fun)) >= 1e5:
         raise FitError(f"{run.source}: the joint density and mobility fit did not converge "
                        f"({out.message})")
-    return _result(run, base, model, free, fixed, out, series, m_ok, models, hall_factor,
-                   measured_from, (sig_n, sig_mu, s_n is None, s_mu is None), (lo, hi))
+    return build_result(run, base, model, free, fixed, out, series, m_ok, models, hall_factor,
+                        measured_from, (sig_n, sig_mu, s_n is None, s_mu is None), (lo, hi))
 
 
 def _rms(r) -> float:
@@ -274,105 +277,3 @@ def _scan(model, values0, series, y_n, y_mu, m_ok, s_n, s_mu, fixed):
     best["log10_mu300"] = float(mu_grid.ravel()[g])
     best["lattice_exponent"] = float(a_grid.ravel()[g])
     return best
-
-
-def _estimate(v, s, t_q, lo, hi, log):
-    v, s, lo, hi = float(v), float(s), float(lo), float(hi)
-    if log:
-        value = 10.0**v
-        return Estimate(value, _LN10 * value * s,
-                        (10.0 ** max(v - t_q * s, lo), 10.0 ** min(v + t_q * s, hi)),
-                        "wald-log")
-    return Estimate(v, s, (max(v - t_q * s, lo), min(v + t_q * s, hi)), "wald-linear")
-
-
-def _result(run, base, model, free, fixed, out, series, m_ok, models, hall_factor,
-            measured_from, sigmas, bounds) -> FitResult:
-    """The FitResult of the joint solution (see the module docstring)."""
-    sig_n, sig_mu, est_n, est_mu = sigmas
-    lo, hi = bounds
-    x = out.x
-    n_tot = out.fun.size
-    dof = max(n_tot - x.size, 1)
-    chi2 = float(out.fun @ out.fun)
-    scale = max(chi2 / dof, 1.0)
-    try:
-        cov = np.linalg.pinv(out.jac.T @ out.jac) * scale
-    except np.linalg.LinAlgError:
-        cov = np.full((x.size, x.size), np.nan)
-    se = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    t_q = float(stats.t.ppf(0.975, dof))
-    idx = {k: i for i, k in enumerate(free)}
-    values = {**fixed, **dict(zip(free, x, strict=True))}
-
-    def est(name):
-        if name not in idx:
-            v = values[name]
-            return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
-                            (math.nan, math.nan), "fixed")
-        i = idx[name]
-        return _estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
-
-    levels = []
-    for lv in base.levels:
-        energy = None if lv.energy is None else est(f"E_{lv.name}")
-        levels.append(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"), energy, lv.degeneracy,
-                                    lv.name))
-    net, comp = _derived(model, values, idx, cov, t_q)
-    ln_n, ln_mu, cm = series(values)
-    d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
-    corr = cov / np.outer(d, d)
-    names = tuple(k.removeprefix("log10_") for k in free)
-    model_density = np.array(base.data.model_density, dtype=float)
-    model_density[np.asarray(base.data.used, dtype=bool)] = np.exp(ln_n)
-    minor = [lv for lv in base.levels if lv.energy is None]
-    joint = MobilityFit(
-        carrier=run.carrier, models=models, lattice_mu300=est("log10_mu300"),
-        lattice_exponent=est("lattice_exponent"), hall_factor_source=hall_factor,
-        measured_from=measured_from, sigma_ln_density=float(np.median(sig_n)),
-        sigma_ln_mobility=float(np.median(sig_mu)),
-        sigma_from={"density": "scatter" if est_n else "stated",
-                    "mobility": "scatter" if est_mu else "stated"},
-        n_density_points=int(ln_n.size), n_mobility_points=int(m_ok.sum()), chi2=chi2,
-        density_only_compensation=minor[0].concentration if minor else None,
-        temperature=model.temperature[m_ok], model_hall_mobility=np.exp(ln_mu[m_ok]),
-        model_hall_factor=(np.asarray(cm.hall_factor)[m_ok] if hall_factor == "scattering"
-                           else np.full(int(m_ok.sum()), run.hall_factor)))
-    warnings = tuple(w for w in base.warnings if not w.startswith("compensation only bounded"))
-    warnings += (f"joint fit of ln n and ln mu_H ({'+'.join(models)}, r_H from "
-                 f"{'the scattering' if hall_factor == 'scattering' else 'the run'}): the "
-                 "levels and their Wald intervals are those of the joint fit",)
-    return replace(base, levels=tuple(levels), net_doping=net, compensation_ratio=comp,
-                   parameter_names=names, correlation=corr, warnings=warnings,
-                   data=replace(base.data, model_density=model_density),
-                   optimizer_message=str(out.message), mobility=joint, raw=out)
-
-
-def _derived(model, values, idx, cov, t_q):
-    """Net doping |N_maj - N_min| and ratio N_min / N_maj with delta-method errors."""
-    majors = list(model.major_concentration_names)
-    cname = model.compensation_name
-    n_maj = sum(10.0 ** values[k] for k in majors)
-    n_min = 10.0 ** values[cname] if model.compensated else 0.0
-    g_net = np.zeros(len(idx))
-    g_ratio = np.zeros(len(idx))  # gradient of ln ratio
-    for k in majors:
-        if k in idx:
-            g_net[idx[k]] = _LN10 * 10.0 ** values[k]
-            g_ratio[idx[k]] = -_LN10 * 10.0 ** values[k] / n_maj
-    if model.compensated and cname in idx:
-        g_net[idx[cname]] = -_LN10 * n_min
-        g_ratio[idx[cname]] = _LN10
-    net_v = abs(n_maj - n_min)
-    s_net = float(np.sqrt(max(g_net @ cov @ g_net, 0.0)))
-    net = Estimate(net_v, s_net, (max(net_v - t_q * s_net, 0.0), net_v + t_q * s_net),
-                   "wald-linear")
-    ratio = n_min / n_maj
-    if ratio > 0:
-        s_ln = float(np.sqrt(max(g_ratio @ cov @ g_ratio, 0.0)))
-        comp = Estimate(ratio, ratio * s_ln, (ratio * math.exp(-t_q * s_ln),
-                                              min(ratio * math.exp(t_q * s_ln), 1.0)),
-                        "wald-log")
-    else:
-        comp = Estimate(0.0, math.nan, (math.nan, math.nan), "fixed")
-    return net, comp
