@@ -6,6 +6,7 @@ from __future__ import annotations
 import re
 
 import matplotlib.image as mpimg
+import numpy as np
 import pytest
 
 import freezeout
@@ -36,11 +37,57 @@ def test_mobility_figure_has_mu_and_hall_factor_panels(joint):
     fig = mobility_figure(joint)
     top, bottom = fig.axes
     assert top.get_xscale() == "log" and top.get_yscale() == "log"
-    assert "Hall mobility" in top.get_ylabel() and bottom.get_ylabel() == "r_H"
+    assert "mobility" in top.get_ylabel() and bottom.get_ylabel() == "Hall factor"
     labels = [t.get_text() for t in top.get_legend().get_texts()]
-    assert "measured μ_H" in labels and any("lattice" in x for x in labels)
+    assert "measured μ_H" in labels and any("lattice + brooks-herring" in x for x in labels)
+    assert "lattice alone" in labels and "ionized impurities alone (Brooks-Herring)" in labels
+    # the legend stands beside the axes, off the data (its left edge right of the axes)
+    fig.canvas.draw()
+    assert (top.get_legend().get_window_extent().x0
+            > top.get_window_extent().x1)
     r_h = bottom.get_lines()[0].get_ydata()
     assert 1.0 < r_h.min() and r_h.max() < 1.94  # between 1 and 315 pi/512 (BH alone)
+    assert "applied to n and μ_H" in bottom.get_legend().get_texts()[0].get_text()
+
+
+def test_mechanism_curves_are_the_physics_functions(joint):
+    # each dashed curve is that mechanism's mobility from freezeout.physics.mobility at the
+    # fitted levels and lattice term (computed here with the same functions, independently
+    # of the fit's batch path)
+    from freezeout.physics.majority_mobility import majority_mobility
+    from freezeout.physics.mobility import brooks_herring_mobility, lattice_mobility
+    from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
+    from freezeout.physics.screening import ionized_impurity_density, screening_density
+
+    mob = joint.mobility
+    t = mob.curve_temperature
+    d_lv, a_lv = joint.levels
+    donors = [DopantLevel("donor", d_lv.concentration.value, d_lv.energy.value,
+                          d_lv.degeneracy)]
+    acceptors = [DopantLevel("acceptor", a_lv.concentration.value, None)]
+    res = solve_charge_neutrality(t, joint.material, donors, acceptors, "fermi-dirac")
+    mu300, a = mob.lattice_mu300.value, mob.lattice_exponent.value
+    np.testing.assert_allclose(mob.mechanism_mobility["lattice"],
+                               lattice_mobility(t, mu300, a), rtol=1e-9)
+    levels = [(res.donor_ionized[0] * donors[0].concentration, donors[0].concentration),
+              (res.acceptor_ionized[0] * acceptors[0].concentration,
+               acceptors[0].concentration)]
+    n_i = ionized_impurity_density([x for x, _ in levels], 0.0)
+    n_s = screening_density(res.n, levels, minority=res.p)
+    mass = joint.material.conductivity_mass("n")
+    bh = brooks_herring_mobility(t, n_i, n_s, mass, joint.material.relative_permittivity)
+    np.testing.assert_allclose(mob.mechanism_mobility["brooks-herring"], bh, rtol=1e-6)
+    cm = majority_mobility(joint.material, "n", donors, acceptors, res, MECH, mu300, a)
+    np.testing.assert_allclose(mob.curve_hall_mobility, cm.hall, rtol=1e-6)
+    np.testing.assert_allclose(mob.curve_hall_factor, cm.hall_factor, rtol=1e-6)
+    # and the figure draws them
+    top = mobility_figure(joint).axes[0]
+    drawn = {ln.get_label(): ln.get_ydata() for ln in top.get_lines()}
+    np.testing.assert_allclose(drawn["lattice alone"], mob.mechanism_mobility["lattice"])
+    np.testing.assert_allclose(drawn["ionized impurities alone (Brooks-Herring)"], bh,
+                               rtol=1e-6)
+    block = joint.to_dict()["mobility"]["electron"]["mechanism_mobility_cm2_per_Vs"]
+    assert set(block) == {"lattice", "brooks-herring"} and len(block["lattice"]) == t.size
 
 
 def test_report_draws_it_and_states_the_narrowing(joint, tmp_path):

@@ -11,7 +11,11 @@ from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
 from freezeout.io.writers import format_csv
-from freezeout.reporting.mobility_figure import narrowing_html
+from freezeout.reporting.mobility_figure import (
+    carrier_density_view,
+    hall_factor_label,
+    narrowing_html,
+)
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
 FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
@@ -76,10 +80,16 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
     from freezeout.reporting import figures as fg
 
     curves = model_curves(result) if curves is None else curves
+    scattering = result.mobility is not None and result.mobility.hall_factor_source == \
+        "scattering"
     drawn = {
-        "density": (fg.density_axes(result, curves),
+        "density": (fg.density_axes(carrier_density_view(result), curves),
                     "Carrier density versus 1000/T: measured points, the fit, and the "
-                    "contribution of each level and of intrinsic generation."),
+                    "contribution of each level and of intrinsic generation."
+                    + (" The measured points are carrier densities n = r_H(T) / (q |R_H|), "
+                       "the run's densities times r_H(T) / r with the fitted r_H(T) of the "
+                       "joint fit (r: the run's constant Hall factor)." if scattering
+                       else "")),
         "residuals": (fg.residual_axes(result), "Residuals of the fit, measured/fitted − 1."),
         "fermi_level": (fg.fermi_figure(result, curves),
                         "Fermi level in the gap, with the band edges and level energies; "
@@ -95,8 +105,10 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
     mo = mobility_figure(result)
     if mo is not None:
         drawn["mobility"] = (mo, "Hall mobility of the joint fit: measured points and the "
-                             "model of the named scattering mechanisms; below, the Hall "
-                             "factor r_H(T) the model used.")
+                             "model of the named scattering mechanisms, each mechanism's "
+                             "own drift mobility dashed; below, the Hall factor the model "
+                             "applied to the density and the mobility ("
+                             + hall_factor_label(result) + ").")
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
@@ -123,6 +135,15 @@ def _alternatives_html(alternatives: list[dict]) -> str:
             "cannot tell them apart.</p>"
             f"<table><tr>{head}<th>K</th><th>N_net</th><th>χ²</th><th>Δχ²</th></tr>{rows}"
             "</table>")
+
+
+def _hall_factor_text(result: FitResult, d: dict) -> str:
+    """The Hall factor the fit applied, for the page's subtitle (HTML-escaped)."""
+    if result.mobility is None:
+        return f"Hall factor r_H = {d['hall_factor']:g}"
+    return html.escape("Hall factor: " + hall_factor_label(result)
+                       + (f" (density column computed with r = {d['hall_factor']:g})"
+                          if result.mobility.hall_factor_source == "scattering" else ""))
 
 
 def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str:
@@ -199,7 +220,7 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
 <style>{CSS}</style></head><body>
 <h1>Carrier-statistics fit of {esc(prov['input'])}</h1>
 <p class=sub>{carrier} · host {esc(d['material']['name'])} · {esc(st['model'])} statistics ·
-Hall factor r_H = {d['hall_factor']:g} · {st['n_points']} points, {st['n_parameters']} free
+{_hall_factor_text(result, d)} · {st['n_points']} points, {st['n_parameters']} free
 parameters</p>
 <h2>Parameters</h2>
 <table><tr><th>symbol</th><th>quantity</th><th>value</th><th>std. error</th>
