@@ -171,15 +171,18 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         "options": options,
         "hall_factor": run.hall_factor,
     }
+    # the two-carrier fit starts from the density-only levels and states its own intervals:
+    # the start needs no profile intervals
     result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
                      degeneracy=degeneracy, fix=fix, bounds=bounds,
-                     include_flagged=include_flagged, provenance=provenance)
+                     include_flagged=include_flagged, provenance=provenance,
+                     profiles=carriers != "both")
     if carriers == "both":
         from freezeout.fitting.two_carrier import fit_run_two_carrier
 
-        result = fit_run_two_carrier(run, mat, mobility=models, hall_factor=hall_factor,
-                                     base=result, include_flagged=include_flagged, fix=fix,
-                                     bounds=bounds)
+        result = fit_run_two_carrier(
+            run, mat, mobility=models, base=result, include_flagged=include_flagged, fix=fix,
+            bounds=bounds, hall_factor=None if source == "scattering" else float(run.hall_factor))
     elif models:
         from freezeout.fitting.joint import fit_run_joint
 

@@ -60,6 +60,8 @@ def simulate(
     mobility: Sequence[str] | str = (),
     lattice_mu300: float | None = None,
     lattice_exponent: float | None = None,
+    minority_mu300: float | None = None,
+    minority_exponent: float | None = None,
 ):
     """Simulate a run: n, p, E_F and ionized fractions versus temperature.
 
@@ -82,6 +84,11 @@ def simulate(
         factor from the scattering.
     lattice_mu300, lattice_exponent
         Lattice mobility at 300 K and exponent a of mu_L ~ T^-a, needed with ``lattice``.
+        [cm^2/(V s)], [1]
+    minority_mu300, minority_exponent
+        The minority carrier's lattice term (both or neither): with them electrons and holes
+        conduct together and ``R_H``, ``rho`` and ``mu_H = |R_H| / rho`` are the two-carrier
+        values, so a hot run shows its mixed conduction and Hall sign reversal.
         [cm^2/(V s)], [1]
 
     Returns
@@ -123,9 +130,18 @@ def simulate(
         from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
 
         check_lattice(check_mechanisms(mobility), lattice_mu300, lattice_exponent)
+    minority = None
+    if (minority_mu300 is None) != (minority_exponent is None):
+        raise InputError("the minority carrier's lattice term needs both its mobility at "
+                         "300 K and its exponent")
+    if minority_mu300 is not None:
+        if not mobility or "lattice" not in check_mechanisms(mobility):
+            raise InputError("the minority carrier's lattice term needs the lattice "
+                             "mechanism in the mobility models")
+        minority = check_lattice(("lattice",), minority_mu300, minority_exponent)
     return _simulate(mat, t, levels["donor"], levels["acceptor"], statistics,
                      mobility=mobility, lattice_mu300=lattice_mu300,
-                     lattice_exponent=lattice_exponent)
+                     lattice_exponent=lattice_exponent, minority_lattice=minority)
 
 
 def simulation_metadata(sim, statistics: str) -> dict[str, str]:
@@ -138,7 +154,15 @@ def simulation_metadata(sim, statistics: str) -> dict[str, str]:
                 "fully ionized" if lv.energy is None
                 else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
     tr = getattr(sim, "transport", None)
-    if tr is not None:
+    if tr is not None and hasattr(tr, "electron_lattice"):  # both carriers
+        meta["mobility"] = "+".join(tr.models) + (
+            f" (electron lattice {tr.electron_lattice[0]:g} cm^2/(V s) at 300 K, exponent "
+            f"{tr.electron_lattice[1]:g}; hole lattice {tr.hole_lattice[0]:g} cm^2/(V s), "
+            f"exponent {tr.hole_lattice[1]:g})")
+        meta["mobility_carrier"] = "both"
+        meta["hall_factor_varies"] = ("yes (two-carrier R_H, each carrier's r_H(T) from the "
+                                      "scattering)")
+    elif tr is not None:
         meta["mobility"] = "+".join(tr.models) + (
             f" (lattice {tr.lattice_mobility_300:g} cm^2/(V s) at 300 K, exponent "
             f"{tr.lattice_exponent:g})" if "lattice" in tr.models else "")

@@ -212,6 +212,13 @@ def _print_summary(result, written) -> None:
         else:
             row("Hall sign reversal", rev, "K")
     show(con, table)
+    two = d.get("two_carrier")
+    if two is not None:
+        say(con, f"two-carrier fit of R_H and rho: chi^2 = {num(two['chi2'])} over "
+                 f"{two['n_points']} points x 2 series, rms misfit R_H "
+                 f"{num(two['rms_percent']['hall'], 2)} %, rho "
+                 f"{num(two['rms_percent']['resistivity'], 2)} %; below, the density-only "
+                 "fit it started from (majority-sign points)")
     say(con, f"chi^2 = {num(st['chi2'])}, reduced chi^2 = {num(st['reduced_chi2'])}, "
              f"AIC = {num(st['aic'])}, BIC = {num(st['bic'])}")
     if st.get("rms_residual_percent") is not None:

@@ -45,6 +45,12 @@ def simulate_command(
     ] = None,
     lattice_exponent: Annotated[str | None, typer.Option(
         "--lattice-exponent", help="Exponent a of mu_L ~ T^-a (with lattice).")] = None,
+    minority_mu300: Annotated[str | None, typer.Option(
+        "--minority-mu300", help="Lattice mobility at 300 K of the minority carrier "
+        "[cm^2/(V s)]: with --minority-exponent, R_H and rho come from electrons and holes "
+        "together (mixed conduction, Hall sign reversal).")] = None,
+    minority_exponent: Annotated[str | None, typer.Option(
+        "--minority-exponent", help="Lattice exponent of the minority carrier.")] = None,
     out: Annotated[Path | None, typer.Option("--out", "-o", help="CSV file to write "
                                              "(default: stdout).")] = None,
     json_output: JsonOpt = False,
@@ -66,10 +72,15 @@ def simulate_command(
                 else parse_number(lattice_exponent, "--lattice-exponent"))
     if mobility is None and (mu300 is not None or exponent is not None):
         raise InputError("--lattice-mu300 and --lattice-exponent need --mobility with lattice")
+    mu_min = (None if minority_mu300 is None
+              else parse_number(minority_mu300, "--minority-mu300"))
+    a_min = (None if minority_exponent is None
+             else parse_number(minority_exponent, "--minority-exponent"))
     sim = api.simulate(material=material, material_file=material_file, donors=donors,
                        acceptors=acceptors, temperatures=(t_min, t_max, n),
                        statistics=statistics, mobility=mobility or (), lattice_mu300=mu300,
-                       lattice_exponent=exponent)
+                       lattice_exponent=exponent, minority_mu300=mu_min,
+                       minority_exponent=a_min)
     if out is not None:
         api.write_simulation_csv(sim, statistics, out, material_file=material_file)
     if json_output:

@@ -204,6 +204,7 @@ def fit_run(
     bounds: Mapping[str, tuple[float, float]] | None = None,
     include_flagged: bool = False,
     provenance: dict | None = None,
+    profiles: bool = True,
 ) -> FitResult:
     """Fit a run's majority-carrier density versus temperature.
 
@@ -229,6 +230,10 @@ def fit_run(
         Keep points that failed a severe data-quality check.
     provenance
         Provenance dict to carry into the result.
+    profiles
+        Compute profile-likelihood intervals where the covariance is unreliable (default);
+        False keeps the Wald intervals (a fit used only as the start of another, e.g. the
+        two-carrier fit, which states its own).
 
     Raises
     ------
@@ -322,14 +327,14 @@ def fit_run(
     missed = lowest < best.chisqr - 1e-3 * _variance_unit(best.chisqr, best.nfree, weighted)
     upper = None
     cname = model_used.compensation_name
-    if model_used.compensated and cname not in internal_fix:
+    if profiles and model_used.compensated and cname not in internal_fix:
         se_c = best.params[cname].stderr
         at_floor = best.params[cname].value <= best.params[cname].min + 0.05
         if se_c is None or not np.isfinite(se_c) or se_c > 0.5 or at_floor:
             upper = profile_upper(problem, best, cname, weighted)
             model_used.clear_warm_start()
     result = build_result(run, material, model, problem, best, used, weighted, internal_fix,
-                          provenance or {}, upper)
+                          provenance or {}, upper, profiles=profiles)
     extra = [_NOT_CONVERGED] if not_converged else []
     if missed:
         extra.append(_MISSED.format(found=lowest, chi2=best.chisqr))

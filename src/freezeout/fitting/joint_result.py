@@ -23,21 +23,13 @@ from freezeout.fitting.mobility_model import (
 )
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
+from freezeout.fitting.wald import net_and_ratio, wald_estimate
+from freezeout.fitting.warnings import kept_after_refit
 
 _LN10 = math.log(10.0)
 
 #: Points of the figure grid of the model mobility (project choice, no source).
 CURVE_POINTS = 160
-
-
-def _estimate(v, s, t_q, lo, hi, log):
-    v, s, lo, hi = float(v), float(s), float(lo), float(hi)
-    if log:
-        value = 10.0**v
-        return Estimate(value, _LN10 * value * s,
-                        (10.0 ** max(v - t_q * s, lo), 10.0 ** min(v + t_q * s, hi)),
-                        "wald-log")
-    return Estimate(v, s, (max(v - t_q * s, lo), min(v + t_q * s, hi)), "wald-linear")
 
 
 def _on_grid(model: CarrierModel, temperature, values, models, source, r_run):
@@ -73,14 +65,14 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
             return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
                             (math.nan, math.nan), "fixed")
         i = idx[name]
-        return _estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
+        return wald_estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
 
     levels = []
     for lv in base.levels:
         energy = None if lv.energy is None else est(f"E_{lv.name}")
         levels.append(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"), energy, lv.degeneracy,
                                     lv.name))
-    net, comp = _derived(model, values, idx, cov, t_q)
+    net, comp = net_and_ratio(model, values, idx, cov, t_q)
     ln_n, ln_mu, cm = series(values)
     d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
     corr = cov / np.outer(d, d)
@@ -110,7 +102,7 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
         curve_temperature=t_grid, curve_hall_mobility=np.exp(ln_grid),
         curve_hall_factor=applied_hall_factor(cm_grid, hall_factor, r_run),
         mechanism_mobility=mechanism_mobilities(cm_grid, models))
-    warnings = tuple(w for w in base.warnings if not w.startswith("compensation only bounded"))
+    warnings = kept_after_refit(base.warnings)
     how = ("r_H(T) from the scattering applied to both series: the density column "
            f"(computed with r = {r_run:g}) is modelled as {r_run:g} n / r_H(T)"
            if hall_factor == "scattering" else
@@ -125,33 +117,3 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
                    parameter_names=names, correlation=corr, warnings=warnings,
                    data=replace(base.data, model_density=model_density),
                    optimizer_message=str(out.message), mobility=joint, raw=out)
-
-
-def _derived(model, values, idx, cov, t_q):
-    """Net doping |N_maj - N_min| and ratio N_min / N_maj with delta-method errors."""
-    majors = list(model.major_concentration_names)
-    cname = model.compensation_name
-    n_maj = sum(10.0 ** values[k] for k in majors)
-    n_min = 10.0 ** values[cname] if model.compensated else 0.0
-    g_net = np.zeros(len(idx))
-    g_ratio = np.zeros(len(idx))  # gradient of ln ratio
-    for k in majors:
-        if k in idx:
-            g_net[idx[k]] = _LN10 * 10.0 ** values[k]
-            g_ratio[idx[k]] = -_LN10 * 10.0 ** values[k] / n_maj
-    if model.compensated and cname in idx:
-        g_net[idx[cname]] = -_LN10 * n_min
-        g_ratio[idx[cname]] = _LN10
-    net_v = abs(n_maj - n_min)
-    s_net = float(np.sqrt(max(g_net @ cov @ g_net, 0.0)))
-    net = Estimate(net_v, s_net, (max(net_v - t_q * s_net, 0.0), net_v + t_q * s_net),
-                   "wald-linear")
-    ratio = n_min / n_maj
-    if ratio > 0:
-        s_ln = float(np.sqrt(max(g_ratio @ cov @ g_ratio, 0.0)))
-        comp = Estimate(ratio, ratio * s_ln, (ratio * math.exp(-t_q * s_ln),
-                                              min(ratio * math.exp(t_q * s_ln), 1.0)),
-                        "wald-log")
-    else:
-        comp = Estimate(0.0, math.nan, (math.nan, math.nan), "fixed")
-    return net, comp

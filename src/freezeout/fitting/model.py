@@ -170,6 +170,22 @@ class CarrierModel:
             self._warm_fermi = res.fermi_level
         return res
 
+    def solve_rows(self, values: dict) -> NeutralityResult:
+        """Solve a batch of parameter rows (each value a (k, 1) array) on the model's grid.
+
+        Every row starts from the kept warm Fermi level (cold without one), and nothing is
+        kept: the batch of a finite-difference Jacobian around the last solution.
+        """
+        donors, acceptors = self.levels(values)
+        b = self.bands
+        rows = BandState(b.temperature[None, :], b.kt[None, :], b.band_gap[None, :],
+                         b.log_nc[None, :], b.log_nv[None, :])
+        init = None
+        if self._warm_fermi is not None:
+            k = max(int(np.shape(v)[0]) for v in values.values() if np.ndim(v) == 2)
+            init = np.broadcast_to(self._warm_fermi, (k, self._warm_fermi.size))
+        return solve_levels(rows, donors, acceptors, self.statistics, init)
+
     def log_density(self, values: dict, warm: bool = True) -> np.ndarray:
         """ln of the majority-carrier density (cm^-3) at the data temperatures."""
         return self.majority_log(self.solve(values, warm=warm))

@@ -239,6 +239,11 @@ class FitResult:
         The mobility part of a joint density and mobility fit
         (:class:`freezeout.fitting.mobility_model.MobilityFit`), or None for a density-only
         fit; in the JSON under ``mobility`` keyed by carrier (``electron`` / ``hole``).
+    two_carrier
+        The electron-and-hole part of a fit of R_H(T) and rho(T)
+        (:class:`freezeout.fitting.two_carrier_result.TwoCarrierFit`), or None; in the JSON
+        its carriers are the ``mobility`` block, its reversal ``hall_sign_reversal_K`` and
+        the rest ``two_carrier``.
     """
 
     carrier: str
@@ -266,6 +271,7 @@ class FitResult:
     alternatives: tuple = ()
     raw: Any = field(default=None, repr=False, compare=False)
     mobility: Any = None
+    two_carrier: Any = None
 
     def _ln_residual(self) -> np.ndarray:
         """ln(model) - ln(measured) at the points used, in temperature order."""
@@ -348,4 +354,8 @@ class FitResult:
         if self.mobility is not None:
             carrier = {"n": "electron", "p": "hole"}[self.mobility.carrier]
             out["mobility"] = {carrier: self.mobility.to_dict()}
+        if self.two_carrier is not None:
+            out["mobility"] = self.two_carrier.mobility_dict()
+            out["hall_sign_reversal_K"] = finite_or_none(self.two_carrier.reversal_K)
+            out["two_carrier"] = self.two_carrier.to_dict()
         return out

@@ -98,7 +98,7 @@ def fit_data(run: RunData, used: np.ndarray, model_density: np.ndarray) -> FitDa
 def build_result(run: RunData, material: Material, model_all: CarrierModel,
                  problem: Problem, out, used: np.ndarray, weighted: bool,
                  internal_fix: dict[str, float], provenance: dict,
-                 profile_upper: float | None = None) -> FitResult:
+                 profile_upper: float | None = None, *, profiles: bool = True) -> FitResult:
     """The FitResult of the retained local fit ``out`` (an lmfit MinimizerResult).
 
     Parameters
@@ -124,6 +124,9 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
     profile_upper
         Upper 95 % limit of the compensating log10 concentration from a chi^2 profile, when
         the data only bound it.
+    profiles
+        False keeps the Wald intervals even where they are unreliable (a start for another
+        fit).
     """
     model_used = problem.model
     params = out.params
@@ -233,7 +236,7 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
         net_est, comp = replace(net_est, method="fixed"), replace(comp, method="fixed")
     # profile-likelihood intervals where the covariance may not describe chi^2 over the
     # interval (fitting/intervals.py); the compensation bound of the warnings follows them
-    if free and wald_unreliable(out, covar, tq, profile_upper is not None):
+    if profiles and free and wald_unreliable(out, covar, tq, profile_upper is not None):
         q = profile_threshold(weighted, dof)
         unit = inflation if weighted else float(out.redchi)
         ivs = Profiler(problem, out, covar, unit).intervals([*free, "net", "ratio"], q)

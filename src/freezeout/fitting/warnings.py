@@ -26,6 +26,9 @@ from freezeout.fitting.host_checks import LevelCheck, host_warnings
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import pow10, to_public
 
+#: |r| above which two parameters are called strongly correlated (project choice, no source).
+CORRELATION_LIMIT = 0.95
+
 
 def _held(params) -> str:
     """The held parameters of a fit in plain words, e.g. ``E_D1 = 0.08 eV``."""
@@ -175,7 +178,7 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
     else:
         for a in range(len(public)):
             for b in range(a + 1, len(public)):
-                if np.isfinite(corr[a, b]) and abs(corr[a, b]) > 0.95:
+                if np.isfinite(corr[a, b]) and abs(corr[a, b]) > CORRELATION_LIMIT:
                     w.append(f"{public[a]} and {public[b]} are strongly correlated "
                              f"(r = {corr[a, b]:+.3f}): the data constrain a combination of "
                              "them better than each one")
@@ -187,4 +190,73 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
     if not inadequate:
         # the host's effective-mass estimates say nothing about numbers that are not measured
         w += host_warnings(model.material, model.carrier, checks)
+    return w
+
+
+#: Openings of density-only statements that a refit of the same levels on more data (the
+#: joint or the two-carrier fit) replaces: its net doping is no longer the plateau's, its
+#: intervals are its own, and (two carriers) the mixed points are in the fit.
+DENSITY_ONLY_STATEMENTS = ("the net doping and its interval come from the saturation plateau",
+                           "no saturation plateau", "compensation only bounded",
+                           "compensation not constrained")
+MIXED_STATEMENTS = ("two-carrier conduction:", "the hall coefficient changes sign")
+#: Openings (and phrases) of statements about the density-only solution itself: its misfit,
+#: its bounds, its covariance. A refit says its own.
+SOLUTION_STATEMENTS = ("the model does not describe", "the model misses the data",
+                       "the residuals are systematic", "fit at a bound",
+                       "the uncertainties could not be estimated", "reduced chi^2 = ")
+SOLUTION_PHRASES = (" are strongly correlated ", " is poorly determined ")
+
+
+def kept_after_refit(warnings, *, mixed_fitted: bool = False,
+                     own_solution: bool = False) -> tuple[str, ...]:
+    """The density-only fit's warnings that still hold for a refit of its levels.
+
+    Parameters
+    ----------
+    warnings
+        The density-only fit's warnings.
+    mixed_fitted
+        True when the refit models both carriers (the mixed-conduction remarks then go).
+    own_solution
+        True when the refit states its own misfit, bounds and correlations (the density-only
+        solution's statements then go).
+    """
+    drop = DENSITY_ONLY_STATEMENTS + (MIXED_STATEMENTS if mixed_fitted else ())
+    if own_solution:
+        drop += SOLUTION_STATEMENTS
+    return tuple(w for w in warnings if not w.lower().startswith(drop)
+                 and not (own_solution and any(p in w for p in SOLUTION_PHRASES)))
+
+
+def refit_warnings(public, x, bounds, corr, *, what: str) -> list[str]:
+    """A refit's own statements: parameters at a bound and strongly correlated pairs.
+
+    Parameters
+    ----------
+    public
+        Public names of the free parameters.
+    x
+        Their internal values at the solution.
+    bounds
+        (lower, upper) internal bounds.
+    corr
+        Correlation matrix of the free parameters.
+    what
+        The refit's name in the text ("two-carrier fit").
+    """
+    w = []
+    lo, hi = bounds
+    for i, name in enumerate(public):
+        span = hi[i] - lo[i]
+        if x[i] - lo[i] < 1e-6 * span or hi[i] - x[i] < 1e-6 * span:
+            w.append(f"{what} at a bound: {name} sits at its limit, so its interval is not "
+                     "set by the data")
+    corr = np.asarray(corr)
+    for a in range(len(public)):
+        for b in range(a + 1, len(public)):
+            if np.isfinite(corr[a, b]) and abs(corr[a, b]) > CORRELATION_LIMIT:
+                w.append(f"{public[a]} and {public[b]} are strongly correlated in the {what} "
+                         f"(r = {corr[a, b]:+.3f}): the data constrain a combination of them "
+                         "better than each one")
     return w

@@ -15,6 +15,7 @@ from freezeout.physics.constants import Q
 from freezeout.physics.majority_mobility import check_lattice, check_mechanisms, majority_mobility
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
+from freezeout.physics.two_carrier import BothCarriers, both_carriers
 
 SIM_SCHEMA_VERSION = 1
 
@@ -102,7 +103,8 @@ class Simulation:
     donor_ionized, acceptor_ionized
         Ionized fraction of each level. [1]
     transport
-        Majority-carrier mobility, Hall factor, resistivity and Hall coefficient, or None
+        Majority-carrier mobility, Hall factor, resistivity and Hall coefficient
+        (:class:`MajorityTransport`), or both carriers' (:class:`BothCarriers`), or None
         when no mobility model was asked for.
     """
 
@@ -117,7 +119,7 @@ class Simulation:
     band_gap: np.ndarray
     donor_ionized: tuple[np.ndarray, ...]
     acceptor_ionized: tuple[np.ndarray, ...]
-    transport: MajorityTransport | None = None
+    transport: MajorityTransport | BothCarriers | None = None
 
     def columns(self) -> dict[str, np.ndarray]:
         """Output columns in order, headers with units (a valid input to ``fit``)."""
@@ -161,7 +163,8 @@ def simulate(material: Material, temperature, donors: Sequence[DopantLevel] = ()
              acceptors: Sequence[DopantLevel] = (),
              statistics: str = "fermi-dirac", mobility: Sequence[str] | str = (),
              lattice_mu300: float | None = None,
-             lattice_exponent: float | None = None) -> Simulation:
+             lattice_exponent: float | None = None,
+             minority_lattice: tuple[float, float] | None = None) -> Simulation:
     """Solve charge neutrality on a temperature grid for given levels.
 
     Parameters
@@ -179,11 +182,22 @@ def simulate(material: Material, temperature, donors: Sequence[DopantLevel] = ()
         :func:`freezeout.physics.majority_mobility.check_mechanisms`.
     lattice_mu300, lattice_exponent
         Lattice mobility at 300 K and exponent, needed with ``"lattice"``. [cm^2/(V s)], [1]
+    minority_lattice
+        (mu_300, a) of the minority carrier's lattice term: with it both carriers conduct
+        (:func:`freezeout.physics.two_carrier.both_carriers`), so R_H and rho show the mixed
+        conduction of a hot run; without it, the majority carrier alone.
     """
     t = np.asarray(temperature, dtype=float)
     res = solve_charge_neutrality(t, material, donors, acceptors, statistics)
     transport = None
-    if mobility:
+    if mobility and minority_lattice is not None:
+        models = check_mechanisms(mobility)
+        majority = check_lattice(models, lattice_mu300, lattice_exponent)
+        minority = check_lattice(models, *minority_lattice)
+        electron, hole = ((majority, minority) if simulation_majority(donors, acceptors) == "n"
+                          else (minority, majority))
+        transport = both_carriers(material, donors, acceptors, res, models, electron, hole)
+    elif mobility:
         transport = majority_transport(material, donors, acceptors, res, mobility,
                                        lattice_mu300, lattice_exponent)
     return Simulation(material, tuple(donors), tuple(acceptors), statistics, t, res.n, res.p,

@@ -11,6 +11,7 @@ from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
 from freezeout.io.writers import format_csv
+from freezeout.reporting.hall_figure import hall_sign_figure, two_carrier_html
 from freezeout.reporting.mobility_figure import (
     carrier_density_view,
     hall_factor_label,
@@ -19,7 +20,7 @@ from freezeout.reporting.mobility_figure import (
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
 FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
-                "mobility")
+                "mobility", "hall_sign")
 
 #: Every file a fit report may write into its folder (replaced as a set): the result, the
 #: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
@@ -109,6 +110,12 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
                              "own drift mobility dashed; below, the Hall factor the model "
                              "applied to the density and the mobility ("
                              + hall_factor_label(result) + ").")
+    hs = hall_sign_figure(result)
+    if hs is not None:
+        drawn["hall_sign"] = (hs, "Two-carrier fit: |R_H| against temperature with its sign "
+                              "(filled circles and one colour where holes dominate, open squares "
+                              "and the other where electrons do), the reversal marked; below, "
+                              "the resistivity.")
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
@@ -232,7 +239,7 @@ end is a limit of the model's range (a concentration floor, the band gap) rather
 the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_sentence(st)}</p>
-{_alternatives_html(d.get("alternatives") or [])}{narrowing_html(result)}
+{_alternatives_html(d.get("alternatives") or [])}{narrowing_html(result)}{two_carrier_html(result)}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
 {quality}
