@@ -244,6 +244,11 @@ class FitResult:
         (:class:`freezeout.fitting.two_carrier_result.TwoCarrierFit`), or None; in the JSON
         its carriers are the ``mobility`` block, its reversal ``hall_sign_reversal_K`` and
         the rest ``two_carrier``.
+    model_selection
+        How the level count was chosen when it was asked for as ``"auto"``
+        (:class:`freezeout.fitting.model_selection.ModelSelection`: every candidate's
+        statistics, the refused ones with their reason, the rule), or None when the caller
+        gave the counts; in the JSON under ``model_selection``.
     """
 
     carrier: str
@@ -272,6 +277,7 @@ class FitResult:
     raw: Any = field(default=None, repr=False, compare=False)
     mobility: Any = None
     two_carrier: Any = None
+    model_selection: Any = None
 
     def _ln_residual(self) -> np.ndarray:
         """ln(model) - ln(measured) at the points used, in temperature order."""
@@ -358,4 +364,6 @@ class FitResult:
             out["mobility"] = self.two_carrier.mobility_dict()
             out["hall_sign_reversal_K"] = finite_or_none(self.two_carrier.reversal_K)
             out["two_carrier"] = self.two_carrier.to_dict()
+        if self.model_selection is not None:
+            out["model_selection"] = self.model_selection.to_dict()
         return out
