@@ -191,6 +191,11 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                                base=result, fix=fix, bounds=bounds)
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
+    if carriers == "majority" and not models:
+        # the density fit's run read without a fit: Hoffmann's level spectrum of n(T)
+        from freezeout.fitting.spectroscopy import fit_spectrum
+
+        result = replace(result, spectroscopy=fit_spectrum(result, degeneracy=degeneracy))
     return result
 
 

@@ -249,6 +249,10 @@ class FitResult:
         (:class:`freezeout.fitting.model_selection.ModelSelection`: every candidate's
         statistics, the refused ones with their reason, the rule), or None when the caller
         gave the counts; in the JSON under ``model_selection``.
+    spectroscopy
+        The level spectrum of the run's density without a fit
+        (:class:`freezeout.fitting.spectroscopy.LevelSpectrum`), or None; in the JSON under
+        ``spectroscopy``.
     """
 
     carrier: str
@@ -278,6 +282,7 @@ class FitResult:
     mobility: Any = None
     two_carrier: Any = None
     model_selection: Any = None
+    spectroscopy: Any = None
 
     def _ln_residual(self) -> np.ndarray:
         """ln(model) - ln(measured) at the points used, in temperature order."""
@@ -366,4 +371,6 @@ class FitResult:
             out["two_carrier"] = self.two_carrier.to_dict()
         if self.model_selection is not None:
             out["model_selection"] = self.model_selection.to_dict()
+        if self.spectroscopy is not None:
+            out["spectroscopy"] = self.spectroscopy.to_dict()
         return out

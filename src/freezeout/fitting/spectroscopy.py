@@ -342,3 +342,20 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
     peaks.sort(key=lambda p: p.energy)
     return LevelSpectrum(carrier, g, half_width, min_points, grid_t, u_f, signal, tuple(peaks),
                          tuple(notes))
+
+
+def fit_spectrum(result, *, degeneracy: float | None = None) -> LevelSpectrum:
+    """:func:`level_spectrum` of the points a fit used (its run's majority density).
+
+    Parameters
+    ----------
+    result
+        A :class:`freezeout.fitting.result.FitResult` (its ``data``, ``carrier`` and
+        ``material``).
+    degeneracy
+        g of the levels, as given to the fit (None: the fit's default). [1]
+    """
+    data = result.data
+    used = np.asarray(data.used, dtype=bool)
+    return level_spectrum(np.asarray(data.temperature)[used], np.asarray(data.density)[used],
+                          result.carrier, result.material, degeneracy=degeneracy)
