@@ -106,6 +106,15 @@ def _apart(diff: float, se_a: float, se_b: float, threshold: float) -> bool:
     return diff > 2.0 * combined
 
 
+def basins_apart(a: Signature, b: Signature) -> bool:
+    """True when the effective compensation ratios differ by more than COMPENSATION_FACTOR.
+
+    Whatever their standard errors: the caller then asks whether chi^2 rises between them
+    (:func:`freezeout.fitting.basin_barrier.profile_barrier`).
+    """
+    return abs(a.log10_compensation - b.log10_compensation) > math.log10(COMPENSATION_FACTOR)
+
+
 def distinct(a: Signature, b: Signature) -> bool:
     """True when two solutions lie in different basins (see the module docstring)."""
     if _apart(abs(a.log10_compensation - b.log10_compensation), a.se_log10_compensation,

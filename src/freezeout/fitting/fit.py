@@ -25,9 +25,11 @@ from freezeout.fitting.alternatives import (
     DELTA_CHI2,
     alternative,
     alternatives_warning,
+    basins_apart,
     distinct,
     signature,
 )
+from freezeout.fitting.basin_barrier import profile_barrier
 from freezeout.fitting.guess import best_per_basin, descend, guess, heavy_start, start_grid
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import (
@@ -186,7 +188,8 @@ def _alternatives(problem: Problem, best, converged: list, weighted: bool,
         if not chi2 - best.chisqr <= DELTA_CHI2 * unit:
             continue
         sig = signature(model, out.params.valuesdict(), low_density, _stderr(out, weighted))
-        if all(distinct(sig, s) for _, s in kept):
+        if all(distinct(sig, s) or (basins_apart(sig, s) and profile_barrier(
+                problem, out, o, weighted, unit, MAX_EVALUATIONS)) for o, s in kept):
             kept.append((out, sig))
             found.append(alternative(model, out.params.valuesdict(), chi2, best.chisqr))
     return found
