@@ -44,6 +44,8 @@ class BatchFit:
 def fit_files(paths: Sequence[str | Path], **options) -> BatchFit:
     """Fit every run with the same options (those of :func:`freezeout.api.fits.fit_file`).
 
+    An ``"auto"`` level count is chosen for each run on its own (its own BIC comparison).
+
     Raises
     ------
     InputError

@@ -24,8 +24,8 @@ def fit_file(
     path: str | Path,
     material: str | Material | None = None,
     material_file: str | Path | None = None,
-    donors: int = 1,
-    acceptors: int = 1,
+    donors: int | str = 1,
+    acceptors: int | str = 1,
     statistics: str = "fermi-dirac",
     hall_factor: float | str | None = None,
     *,
@@ -49,7 +49,11 @@ def fit_file(
     material, material_file
         Library name (default: the file's ``# material:`` line, else ``Si``) or a TOML file.
     donors, acceptors
-        Level counts (see :func:`freezeout.fitting.fit.fit_run`).
+        Level counts (see :func:`freezeout.fitting.fit.fit_run`), or ``"auto"``: the
+        majority count auto fits 1 to 4 levels, the minority count auto fits without and
+        with the compensating species, and the rule of
+        :mod:`freezeout.fitting.model_selection` (BIC, refusals) chooses; the result then
+        carries ``model_selection``.
     statistics
         ``"fermi-dirac"`` or ``"boltzmann"``.
     hall_factor
@@ -97,8 +101,8 @@ def fit_file(
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    material: str | Material | None = None,
-                   material_file: str | Path | None = None, donors: int = 1,
-                   acceptors: int = 1, statistics: str = "fermi-dirac",
+                   material_file: str | Path | None = None, donors: int | str = 1,
+                   acceptors: int | str = 1, statistics: str = "fermi-dirac",
                    hall_factor: float | str | None = None,
                    degeneracy: float | None = None,
                    fix: Mapping[str, float] | None = None,
@@ -128,9 +132,11 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     from dataclasses import replace
 
     from freezeout.fitting.fit import fit_run
+    from freezeout.fitting.model_selection import AUTO, level_count, select_model
 
     statistics = check_statistics(statistics)
     carriers = check_carriers(carriers)
+    donors, acceptors = level_count(donors, "--donors"), level_count(acceptors, "--acceptors")
     if carriers == "both" and not mobility:
         mobility = "lattice+brooks-herring"
     models = ()
@@ -173,10 +179,12 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     }
     # the two-carrier fit starts from the density-only levels and states its own intervals:
     # the start needs no profile intervals
-    result = fit_run(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
-                     degeneracy=degeneracy, fix=fix, bounds=bounds,
-                     include_flagged=include_flagged, provenance=provenance,
-                     profiles=carriers != "both")
+    # an "auto" count: candidates fitted and one chosen by BIC (fitting.model_selection)
+    density_fit = select_model if AUTO in (donors, acceptors) else fit_run
+    result = density_fit(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
+                         degeneracy=degeneracy, fix=fix, bounds=bounds,
+                         include_flagged=include_flagged, provenance=provenance,
+                         profiles=carriers != "both")
     if carriers == "both":
         from freezeout.fitting.two_carrier import fit_run_two_carrier
 

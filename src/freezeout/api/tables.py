@@ -31,8 +31,8 @@ def fit_table(
     *,
     material: str | Material | None = None,
     material_file: str | Path | None = None,
-    donors: int = 1,
-    acceptors: int = 1,
+    donors: int | str = 1,
+    acceptors: int | str = 1,
     statistics: str = "fermi-dirac",
     hall_factor: float | None = None,
     degeneracy: float | None = None,
@@ -53,7 +53,8 @@ def fit_table(
         ``rho [ohm cm]``, ``flags``, ...). NaN is a missing value.
     material, material_file, donors, acceptors, statistics, hall_factor, degeneracy, fix,
     bounds, include_mixed, include_flagged
-        As for :func:`freezeout.api.fits.fit_file`.
+        As for :func:`freezeout.api.fits.fit_file` (a level count may be ``"auto"``: the
+        count chosen by BIC, :mod:`freezeout.fitting.model_selection`).
     metadata
         ``key -> value`` pairs, as a file's ``# key: value`` lines (``material``,
         ``carrier``, ``hall_factor``, ``sample``...).

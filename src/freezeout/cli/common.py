@@ -52,6 +52,18 @@ def parse_hall_factor(text: str | None) -> float | str | None:
                          ) from None
 
 
+def parse_level_count(text: str, what: str) -> int | str:
+    """``--donors``/``--acceptors``: a whole number of levels, or the word ``auto``."""
+    word = text.strip().lower()
+    if word == "auto":
+        return "auto"
+    try:
+        return int(word)
+    except ValueError:
+        raise InputError(f"{what}: expected a number of levels or 'auto', got {text!r}"
+                         ) from None
+
+
 def parse_assignments(items: list[str] | None, what: str) -> dict[str, str]:
     """``NAME=VALUE`` items into a dict."""
     out = {}

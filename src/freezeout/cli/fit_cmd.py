@@ -16,6 +16,7 @@ from freezeout.cli.common import (
     StatisticsOpt,
     parse_assignments,
     parse_hall_factor,
+    parse_level_count,
     parse_number,
     print_json,
 )
@@ -33,11 +34,13 @@ def fit_command(
         "same options, each with its own report, plus comparison.csv and overlay.png.")],
     material: MaterialOpt = None,
     material_file: MaterialFileOpt = None,
-    donors: Annotated[int, typer.Option(help="Donor levels: partially ionized levels for an "
-                                        "n-type run, 0/1 compensating donor for p-type.")] = 1,
-    acceptors: Annotated[int, typer.Option(help="Acceptor levels: partially ionized levels "
-                                           "for a p-type run, 0/1 compensating acceptor for "
-                                           "n-type.")] = 1,
+    donors: Annotated[str, typer.Option(
+        metavar="N|auto", help="Donor levels: partially ionized levels for an n-type run, "
+        "0/1 compensating donor for p-type; 'auto' fits 1 to 4 levels (n-type) or without "
+        "and with the compensating donor (p-type) and chooses by BIC.")] = "1",
+    acceptors: Annotated[str, typer.Option(
+        metavar="N|auto", help="Acceptor levels: partially ionized levels for a p-type run, "
+        "0/1 compensating acceptor for n-type; 'auto' as for --donors.")] = "1",
     statistics: StatisticsOpt = "fermi-dirac",
     hall_factor: Annotated[str | None, typer.Option(
         "--hall-factor", metavar="R|scattering", help="Hall scattering factor: a number r "
@@ -94,6 +97,8 @@ def fit_command(
         if not sep:
             raise InputError(f"--bound {k}={v}: expected LOW:HIGH")
         bounds[k] = (parse_number(lo, f"--bound {k}"), parse_number(hi, f"--bound {k}"))
+    n_donors = parse_level_count(donors, "--donors")
+    n_acceptors = parse_level_count(acceptors, "--acceptors")
     r_hall = parse_hall_factor(hall_factor)
     if r_hall == "scattering" and mobility is None:
         raise InputError("--hall-factor scattering computes r_H(T) from the scattering "
@@ -106,8 +111,8 @@ def fit_command(
         raise InputError("--lattice-mu300 and --lattice-exponent need --mobility")
     if not no_history:  # a URL the history cannot use fails before the fit, nothing written
         api.check_history_url(db)
-    options = dict(material=material, material_file=material_file, donors=donors,
-                   acceptors=acceptors, statistics=statistics, hall_factor=r_hall,
+    options = dict(material=material, material_file=material_file, donors=n_donors,
+                   acceptors=n_acceptors, statistics=statistics, hall_factor=r_hall,
                    degeneracy=degeneracy, fix=fixes, bounds=bounds, include_mixed=include_mixed,
                    include_flagged=include_flagged, thickness=thickness,
                    mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent,
@@ -212,6 +217,7 @@ def _print_summary(result, written) -> None:
         else:
             row("Hall sign reversal", rev, "K")
     show(con, table)
+    _print_selection(con, d.get("model_selection"))
     two = d.get("two_carrier")
     if two is not None:
         say(con, f"two-carrier fit of R_H and rho: chi^2 = {num(two['chi2'])} over "
@@ -229,3 +235,21 @@ def _print_summary(result, written) -> None:
         say(con, Text.assemble(("warning: ", "yellow"), clean(w)))
     if written:
         say(con, f"report: {written['report.html']}")
+
+
+def _print_selection(con, sel: dict | None) -> None:
+    """The candidates of an 'auto' level count, the chosen one marked, and the rule."""
+    if sel is None:
+        return
+    from rich.table import Table
+
+    table = Table(title=text(f"model selection: {sel['chosen']}"), title_justify="left")
+    for col in ("candidate", "k", "chi^2", "BIC", "delta BIC", "verdict"):
+        table.add_column(col, justify="left" if col in ("candidate", "verdict") else "right")
+    for c in sel["candidates"]:
+        verdict = c["reason"] if not c["kept"] else (
+            "chosen" if c["label"] == sel["chosen"] else "kept")
+        table.add_row(text(c["label"]), text(num(c["n_parameters"])), text(num(c["chi2"])),
+                      text(num(c["bic"])), text(num(c["delta_bic"], 3)), text(verdict))
+    show(con, table)
+    say(con, f"{sel['rule']} {sel['stop_rule']} This search: {sel['stopped']}.")

@@ -17,10 +17,11 @@ from freezeout.reporting.mobility_figure import (
     hall_factor_label,
     narrowing_html,
 )
+from freezeout.reporting.selection_figure import selection_figure, selection_html
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
 FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
-                "mobility", "hall_sign")
+                "mobility", "hall_sign", "selection", "spectroscopy")
 
 #: Every file a fit report may write into its folder (replaced as a set): the result, the
 #: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
@@ -110,12 +111,23 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
                              "own drift mobility dashed; below, the Hall factor the model "
                              "applied to the density and the mobility ("
                              + hall_factor_label(result) + ").")
+    from freezeout.reporting.spectroscopy_figure import CAPTION, spectroscopy_figure
+
+    sp = spectroscopy_figure(result)
+    if sp is not None:
+        drawn["spectroscopy"] = (sp, CAPTION)
     hs = hall_sign_figure(result)
     if hs is not None:
         drawn["hall_sign"] = (hs, "Two-carrier fit: |R_H| against temperature with its sign "
                               "(filled circles and one colour where holes dominate, open squares "
                               "and the other where electrons do), the reversal marked; below, "
                               "the resistivity.")
+    sf = selection_figure(result)
+    if sf is not None:
+        drawn["selection"] = (sf, "Model selection: the measured density and the model "
+                              "curve of every candidate fitted (chosen: thick; refused: "
+                              "dashed), each with its delta BIC; below, each candidate's "
+                              "misfit at the points.")
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
@@ -239,6 +251,7 @@ end is a limit of the model's range (a concentration floor, the band gap) rather
 the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_sentence(st)}</p>
+{selection_html(result)}
 {_alternatives_html(d.get("alternatives") or [])}{narrowing_html(result)}{two_carrier_html(result)}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
