@@ -27,6 +27,7 @@ References
 from __future__ import annotations
 
 import json
+import math
 from functools import cache
 from importlib import resources
 
@@ -156,6 +157,109 @@ def log_fermi_dirac_pair(eta) -> tuple[np.ndarray, np.ndarray]:
         lhalf, lminus = _log_series(eta, 0.5, -0.5)
         return lhalf, lminus
     return _log_fd("1/2", 0.5, eta), _log_fd("-1/2", -0.5, eta)
+
+
+@cache
+def _paired_tables() -> np.ndarray:
+    """The Chebyshev rows of F_1/2 then of F_-1/2 side by side: one Clenshaw for both."""
+    tables = _tables()
+    return np.ascontiguousarray(np.concatenate([tables["1/2"], tables["-1/2"]], axis=1))
+
+
+@cache
+def _series_coefficients(n_terms: int) -> tuple[np.ndarray, np.ndarray]:
+    """Powers 1..n_terms-1 and the (2, n_terms-1) coefficients of the series of F_1/2, F_-1/2."""
+    k = np.arange(2, n_terms + 1, dtype=float)
+    sign = np.where(k % 2 == 0, -1.0, 1.0)
+    return (k - 1.0)[:, None], np.stack([sign / k**1.5, sign / k**0.5])
+
+
+def _series_sums(eta: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """Sums S_j = e^(-eta) F_j(eta) of the series for j = 1/2 and -1/2, eta < -2.
+
+    S_j = sum_k (-1)^(k+1) x^(k-1) / k^(j+1), x = e^eta, with as many terms as
+    :func:`_log_series` keeps (both sums in one matrix product). None when one term is
+    enough (both sums are 1).
+    """
+    worst = float(eta.max())
+    n_terms = int(min(max(math.ceil(39.2 / max(-worst, 1e-300)), 1), 24))
+    if n_terms == 1:
+        return None
+    exponents, coefs = _series_coefficients(n_terms)
+    x = np.exp(eta)
+    if eta.size < 256:
+        powers = x[None, :] ** exponents
+    else:  # long rows: one product per power is cheaper than pow
+        powers = np.empty((n_terms - 1, eta.size))
+        powers[0] = x
+        for i in range(1, n_terms - 1):
+            np.multiply(powers[i - 1], x, out=powers[i])
+    sums = coefs @ powers + 1.0
+    return sums[0], sums[1]
+
+
+def log_fermi_dirac_half_ratio(eta) -> tuple[np.ndarray, np.ndarray]:
+    """ln F_1/2 and F_-1/2 / F_1/2 (= d ln F_1/2 / d eta), for the neutrality solver.
+
+    The same expansions as :func:`log_fermi_dirac_pair` (series, Chebyshev tables,
+    Sommerfeld), with the work of both orders shared: one logarithm for the series, one
+    Clenshaw recurrence for both tables.
+
+    Parameters
+    ----------
+    eta
+        Reduced Fermi level, scalar or array. [1]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        (ln F_1/2(eta), F_-1/2(eta) / F_1/2(eta)), each of the shape of ``eta``. [1]
+    """
+    eta = np.asarray(eta, dtype=float)
+    shape = eta.shape
+    flat = eta.ravel()
+    if flat.size and float(flat.max()) < _SERIES_MAX:
+        sums = _series_sums(flat)
+        if sums is None:
+            return eta.copy(), np.ones(shape)
+        return (flat + np.log(sums[0])).reshape(shape), (sums[1] / sums[0]).reshape(shape)
+    if np.isnan(flat).any():
+        raise ValueError("Fermi-Dirac integral: eta contains NaN")
+    lf = np.empty_like(flat)
+    ratio = np.empty_like(flat)
+    low = flat < _SERIES_MAX
+    high = flat >= _ASYMPTOTIC_MIN
+    mid = ~(low | high)
+    if low.any():
+        e = flat[low]
+        sums = _series_sums(e)
+        if sums is None:
+            lf[low], ratio[low] = e, 1.0
+        else:
+            lf[low], ratio[low] = e + np.log(sums[0]), sums[1] / sums[0]
+    if mid.any():
+        e = flat[mid]
+        tables = _tables()
+        coefs = _paired_tables()
+        n_int = tables["1/2"].shape[1]
+        pos = (e - tables["lower"]) / tables["width"]
+        idx = np.minimum(pos.astype(np.intp), n_int - 1)
+        x = 2.0 * (pos - idx) - 1.0
+        idx2 = np.concatenate([idx, idx + n_int])
+        x2 = np.concatenate([x, x])
+        two_x = 2.0 * x2
+        b1 = coefs[_N_CHEB - 1].take(idx2)
+        b2 = np.zeros_like(x2)
+        for m in range(_N_CHEB - 2, 0, -1):
+            b1, b2 = two_x * b1 - b2 + coefs[m].take(idx2), b1
+        both = x2 * b1 - b2 + coefs[0].take(idx2)
+        lf[mid] = both[:e.size]
+        ratio[mid] = np.exp(both[e.size:] - both[:e.size])
+    if high.any():
+        e = flat[high]
+        lh = _log_asymptotic(0.5, e)
+        lf[high], ratio[high] = lh, np.exp(_log_asymptotic(-0.5, e) - lh)
+    return lf.reshape(shape), ratio.reshape(shape)
 
 
 def log_fermi_dirac_half(eta):

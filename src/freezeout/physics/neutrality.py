@@ -24,14 +24,15 @@ References
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import expit, log_expit
+from scipy.special import expit
 
 from freezeout.physics.bands import thermal_energy
-from freezeout.physics.fermi import log_fermi_dirac_pair
+from freezeout.physics.fermi import log_fermi_dirac_half_ratio
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality_terms import fermi_bracket, level_terms
 from freezeout.physics.safeguarded_newton import iteration_cap, solve_decreasing
@@ -79,12 +80,15 @@ class DopantLevel:
             default = (DEFAULT_DONOR_DEGENERACY if self.kind == "donor"
                        else DEFAULT_ACCEPTOR_DEGENERACY)
             object.__setattr__(self, "degeneracy", default)
-        if not (np.isfinite(self.degeneracy) and self.degeneracy > 0):
+        if not (math.isfinite(self.degeneracy) and self.degeneracy > 0):
             raise ValueError(f"degeneracy must be > 0, got {self.degeneracy!r}")
-        c = np.asarray(self.concentration, dtype=float)
-        if not np.all(np.isfinite(c)) or np.any(c < 0):
+        c = self.concentration
+        if not (math.isfinite(c) and c >= 0 if isinstance(c, float | int) else (
+                np.isfinite(c := np.asarray(c, dtype=float)).all() and (c >= 0).all())):
             raise ValueError(f"{self.kind} concentration must be finite and >= 0, got {c}")
-        if self.energy is not None and not np.all(np.isfinite(self.energy)):
+        e = self.energy
+        if e is not None and not (math.isfinite(e) if isinstance(e, float | int)
+                                  else np.isfinite(e).all()):
             raise ValueError(f"{self.kind} energy must be finite, got {self.energy}")
 
 
@@ -211,9 +215,32 @@ def acceptor_ionized_fraction(fermi_level, acceptor_level, kt,
 def _log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray]:
     """ln F_1/2(eta) and d ln F_1/2 / d eta = F_-1/2/F_1/2."""
     if not fermi_dirac:
-        return eta, np.ones_like(eta)
-    lf, lfm = log_fermi_dirac_pair(eta)
-    return lf, np.exp(lfm - lf)
+        return eta, 1.0
+    return log_fermi_dirac_half_ratio(eta)
+
+
+def _log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
+    """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
+
+    ``const`` is one more term of slope 0, or None. The largest term is taken out first,
+    so nothing overflows.
+    """
+    if const is None and len(terms) == 1:
+        return terms[0]
+    top = terms[0][0]
+    for t, _ in terms[1:]:
+        top = np.maximum(top, t)
+    if const is not None:
+        top = np.maximum(top, const)
+    total = 0.0
+    moment = 0.0
+    for t, s in terms:
+        w = np.exp(t - top)
+        total = total + w
+        moment = moment + w * s
+    if const is not None:
+        total = total + np.exp(const - top)
+    return top + np.log(total), moment / total
 
 
 def iteration_bound(bands: BandState, donors: Sequence[DopantLevel],
@@ -296,43 +323,35 @@ def solve_levels(
     terms = level_terms(bands, donors, acceptors)
     shape = terms.shape
     d_terms, a_terms = terms.donors, terms.acceptors
+    log_nc, log_nv = bands.log_nc, bands.log_nv  # broadcast with u in the residual
+    gap_kt = bands.band_gap / kt
+    # fully ionized species are constants of the sums; a side without any leaves them out
     with np.errstate(divide="ignore"):
-        log_fixed_pos = np.log(terms.fixed_pos)
-        log_fixed_neg = np.log(terms.fixed_neg)
-    log_nc = np.broadcast_to(bands.log_nc, shape)
-    log_nv = np.broadcast_to(bands.log_nv, shape)
-    gap_kt = np.broadcast_to(bands.band_gap / kt, shape)
+        const_pos = np.log(terms.fixed_pos) if (terms.fixed_pos > 0).any() else None
+        const_neg = np.log(terms.fixed_neg) if (terms.fixed_neg > 0).any() else None
 
     def residual(u):
-        # positive side: holes, ionized donors, fixed donors
+        # positive side: holes, ionized donors, fixed donors; negative: electrons, ionized
+        # acceptors, fixed acceptors. Each side is ln(sum of exp(term)), summed with its
+        # largest term taken out; its slope is the exp(term)-weighted mean of the slopes.
         lp, dlp = _log_band(-u, fd)
         lp = lp + log_nv
-        pos = [lp]
-        dpos = [-dlp]
+        pos = [(lp, -dlp)]
         for ln_n, off in d_terms:
+            # ln N_D+ = ln N - ln(1 + e^x), d/du = -expit(x), x = off + u
             x = off + u
-            pos.append(ln_n + log_expit(-x))
-            dpos.append(-expit(x))
-        pos.append(log_fixed_pos)
-        dpos.append(np.zeros(shape))
+            soft = np.logaddexp(0.0, x)
+            pos.append((ln_n - soft, -np.exp(x - soft)))
         ln_, dln = _log_band(u - gap_kt, fd)
         ln_ = ln_ + log_nc
-        neg = [ln_]
-        dneg = [dln]
+        neg = [(ln_, dln)]
         for ln_a, off in a_terms:
             x = off - u
-            neg.append(ln_a + log_expit(-x))
-            dneg.append(expit(x))
-        neg.append(log_fixed_neg)
-        dneg.append(np.zeros(shape))
-        pos = np.stack(pos)
-        neg = np.stack(neg)
-        log_pos = np.logaddexp.reduce(pos, axis=0)
-        log_neg = np.logaddexp.reduce(neg, axis=0)
-        wpos = np.exp(pos - log_pos)
-        wneg = np.exp(neg - log_neg)
-        slope = (wpos * np.stack(dpos)).sum(axis=0) - (wneg * np.stack(dneg)).sum(axis=0)
-        return log_pos - log_neg, slope, lp, ln_
+            soft = np.logaddexp(0.0, x)
+            neg.append((ln_a - soft, np.exp(x - soft)))
+        log_pos, slope_pos = _log_sum(pos, const_pos)
+        log_neg, slope_neg = _log_sum(neg, const_neg)
+        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_
 
     lo, hi = fermi_bracket(bands, terms, gap_kt)
     if initial_fermi_level is None:

@@ -131,7 +131,7 @@ def solve_decreasing(
                 np.maximum(np.abs(lo), np.abs(hi))))
         if done.all():
             return u, out, iterations
-        if not np.all(np.isfinite(h)):
+        if not np.isfinite(h).all():
             raise RuntimeError(f"{name} is not finite")
         if not late:
             lo = np.where(h > 0, u, lo)
