@@ -189,7 +189,7 @@ def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: f
     """Value, slope and half the curvature at each x0 of quadratics in x over its neighbours.
 
     The neighbours of x0 are the points within ``half_width`` of it in ln x, or the nearest
-    ``min_points`` in ln x where fewer are that close.
+    ``min_points`` in ln x where fewer are that close, tricube-weighted in their distance.
     """
     out = np.empty((3, x0.size))
     lx = np.log(x)
@@ -198,8 +198,11 @@ def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: f
         near = np.argsort(dist, kind="stable")
         near = near[:max(min_points, int(np.sum(dist <= half_width)))]
         dx = x[near] - c
-        a = np.column_stack([np.ones_like(dx), dx, dx * dx])
-        out[:, j] = np.linalg.lstsq(a, y[near], rcond=None)[0]
+        # tricube weights out to 1.2 times the farthest neighbour: the fit moves smoothly
+        # as points enter and leave the window
+        w = np.sqrt((1 - (dist[near] / (1.2 * dist[near].max() + 1e-300)) ** 3) ** 3)
+        a = np.column_stack([np.ones_like(dx), dx, dx * dx]) * w[:, None]
+        out[:, j] = np.linalg.lstsq(a, y[near] * w, rcond=None)[0]
     return out[0], out[1], out[2]
 
 

@@ -1,0 +1,76 @@
+"""The level-spectrum figure: Hoffmann's S = kT dn/du_F against the Fermi-level depth u_F.
+
+The spectrum is drawn against u_F (the Fermi level's depth below E_c, or above E_v for a
+p-type run); each peak read from it is marked with its corrected level energy and
+concentration, and the fitted levels' energies are vertical dashed lines labelled E_D1, ...
+so the fit-free reading and the fit can be compared at a glance. A peak of a level of
+degeneracy g sits about kT ln g beyond the level itself (the grey tick at each peak).
+"""
+
+from __future__ import annotations
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+
+from freezeout.fitting.result import FitResult  # noqa: E402
+from freezeout.reporting.figures import INK, LEVEL_COLOURS, MUTED, STYLE  # noqa: E402
+
+CAPTION = ("Level spectrum without a fit (Hoffmann's differential evaluation of n(1/T)): "
+           "S = kT dn/du_F against the Fermi-level depth u_F from the majority band edge, "
+           "u_F = kT ln(N/n). Each level gives a bell of height about N/4 a little beyond "
+           "its energy; the triangles are the levels read from the peaks (path-corrected "
+           "energy, concentration in the label), the dashed lines the fitted level "
+           "energies. Gaps in the curve: where the Fermi level barely moves with T, the "
+           "spectrum is undefined.")
+
+
+def _edge_word(carrier: str) -> str:
+    return "E_c − E_F" if carrier == "n" else "E_F − E_v"
+
+
+def spectroscopy_figure(result: FitResult) -> Figure | None:
+    """The spectrum with its peaks and the fitted levels; None without a spectrum."""
+    spec = result.spectroscopy
+    if spec is None or spec.signal.size == 0 or not np.isfinite(spec.signal).any():
+        return None
+    ok = np.isfinite(spec.signal)
+    u, s = spec.energy, np.where(ok, spec.signal, np.nan)
+    with plt.rc_context(STYLE):
+        fig = Figure(figsize=(8.6, 4.8), layout="constrained")
+        ax = fig.subplots()
+        ax.plot(u, s, "-", lw=2.0, color=INK, label="S = kT dn/du_F")
+        top = float(np.nanmax(s))
+        for i, pk in enumerate(spec.peaks):
+            ax.plot([pk.energy], [pk.height], "v", ms=9, color=LEVEL_COLOURS[i % 6],
+                    zorder=5, label=f"peak {i + 1}: {pk.energy:.4f} eV, "
+                    f"{pk.concentration:.2e} cm⁻³ (at {pk.temperature:.0f} K)")
+            ax.plot([pk.fermi_level, pk.fermi_level], [0.93 * pk.height, pk.height],
+                    "-", color=MUTED, lw=1.2)
+        fitted = [lv for lv in result.levels if lv.energy is not None
+                  and np.isfinite(lv.energy.value)]
+        for j, lv in enumerate(fitted):
+            e = lv.energy.value
+            ax.axvline(e, color=LEVEL_COLOURS[j % 6], lw=1.2, ls="--", alpha=0.9)
+            ax.annotate(f"E_{lv.name} (fit)\n{e:.4f} eV", (e, 1.02 * top),
+                        xytext=(4, 0), textcoords="offset points", ha="left", va="bottom",
+                        fontsize=9, color=LEVEL_COLOURS[j % 6])
+        lo = float(np.nanmin(u[ok]))
+        hi = float(np.nanmax(u[ok]))
+        if fitted:
+            lo = min(lo, min(lv.energy.value for lv in fitted))
+            hi = max(hi, max(lv.energy.value for lv in fitted))
+        pad = 0.04 * (hi - lo)
+        ax.set_xlim(lo - pad, hi + pad)
+        bottom = min(0.0, float(np.nanmin(s)))
+        ax.set_ylim(bottom, 1.25 * top)
+        ax.axhline(0.0, color=MUTED, lw=0.8)
+        ax.set_xlabel(f"Fermi-level depth u_F = {_edge_word(spec.carrier)} (eV)")
+        ax.set_ylabel("S = kT dn/du_F (cm⁻³)")
+        ax.set_title(f"Level spectrum (g = {spec.degeneracy:g}); fitted levels dashed")
+        ax.legend(loc="upper right", fontsize=8.5, frameon=False)
+    return fig
