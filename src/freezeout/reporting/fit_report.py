@@ -125,9 +125,11 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
     sf = selection_figure(result)
     if sf is not None:
         drawn["selection"] = (sf, "Model selection: the measured density and the model "
-                              "curve of every candidate fitted (chosen: thick; refused: "
-                              "dashed), each with its delta BIC; below, each candidate's "
-                              "misfit at the points.")
+                              "curve of every candidate fitted (chosen: thick ink; others "
+                              "coloured by level count, dashed without compensation, faded "
+                              "when refused; curves that coincide lie on top of each other), "
+                              "each with its delta BIC; below, each candidate's misfit at "
+                              "the points.")
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)

@@ -24,13 +24,23 @@ from freezeout.reporting.figures import (  # noqa: E402
 #: Smallest half-height of the residual panel. [%]
 MIN_RESIDUAL_SPAN = 5.0
 
+#: Most the residual panel widens beyond the chosen candidate's scale to show the other
+#: kept candidates' misfit. [1]
+SPAN_WIDENING = 5.0
 
-def _style(i: int, candidate, chosen: bool) -> dict:
-    """Line style of a candidate: the chosen one thick ink, the refused ones dashed."""
+
+def _style(candidate, chosen: bool) -> dict:
+    """Line style of a candidate: colour by its level count, dashed without compensation.
+
+    The chosen one is thick ink; a refused one is thinner and faded.
+    """
     if chosen:
         return {"color": INK, "lw": 2.6, "ls": "-", "zorder": 4}
-    colour = LEVEL_COLOURS[i % len(LEVEL_COLOURS)]
-    return {"color": colour, "lw": 1.4, "ls": "-" if candidate.kept else "--", "zorder": 3}
+    colour = LEVEL_COLOURS[(candidate.majority_levels - 1) % len(LEVEL_COLOURS)]
+    ls = "-" if candidate.compensated else (0, (5, 2))
+    if candidate.kept:
+        return {"color": colour, "lw": 1.7, "ls": ls, "zorder": 3}
+    return {"color": colour, "lw": 1.1, "ls": ls, "alpha": 0.6, "zorder": 2}
 
 
 def _legend_text(candidate, chosen: bool, off_scale: bool) -> str:
@@ -49,8 +59,9 @@ def selection_figure(result: FitResult) -> Figure | None:
 
     Above, the measured majority density against 1000/T (log axis) with each candidate's
     model curve on a fine grid (:func:`freezeout.fitting.curves.model_curves`): the chosen
-    one thick, the kept ones solid, the refused ones dashed. Below, 100 ln(measured/model)
-    of each candidate at the points, on a scale set by the chosen one (a candidate beyond it
+    one thick ink, the others coloured by their level count, dashed without the
+    compensating species, faded when refused. Below, 100 ln(measured/model)
+    of each candidate at the points, on a scale set by the kept ones (a candidate beyond it
     is not drawn there, and its legend entry says so). The legend, beside the axes, names
     each candidate with its state and delta BIC. None without a model selection.
     """
@@ -68,17 +79,20 @@ def selection_figure(result: FitResult) -> Figure | None:
     for i, c in fitted:
         with np.errstate(divide="ignore", invalid="ignore"):
             misfit[i] = 100.0 * np.log(d.density / c.result.data.model_density)
-    # the panel shows the chosen candidate's misfit and error bars twice over
+    # the panel shows the chosen candidate's misfit and error bars twice over, widened for
+    # the misfit of another kept candidate that stays within SPAN_WIDENING times that
     rel = 0.0 if err is None else 100.0 * err / d.density[used]
     reach = np.abs(misfit[chosen_at][used]) + rel
     reach = reach[np.isfinite(reach)]
     span = max(MIN_RESIDUAL_SPAN, 2.0 * float(reach.max()) if reach.size else 0.0)
+    kept = [np.nanmax(np.abs(misfit[i][used])) for i, c in fitted if c.kept]
+    span = max([span, *(1.1 * k for k in kept if 1.1 * k <= SPAN_WIDENING * span)])
     with matplotlib.rc_context(STYLE):
         fig = Figure(figsize=(10.0, 6.8), layout="constrained")
         top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3, 1.6))
         for i, c in fitted:
             is_chosen = i == chosen_at
-            style = _style(i, c, is_chosen)
+            style = _style(c, is_chosen)
             r = misfit[i]
             off = not bool(np.all(np.abs(r[used]) <= span))
             curves = model_curves(c.result)
