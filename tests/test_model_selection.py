@@ -106,6 +106,22 @@ def test_two_separated_donor_levels_are_chosen(runs):
     assert one.kept and one.delta_bic > 100  # kept, but far worse than two levels
 
 
+def test_p_type_acceptors_auto_from_arrays():
+    """A p-type GaN-like run (Mg acceptor about 0.17 eV: from memory), compensated 20 %,
+    fitted from arrays: the roles swap, acceptor levels with a compensating donor."""
+    sim = freezeout.simulate("GaN", acceptors=[(5e18, 0.17)], donors=[(1e18, None)],
+                             temperatures=(150, 600, 20))
+    rng = np.random.default_rng(3)
+    dens = sim.p * np.exp(rng.normal(0.0, 0.02, sim.p.size))
+    res = freezeout.api.fit_arrays(sim.temperature, dens, 0.02 * dens, carrier="p",
+                                   material="GaN", acceptors="auto", donors="auto")
+    sel = res.model_selection
+    assert sel.chosen == "1 acceptor level + compensating donor"
+    assert _labels(res)[:2] == ["1 acceptor level", "1 acceptor level + compensating donor"]
+    acceptor = res.levels[0]
+    assert acceptor.kind == "acceptor" and acceptor.energy.ci95[0] < 0.17 < acceptor.energy.ci95[1]
+
+
 def test_every_candidate_bic_is_its_own_over_the_same_points(one_comp):
     """BIC = chi^2 + k ln N with stated errors (Schwarz 1978), N the same for all."""
     fitted = [c for c in one_comp.model_selection.candidates if c.result is not None]
