@@ -116,7 +116,7 @@ def test_intervals_cover_on_replicates():
 
 
 def test_no_reversal_gives_null(tmp_path, monkeypatch, capsys):
-    # an extrinsic Si run, cold: R_H keeps its sign, the JSON says null
+    # an extrinsic Si run, cold: R_H keeps its sign, the JSON says null (noise-free)
     sim = api.simulate(material="Si", acceptors=[(1e16, 0.045, None)], donors=[(1e15, None,
                                                                                  None)],
                        temperatures=(60.0, 300.0, 24), mobility=MECHANISMS,
@@ -132,9 +132,15 @@ def test_no_reversal_gives_null(tmp_path, monkeypatch, capsys):
                        "--no-history")
     assert code == 0
     d = json.loads(out)
+    # the electrons never conduct in 60-300 K: their mobility is not set, so neither is any
+    # reversal the model would put beyond the measured range
     assert d["hall_sign_reversal_K"] is None
     assert d["two_carrier"]["hall_sign_reversal"] is None
-    assert any("no Hall sign reversal" in w for w in d["warnings"])
+    assert any("no Hall sign reversal" in w or "no reversal temperature is reported" in w
+               for w in d["warnings"])
+    mu_n = d["mobility"]["electron"]["lattice_mu300_cm2_per_Vs"]
+    assert mu_n["stderr"] is None  # not set by the data: no standard error
+    assert mu_n["ci95"] == [1.0, 1e6]  # the interval is the whole allowed range
     assert math.isclose(d["net_doping_cm3"]["value"], 9e15, rel_tol=0.05)
 
 

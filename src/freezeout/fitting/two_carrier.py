@@ -30,61 +30,24 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import replace
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import optimize
 
 from freezeout.errors import FitError, InputError
 from freezeout.fitting.fit import fit_run
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, internal_options
 from freezeout.fitting.problem import Problem
-from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
-from freezeout.fitting.two_carrier_result import CarrierLattice, TwoCarrierFit
-from freezeout.fitting.wald import net_and_ratio, wald_estimate
-from freezeout.fitting.warnings import kept_after_refit, refit_warnings
+from freezeout.fitting.result import FitResult
+from freezeout.fitting.two_carrier_model import TwoCarrierModel
+from freezeout.fitting.two_carrier_summary import build_result, rms
 from freezeout.physics.majority_mobility import check_mechanisms
-from freezeout.physics.transport import hall_sign_change_temperature
-from freezeout.physics.two_carrier import both_carriers
 from freezeout.records.run import RunData
 
 LATTICE_NAMES = ("log10_mu300_n", "lattice_exponent_n", "log10_mu300_p", "lattice_exponent_p")
 _BOUNDS = {"log10_mu300": (0.0, 6.0), "lattice_exponent": (0.0, 5.0)}
 _FLOOR = 0.05  # floor of the R_H weights, as a fraction of rho mu_ref (project choice)
-
-
-class _TwoCarrierModel:
-    """The levels' model plus both lattice terms: R_H and ln rho for parameter values."""
-
-    def __init__(self, model: CarrierModel, mechanisms, hall_factor):
-        self.model = model
-        self.mechanisms = mechanisms
-        self.hall_factor = hall_factor
-
-    def transport(self, values, res):
-        donors, acceptors = self.model.levels(values)
-        return both_carriers(self.model.material, donors, acceptors, res, self.mechanisms,
-                             (10.0 ** np.asarray(values["log10_mu300_n"]),
-                              np.asarray(values["lattice_exponent_n"])),
-                             (10.0 ** np.asarray(values["log10_mu300_p"]),
-                              np.asarray(values["lattice_exponent_p"])), self.hall_factor)
-
-    def series(self, values, warm=True):
-        res = self.model.solve(values, warm=warm)
-        bc = self.transport(values, res)
-        return bc.hall_coefficient, np.log(bc.resistivity), bc
-
-    def rows(self, values):
-        bc = self.transport(values, self.model.solve_rows(values))
-        return bc.hall_coefficient, np.log(bc.resistivity)
-
-    def at(self, temperature, values):
-        """The same model on another temperature grid (a fresh, cold model)."""
-        m = self.model
-        other = CarrierModel(m.material, temperature, m.carrier, m.n_levels, m.compensated,
-                             m.statistics, m.degeneracy)
-        return _TwoCarrierModel(other, self.mechanisms, self.hall_factor).series(values, False)
 
 
 def _data(run: RunData, include_flagged: bool):
@@ -165,7 +128,7 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
     t, rh, rho = run.temperature[ok], rh_all[ok], rho_all[ok]
     model = CarrierModel(material, t, run.carrier, n_levels, compensated,
                          base.statistics_model, major.degeneracy)
-    tc = _TwoCarrierModel(model, models, hall_factor)
+    tc = TwoCarrierModel(model, models, hall_factor)
     gap = float(material.band_gap(float(np.min(t))))
     fixed, user_bounds = internal_options(model, fit_options.get("fix"),
                                           fit_options.get("bounds"), gap)
@@ -204,15 +167,16 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
         return np.where(np.isfinite(r), r, 1e6)
 
     def jacobian(x, w_r, w_rho):
-        h = 1e-5 * np.maximum(np.abs(x), 1e-2)
-        rows = np.concatenate([x + np.diag(h), x - np.diag(h)])
+        # forward differences of every parameter and the point itself in one batch solve
+        h = 1e-6 * np.maximum(np.abs(x), 1e-2)
+        rows = np.concatenate([x + np.diag(h), x[None, :]])
         values = {**fixed, **{k: rows[:, i:i + 1] for i, k in enumerate(free)}}
         try:
             r_m, lr_m = tc.rows(values)
         except (RuntimeError, ValueError, FloatingPointError):
             r_m = lr_m = np.full((rows.shape[0], t.size), np.nan)
         r = np.concatenate([r_m / w_r, lr_m / w_rho], axis=1)
-        jac = ((r[:x.size] - r[x.size:]) / (2.0 * h[:, None])).T
+        jac = ((r[:x.size] - r[x.size]) / h[:, None]).T
         if not np.all(np.isfinite(jac)):
             return optimize.approx_derivative(residuals, x, args=(w_r, w_rho),
                                               bounds=(lo, hi))
@@ -228,8 +192,8 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
         share = math.sqrt(max(2 * t.size - x0.size, 1) / (2 * t.size))
         for _ in range(3):
             r = residuals(out.x, w_r, w_rho)
-            f_r = 1.0 if u_r_all is not None else _rms(r[:t.size]) / share
-            f_rho = 1.0 if s_rho is not None else _rms(r[t.size:]) / share
+            f_r = 1.0 if u_r_all is not None else rms(r[:t.size]) / share
+            f_rho = 1.0 if s_rho is not None else rms(r[t.size:]) / share
             w_r, w_rho = w_r * f_r, w_rho * f_rho
             scale["hall"] *= f_r
             scale["resistivity"] *= f_rho
@@ -245,12 +209,8 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
     sigma_from = {"hall": "stated" if u_r_all is not None else "scatter",
                   "resistivity": "stated" if s_rho is not None else "scatter"}
     scale = {k: v * (0.05 if sigma_from[k] == "scatter" else 1.0) for k, v in scale.items()}
-    return _result(run, base, tc, free, fixed, out, (lo, hi), ok,
+    return build_result(run, base, tc, free, fixed, out, (lo, hi), ok,
                    (rh, rho, scale_r, sigma_from, scale))
-
-
-def _rms(r) -> float:
-    return max(float(np.sqrt(np.mean(np.square(r)))), 1e-12)
 
 
 def _scan(tc, values0, lattice0, rh, ln_rho, weight_r, s_rho, fixed):
@@ -266,13 +226,13 @@ def _scan(tc, values0, lattice0, rh, ln_rho, weight_r, s_rho, fixed):
     if model.compensated and cname not in fixed:
         major = math.log10(sum(10.0 ** values0[k] for k in model.major_concentration_names))
         grid_c = np.unique(np.concatenate([[values0[cname]],
-                                           major + np.linspace(-4.0, math.log10(0.9), 8)]))
+                                           major + np.linspace(-4.0, math.log10(0.9), 6)]))
         grid_c = grid_c[grid_c >= LOG10_CONCENTRATION_BOUNDS[0]]
         vals[cname] = grid_c[:, None]
     mu0, a0 = lattice0
     g = np.meshgrid(mu0 + np.linspace(-0.3, 0.3, 3), np.clip(a0 + np.linspace(-0.6, 0.6, 3),
                                                             0.1, 4.9),
-                    mu0 + np.log10([0.5, 1.0, 2.0, 4.0]), [1.0, 1.7, 2.4], indexing="ij")
+                    mu0 + np.log10([0.7, 1.4, 2.8]), [1.2, 2.0], indexing="ij")
     g = [x.reshape(-1, 1, 1) for x in g]
     major_names, minor_names = ((LATTICE_NAMES[:2], LATTICE_NAMES[2:]) if model.carrier == "n"
                                 else (LATTICE_NAMES[2:], LATTICE_NAMES[:2]))
@@ -305,125 +265,3 @@ def _scan(tc, values0, lattice0, rh, ln_rho, weight_r, s_rho, fixed):
     for name, grid in zip((*major_names, *minor_names), g, strict=True):
         best[name] = float(grid.ravel()[i])
     return best
-
-
-def _reversal(tc, values, t, free, cov, dof):
-    """The model's R_H sign change in [T_min/2, 2 T_max] (gap open), and its Wald interval."""
-    mat = tc.model.material
-    grid = np.geomspace(0.5 * float(np.min(t)), min(2.0 * float(np.max(t)), 5000.0), 240)
-    grid = grid[np.asarray(mat.band_gap(grid), dtype=float) > 0.05]
-    if grid.size < 2:
-        return None, None
-
-    def r_of_t(temps):
-        return tc.at(np.asarray(temps, dtype=float), values)[0]
-
-    t_star = hall_sign_change_temperature(r_of_t, grid)
-    if t_star is None:
-        return None, None
-    dt = 1e-4 * t_star
-    d_t = (r_of_t([t_star + dt])[0] - r_of_t([t_star - dt])[0]) / (2 * dt)
-    grad = np.zeros(len(free))
-    for i, k in enumerate(free):
-        h = 1e-5 * max(abs(values[k]), 1e-2)
-        up, dn = dict(values), dict(values)
-        up[k] += h
-        dn[k] -= h
-        grad[i] = -(tc.at(np.array([t_star]), up)[0][0]
-                    - tc.at(np.array([t_star]), dn)[0][0]) / (2 * h) / d_t
-    se = float(np.sqrt(max(grad @ cov @ grad, 0.0))) if np.isfinite(d_t) and d_t else math.nan
-    q = float(stats.t.ppf(0.975, dof))
-    return t_star, Estimate(t_star, se, (t_star - q * se, t_star + q * se), "wald-linear")
-
-
-#: rms misfits above which the two-carrier model is said to miss the data, ln rho and R_H
-#: relative to its weight scale (project choice, no source).
-MISFIT_RMS = {"resistivity": 5.0, "hall": 10.0}
-
-
-def _misfit(two: TwoCarrierFit, dof) -> tuple[str, ...]:
-    """A plain statement when the model misses R_H or rho by more than MISFIT_RMS."""
-    rms = two.rms_percent
-    stated = all(v == "stated" for v in two.sigma_from.values())
-    bad = [k for k, v in rms.items() if v > MISFIT_RMS[k]]
-    if stated and two.chi2 / dof > 4.0:
-        bad = bad or list(rms)
-    if not bad:
-        return ()
-    what = " and ".join(f"{'R_H' if k == 'hall' else 'rho'} by {rms[k]:.2g} % rms" for k in bad)
-    return (f"the two-carrier model misses the data ({what}; chi^2/dof = "
-            f"{two.chi2 / dof:.3g}): another level, another scattering mechanism or a "
-            "different host may be needed before the numbers are used",)
-
-
-def _result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult:
-    """The FitResult of the two-carrier solution."""
-    rh, rho, scale_r, sigma_from, sigma_scale = data
-    lo, hi = bounds
-    x = out.x
-    dof = max(out.fun.size - x.size, 1)
-    chi2 = float(out.fun @ out.fun)
-    cov = np.linalg.pinv(out.jac.T @ out.jac) * max(chi2 / dof, 1.0)
-    se = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    t_q = float(stats.t.ppf(0.975, dof))
-    idx = {k: i for i, k in enumerate(free)}
-    values = {**fixed, **dict(zip(free, x, strict=True))}
-
-    def est(name):
-        if name not in idx:
-            v = values[name]
-            return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
-                            (math.nan, math.nan), "fixed")
-        i = idx[name]
-        return wald_estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
-
-    levels = tuple(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"),
-                                 None if lv.energy is None else est(f"E_{lv.name}"),
-                                 lv.degeneracy, lv.name) for lv in base.levels)
-    net, comp = net_and_ratio(tc.model, values, idx, cov, t_q)
-    r_m, lr_m, bc = tc.series(values)
-    t = tc.model.temperature
-    t_star, reversal = _reversal(tc, values, t, free, cov, dof)
-    curve_t = np.geomspace(float(np.min(t)), float(np.max(t)), 200)
-    if t_star is not None:  # a dense stretch where |R_H| dives to zero
-        near = t_star * (1.0 + np.linspace(-0.04, 0.04, 41))
-        curve_t = np.unique(np.concatenate([curve_t, near[(near > t.min()) & (near < t.max())]]))
-    r_c, lr_c, _ = tc.at(curve_t, values)
-
-    def carrier(c, cm):
-        return CarrierLattice(est(f"log10_mu300_{c}"), est(f"lattice_exponent_{c}"),
-                              np.asarray(cm.drift, dtype=float),
-                              np.asarray(cm.hall_factor, dtype=float))
-
-    hall_source = "scattering" if tc.hall_factor is None else f"{tc.hall_factor:g}"
-    rms = {"hall": 100 * _rms((r_m - rh) / scale_r),
-           "resistivity": 100 * _rms(lr_m - np.log(rho))}
-    two = TwoCarrierFit(
-        models=tc.mechanisms, hall_factor_source=hall_source,
-        electron=carrier("n", bc.electron), hole=carrier("p", bc.hole), reversal_K=t_star,
-        reversal=reversal, sigma_from=sigma_from, sigma_scale=sigma_scale, chi2=chi2,
-        n_points=int(t.size), n_parameters=int(x.size), temperature=t, hall_coefficient=rh,
-        resistivity=rho, rms_percent=rms, model_hall_coefficient=r_m,
-        model_resistivity=np.exp(lr_m),
-        curve_temperature=curve_t, curve_hall_coefficient=r_c,
-        curve_resistivity=np.exp(lr_c))
-    d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
-    names = tuple(k.removeprefix("log10_") for k in free)
-    majority = bc.n if run.carrier == "n" else bc.p
-    model_density = np.array(base.data.model_density, dtype=float)
-    model_density[ok] = majority
-    corr = cov / np.outer(d, d)
-    warnings = kept_after_refit(base.warnings, mixed_fitted=True, own_solution=True)
-    warnings += tuple(refit_warnings(names, x, (lo, hi), corr, what="two-carrier fit"))
-    warnings += _misfit(two, dof)
-    n_mixed = int(np.sum(run.mixed[ok]))
-    warnings += (f"two-carrier fit of R_H and rho ({'+'.join(tc.mechanisms)}, "
-                 f"{int(t.size)} points, {n_mixed} of them of the opposite Hall sign): the "
-                 "levels and their Wald intervals are those of this fit",)
-    if t_star is None:
-        warnings += ("the model's R_H keeps one sign from half the lowest to twice the "
-                     "highest measured temperature: no Hall sign reversal",)
-    return replace(base, levels=levels, net_doping=net, compensation_ratio=comp,
-                   parameter_names=names, correlation=corr,
-                   warnings=warnings, data=replace(base.data, model_density=model_density),
-                   optimizer_message=str(out.message), two_carrier=two, raw=out)

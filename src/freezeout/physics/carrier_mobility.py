@@ -28,6 +28,7 @@ from freezeout.physics.hall_factor import (
     IONIZED_IMPURITY_EXPONENT,
     LATTICE_EXPONENT,
     NEUTRAL_IMPURITY_EXPONENT,
+    QUADRATURE_NODES,
     scattering_average,
 )
 from freezeout.physics.materials import Material
@@ -92,8 +93,8 @@ def scattering_parameters(material: Material, carrier: str) -> tuple[float, floa
 
 
 def carrier_mobility(temperature, *, mass, permittivity, lattice_mobility_300, lattice_exponent,
-                     ionized_density, screening_density=None, neutral_density=0.0
-                     ) -> CarrierMobility:
+                     ionized_density, screening_density=None, neutral_density=0.0,
+                     nodes: int = QUADRATURE_NODES) -> CarrierMobility:
     """Mobility and Hall factor of one carrier over a temperature grid.
 
     Parameters
@@ -115,6 +116,9 @@ def carrier_mobility(temperature, *, mass, permittivity, lattice_mobility_300, l
         Conwell-Weisskopf form instead. [cm^-3]
     neutral_density
         Neutral majority-level density N_N (0 for none). [cm^-3]
+    nodes
+        Quadrature nodes of the energy averages
+        (:func:`freezeout.physics.hall_factor.scattering_average`). [1]
 
     Returns
     -------
@@ -138,7 +142,7 @@ def carrier_mobility(temperature, *, mass, permittivity, lattice_mobility_300, l
     neutral = np.broadcast_to(erginsoy_mobility(neutral_density, mass, permittivity), t.shape)
     average = scattering_average([lattice, ionized, neutral],
                                  [LATTICE_EXPONENT, IONIZED_IMPURITY_EXPONENT,
-                                  NEUTRAL_IMPURITY_EXPONENT])
+                                  NEUTRAL_IMPURITY_EXPONENT], nodes)
     return CarrierMobility(lattice=lattice, ionized=ionized, neutral=neutral,
                            matthiessen=matthiessen_mobility(lattice, ionized, neutral),
                            drift=average.drift_mobility, hall_factor=average.hall_factor,

@@ -170,7 +170,8 @@ def relaxation_prefactor(mobility, exponent):
             / special.gamma(exponent + 2.5))  # / G(s+5/2)
 
 
-def scattering_average(mobilities: Sequence, exponents: Sequence[float]) -> ScatteringAverage:
+def scattering_average(mobilities: Sequence, exponents: Sequence[float],
+                       nodes: int = QUADRATURE_NODES) -> ScatteringAverage:
     """Drift mobility and Hall factor of tau = (sum_i 1/tau_i)^-1, tau_i = tau_0i x^s_i.
 
     Parameters
@@ -200,16 +201,22 @@ def scattering_average(mobilities: Sequence, exponents: Sequence[float]) -> Scat
     if len(mobilities) != len(exponents) or not mobilities:
         raise InputError(f"scattering_average needs one exponent per mobility, got "
                          f"{len(mobilities)} mobilities and {len(exponents)} exponents")
-    nodes, weights = half_range_hermite()
-    x = nodes * nodes  # x = E / kT = u^2
+    u, weights = half_range_hermite(nodes)
+    x = u * u  # x = E / kT = u^2
     measure = weights * x * x  # e^(-u^2) du times u^4: x^(3/2) e^(-x) dx / 2
     measure = measure / measure.sum()  # normalized so that <1> = 1
-    rate = 0.0
+    shape = np.broadcast_shapes(*(np.shape(m) for m in mobilities))
+    rate = np.zeros(x.shape)
     for mobility, s in zip(mobilities, exponents, strict=True):
+        if np.all(np.isposinf(mobility)):
+            continue  # an absent mechanism adds no rate
         prefactor = relaxation_prefactor(mobility, s)[..., None]
         rate = rate + x ** (-s) / prefactor  # 1/tau = sum_i 1/(tau_0i x^s_i)
-    tau = 1.0 / rate
+    with np.errstate(divide="ignore"):
+        tau = 1.0 / rate
     mean = tau @ measure  # <tau> in units of m_c / q
     mean_square = (tau * tau) @ measure  # <tau^2>
-    hall = mean_square / mean**2  # r_H = <tau^2> / <tau>^2
+    with np.errstate(invalid="ignore"):
+        hall = mean_square / mean**2  # r_H = <tau^2> / <tau>^2
+    mean, hall = np.broadcast_to(mean, shape), np.broadcast_to(hall, shape)
     return ScatteringAverage(drift_mobility=mean, hall_factor=hall, hall_mobility=hall * mean)

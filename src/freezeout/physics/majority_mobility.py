@@ -27,6 +27,7 @@ from freezeout.physics.carrier_mobility import (
     carrier_mobility,
     scattering_parameters,
 )
+from freezeout.physics.hall_factor import QUADRATURE_NODES
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import DopantLevel, NeutralityResult
 from freezeout.physics.screening import (
@@ -103,7 +104,7 @@ def check_lattice(mechanisms: Sequence[str], mobility_300, exponent) -> tuple[fl
 def majority_mobility(material: Material, carrier: str, donors: Sequence[DopantLevel],
                       acceptors: Sequence[DopantLevel], result: NeutralityResult,
                       mechanisms: Sequence[str], lattice_mobility_300=np.inf,
-                      lattice_exponent=0.0) -> CarrierMobility:
+                      lattice_exponent=0.0, nodes: int = QUADRATURE_NODES) -> CarrierMobility:
     """Mobility and Hall factor of the majority carrier at each temperature of ``result``.
 
     Parameters
@@ -120,6 +121,8 @@ def majority_mobility(material: Material, carrier: str, donors: Sequence[DopantL
         Checked names (:func:`check_mechanisms`).
     lattice_mobility_300, lattice_exponent
         Lattice power law; ignored without ``"lattice"``. [cm^2/(V s)], [1]
+    nodes
+        Quadrature nodes of the energy averages. [1]
 
     Returns
     -------
@@ -147,4 +150,5 @@ def majority_mobility(material: Material, carrier: str, donors: Sequence[DopantL
     return carrier_mobility(t, mass=mass, permittivity=permittivity,
                             lattice_mobility_300=lattice_mobility_300,
                             lattice_exponent=lattice_exponent, ionized_density=ionized,
-                            screening_density=screening, neutral_density=neutral)
+                            screening_density=screening, neutral_density=neutral,
+                            nodes=nodes)

@@ -27,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from freezeout.physics.carrier_mobility import CarrierMobility
+from freezeout.physics.hall_factor import QUADRATURE_NODES
 from freezeout.physics.majority_mobility import majority_mobility
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality import DopantLevel, NeutralityResult
@@ -88,7 +89,8 @@ class BothCarriers:
 def both_carriers(material: Material, donors: Sequence[DopantLevel],
                   acceptors: Sequence[DopantLevel], result: NeutralityResult,
                   mechanisms: Sequence[str], electron_lattice, hole_lattice,
-                  hall_factor: float | None = None) -> BothCarriers:
+                  hall_factor: float | None = None,
+                  nodes: int = QUADRATURE_NODES) -> BothCarriers:
     """R_H, rho and both carriers' mobilities of a neutrality solution.
 
     Parameters
@@ -105,15 +107,17 @@ def both_carriers(material: Material, donors: Sequence[DopantLevel],
         (mu_300 [cm^2/(V s)], a [1]) of each carrier's lattice term (arrays broadcast).
     hall_factor
         None: each carrier's r_H from its scattering; a number: that constant for both. [1]
+    nodes
+        Quadrature nodes of the energy averages. [1]
 
     Returns
     -------
     BothCarriers
     """
     cm_n = majority_mobility(material, "n", donors, acceptors, result, mechanisms,
-                             electron_lattice[0], electron_lattice[1])
+                             electron_lattice[0], electron_lattice[1], nodes)
     cm_p = majority_mobility(material, "p", donors, acceptors, result, mechanisms,
-                             hole_lattice[0], hole_lattice[1])
+                             hole_lattice[0], hole_lattice[1], nodes)
     r_n = cm_n.hall_factor if hall_factor is None else hall_factor
     r_p = cm_p.hall_factor if hall_factor is None else hall_factor
     rh = hall_coefficient(result.n, result.p, cm_n.drift, cm_p.drift, r_n, r_p)

@@ -1,0 +1,190 @@
+"""The FitResult of a two-carrier fit: covariance, the Hall sign reversal, misfit, record.
+
+Standard errors from (J^T J)^-1 of the parameters the data set, scaled by max(chi^2/dof, 1);
+a parameter the data do not set (a minority carrier that never conducts, a parameter at a
+bound) gets no standard error and its whole range as its interval. Wald intervals, in log
+space for concentrations and mu_300. The reversal temperature's error is by the delta
+method, dT*/dtheta = -(dR/dtheta) / (dR/dT) at T*.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+from scipy import stats
+
+from freezeout.fitting.model import CarrierModel
+from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
+from freezeout.fitting.two_carrier_model import TwoCarrierModel
+from freezeout.fitting.two_carrier_result import CarrierLattice, TwoCarrierFit
+from freezeout.fitting.wald import net_and_ratio, wald_estimate
+from freezeout.fitting.warnings import kept_after_refit, refit_warnings
+from freezeout.physics.transport import hall_sign_change_temperature
+
+
+def rms(r) -> float:
+    """Root mean square of ``r`` (at least 1e-12, a safe divisor)."""
+    return max(float(np.sqrt(np.mean(np.square(r)))), 1e-12)
+
+
+def _covariance(jac, x, lo, hi, scale):
+    """Covariance of the parameters the data set, and the mask of those they do not.
+
+    A parameter is not set when its Jacobian column, times its range, is below 1e-8 of the
+    largest (the data do not move with it: a minority carrier that never conducts) or when
+    it sits at a bound; its rows are NaN and the rest come from the others' (J^T J)^-1
+    (project choice, no source).
+    """
+    span = hi - lo
+    col = np.linalg.norm(jac, axis=0) * span
+    lost = (col <= 1e-8 * np.max(col)) | (x - lo < 1e-6 * span) | (hi - x < 1e-6 * span)
+    cov = np.full((x.size, x.size), np.nan)
+    keep = np.flatnonzero(~lost)
+    if keep.size:
+        j = jac[:, keep]
+        cov[np.ix_(keep, keep)] = np.linalg.pinv(j.T @ j) * scale
+    return cov, lost
+
+
+def _reversal(tc, values, t, free, covariance, dof):
+    """The model's R_H sign change in [T_min/2, 2 T_max] (gap open), and its Wald interval.
+
+    Its error is infinite when it moves with a parameter the data do not set.
+    """
+    cov, lost, span = covariance
+    mat = tc.model.material
+    grid = np.geomspace(0.5 * float(np.min(t)), min(2.0 * float(np.max(t)), 5000.0), 240)
+    grid = grid[np.asarray(mat.band_gap(grid), dtype=float) > 0.05]
+    if grid.size < 2:
+        return None, None
+
+    def r_of_t(temps):
+        return tc.at(np.asarray(temps, dtype=float), values)[0]
+
+    t_star = hall_sign_change_temperature(r_of_t, grid)
+    if t_star is None:
+        return None, None
+    dt = 1e-4 * t_star
+    d_t = (r_of_t([t_star + dt])[0] - r_of_t([t_star - dt])[0]) / (2 * dt)
+    x = np.array([values[k] for k in free])
+    h = 1e-5 * np.maximum(np.abs(x), 1e-2)
+    rows = np.concatenate([x + np.diag(h), x - np.diag(h)])
+    m = tc.model
+    one = TwoCarrierModel(CarrierModel(mat, np.array([t_star]), m.carrier, m.n_levels,
+                                        m.compensated, m.statistics, m.degeneracy),
+                           tc.mechanisms, tc.hall_factor)
+    r_rows = one.rows({**values, **{k: rows[:, i:i + 1] for i, k in enumerate(free)}})[0][:, 0]
+    grad = -(r_rows[:x.size] - r_rows[x.size:]) / (2 * h) / d_t
+    keep = ~lost
+    if not (np.isfinite(d_t) and d_t) or np.any(np.abs(grad[lost] * span[lost]) > 1e-3):
+        se = math.inf
+    else:
+        g = grad[keep]
+        se = float(np.sqrt(max(g @ cov[np.ix_(keep, keep)] @ g, 0.0)))
+    q = float(stats.t.ppf(0.975, dof))
+    return t_star, Estimate(t_star, se, (t_star - q * se, t_star + q * se), "wald-linear")
+
+
+#: rms misfits above which the two-carrier model is said to miss the data, ln rho and R_H
+#: relative to its weight scale (project choice, no source).
+MISFIT_RMS = {"resistivity": 5.0, "hall": 10.0}
+
+
+def _misfit(two: TwoCarrierFit, dof) -> tuple[str, ...]:
+    """A plain statement when the model misses R_H or rho by more than MISFIT_RMS."""
+    rms = two.rms_percent
+    stated = all(v == "stated" for v in two.sigma_from.values())
+    bad = [k for k, v in rms.items() if v > MISFIT_RMS[k]]
+    if stated and two.chi2 / dof > 4.0:
+        bad = bad or list(rms)
+    if not bad:
+        return ()
+    what = " and ".join(f"{'R_H' if k == 'hall' else 'rho'} by {rms[k]:.2g} % rms" for k in bad)
+    return (f"the two-carrier model misses the data ({what}; chi^2/dof = "
+            f"{two.chi2 / dof:.3g}): another level, another scattering mechanism or a "
+            "different host may be needed before the numbers are used",)
+
+
+def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult:
+    """The FitResult of the two-carrier solution."""
+    rh, rho, scale_r, sigma_from, sigma_scale = data
+    lo, hi = bounds
+    x = out.x
+    dof = max(out.fun.size - x.size, 1)
+    chi2 = float(out.fun @ out.fun)
+    cov, lost = _covariance(out.jac, x, lo, hi, max(chi2 / dof, 1.0))
+    se = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    se[lost] = math.inf  # not set by the data: the interval is the parameter's whole range
+    t_q = float(stats.t.ppf(0.975, dof))
+    idx = {k: i for i, k in enumerate(free)}
+    values = {**fixed, **dict(zip(free, x, strict=True))}
+
+    def est(name):
+        if name not in idx:
+            v = values[name]
+            return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
+                            (math.nan, math.nan), "fixed")
+        i = idx[name]
+        return wald_estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
+
+    levels = tuple(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"),
+                                 None if lv.energy is None else est(f"E_{lv.name}"),
+                                 lv.degeneracy, lv.name) for lv in base.levels)
+    net, comp = net_and_ratio(tc.model, values, idx, cov, t_q)
+    r_m, lr_m, bc = tc.series(values)
+    t = tc.model.temperature
+    t_star, reversal = _reversal(tc, values, t, free, (cov, lost, hi - lo), dof)
+    unset_reversal = None
+    if (t_star is not None and not math.isfinite(reversal.stderr)
+            and not float(np.min(t)) <= t_star <= float(np.max(t))):
+        unset_reversal, t_star, reversal = t_star, None, None
+    curve_t = np.geomspace(float(np.min(t)), float(np.max(t)), 200)
+    if t_star is not None:  # a dense stretch where |R_H| dives to zero
+        near = t_star * (1.0 + np.linspace(-0.04, 0.04, 41))
+        curve_t = np.unique(np.concatenate([curve_t, near[(near > t.min()) & (near < t.max())]]))
+    r_c, lr_c, _ = tc.at(curve_t, values)
+
+    def carrier(c, cm):
+        return CarrierLattice(est(f"log10_mu300_{c}"), est(f"lattice_exponent_{c}"),
+                              np.asarray(cm.drift, dtype=float),
+                              np.asarray(cm.hall_factor, dtype=float))
+
+    hall_source = "scattering" if tc.hall_factor is None else f"{tc.hall_factor:g}"
+    misfit = {"hall": 100 * rms((r_m - rh) / scale_r),
+              "resistivity": 100 * rms(lr_m - np.log(rho))}
+    two = TwoCarrierFit(
+        models=tc.mechanisms, hall_factor_source=hall_source,
+        electron=carrier("n", bc.electron), hole=carrier("p", bc.hole), reversal_K=t_star,
+        reversal=reversal, sigma_from=sigma_from, sigma_scale=sigma_scale, chi2=chi2,
+        n_points=int(t.size), n_parameters=int(x.size), temperature=t, hall_coefficient=rh,
+        resistivity=rho, rms_percent=misfit, model_hall_coefficient=r_m,
+        model_resistivity=np.exp(lr_m),
+        curve_temperature=curve_t, curve_hall_coefficient=r_c,
+        curve_resistivity=np.exp(lr_c))
+    d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
+    names = tuple(k.removeprefix("log10_") for k in free)
+    majority = bc.n if run.carrier == "n" else bc.p
+    model_density = np.array(base.data.model_density, dtype=float)
+    model_density[ok] = majority
+    corr = cov / np.outer(d, d)
+    warnings = kept_after_refit(base.warnings, mixed_fitted=True, own_solution=True)
+    warnings += tuple(refit_warnings(names, x, (lo, hi), corr, what="two-carrier fit"))
+    warnings += _misfit(two, dof)
+    n_mixed = int(np.sum(run.mixed[ok]))
+    warnings += (f"two-carrier fit of R_H and rho ({'+'.join(tc.mechanisms)}, "
+                 f"{int(t.size)} points, {n_mixed} of them of the opposite Hall sign): the "
+                 "levels and their Wald intervals are those of this fit",)
+    if unset_reversal is not None:
+        warnings += (f"the model's R_H changes sign at {unset_reversal:.4g} K, outside the "
+                     "measured range, but that temperature moves with a parameter the data "
+                     "do not set (the minority carrier's mobility): no reversal temperature "
+                     "is reported; measure into the mixed conduction to pin it",)
+    elif t_star is None:
+        warnings += ("the model's R_H keeps one sign from half the lowest to twice the "
+                     "highest measured temperature: no Hall sign reversal",)
+    return replace(base, levels=levels, net_doping=net, compensation_ratio=comp,
+                   parameter_names=names, correlation=corr,
+                   warnings=warnings, data=replace(base.data, model_density=model_density),
+                   optimizer_message=str(out.message), two_carrier=two, raw=out)
