@@ -167,16 +167,16 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
         return np.where(np.isfinite(r), r, 1e6)
 
     def jacobian(x, w_r, w_rho):
-        # forward differences of every parameter and the point itself in one batch solve
-        h = 1e-6 * np.maximum(np.abs(x), 1e-2)
-        rows = np.concatenate([x + np.diag(h), x[None, :]])
+        # central differences of every parameter in one batch solve
+        h = 1e-5 * np.maximum(np.abs(x), 1e-2)
+        rows = np.concatenate([x + np.diag(h), x - np.diag(h)])
         values = {**fixed, **{k: rows[:, i:i + 1] for i, k in enumerate(free)}}
         try:
             r_m, lr_m = tc.rows(values)
         except (RuntimeError, ValueError, FloatingPointError):
             r_m = lr_m = np.full((rows.shape[0], t.size), np.nan)
         r = np.concatenate([r_m / w_r, lr_m / w_rho], axis=1)
-        jac = ((r[:x.size] - r[x.size]) / h[:, None]).T
+        jac = ((r[:x.size] - r[x.size:]) / (2.0 * h[:, None])).T
         if not np.all(np.isfinite(jac)):
             return optimize.approx_derivative(residuals, x, args=(w_r, w_rho),
                                               bounds=(lo, hi))

@@ -30,22 +30,25 @@ def rms(r) -> float:
 
 
 def _covariance(jac, x, lo, hi, scale):
-    """Covariance of the parameters the data set, and the mask of those they do not.
+    """Covariance of the parameters the data set; masks of those unset and those held.
 
-    A parameter is not set when its Jacobian column, times its range, is below 1e-8 of the
-    largest (the data do not move with it: a minority carrier that never conducts) or when
-    it sits at a bound; its rows are NaN and the rest come from the others' (J^T J)^-1
-    (project choice, no source).
+    A parameter is *unset* when its Jacobian column, times its range, is below 1e-8 of the
+    largest (the data do not move with it: a minority carrier that never conducts): no
+    standard error, its whole range as its interval, and an infinite error in anything
+    that moves with it. A parameter at a bound is *held* there: the others' covariance is
+    conditional on it (project choice, no source). Rows of both are 0 in the covariance
+    returned; the rest come from (J^T J)^-1 of the others.
     """
     span = hi - lo
     col = np.linalg.norm(jac, axis=0) * span
-    lost = (col <= 1e-8 * np.max(col)) | (x - lo < 1e-6 * span) | (hi - x < 1e-6 * span)
-    cov = np.full((x.size, x.size), np.nan)
-    keep = np.flatnonzero(~lost)
+    unset = col <= 1e-8 * np.max(col)
+    held = ~unset & ((x - lo < 1e-6 * span) | (hi - x < 1e-6 * span))
+    cov = np.zeros((x.size, x.size))
+    keep = np.flatnonzero(~(unset | held))
     if keep.size:
         j = jac[:, keep]
         cov[np.ix_(keep, keep)] = np.linalg.pinv(j.T @ j) * scale
-    return cov, lost
+    return cov, unset, held
 
 
 def _reversal(tc, values, t, free, covariance, dof):
@@ -53,7 +56,7 @@ def _reversal(tc, values, t, free, covariance, dof):
 
     Its error is infinite when it moves with a parameter the data do not set.
     """
-    cov, lost, span = covariance
+    cov, lost, span = covariance  # lost: the unset parameters
     mat = tc.model.material
     grid = np.geomspace(0.5 * float(np.min(t)), min(2.0 * float(np.max(t)), 5000.0), 240)
     grid = grid[np.asarray(mat.band_gap(grid), dtype=float) > 0.05]
@@ -77,12 +80,10 @@ def _reversal(tc, values, t, free, covariance, dof):
                            tc.mechanisms, tc.hall_factor)
     r_rows = one.rows({**values, **{k: rows[:, i:i + 1] for i, k in enumerate(free)}})[0][:, 0]
     grad = -(r_rows[:x.size] - r_rows[x.size:]) / (2 * h) / d_t
-    keep = ~lost
     if not (np.isfinite(d_t) and d_t) or np.any(np.abs(grad[lost] * span[lost]) > 1e-3):
         se = math.inf
     else:
-        g = grad[keep]
-        se = float(np.sqrt(max(g @ cov[np.ix_(keep, keep)] @ g, 0.0)))
+        se = float(np.sqrt(max(grad @ cov @ grad, 0.0)))
     q = float(stats.t.ppf(0.975, dof))
     return t_star, Estimate(t_star, se, (t_star - q * se, t_star + q * se), "wald-linear")
 
@@ -114,9 +115,10 @@ def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult
     x = out.x
     dof = max(out.fun.size - x.size, 1)
     chi2 = float(out.fun @ out.fun)
-    cov, lost = _covariance(out.jac, x, lo, hi, max(chi2 / dof, 1.0))
+    cov, lost, held = _covariance(out.jac, x, lo, hi, max(chi2 / dof, 1.0))
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
     se[lost] = math.inf  # not set by the data: the interval is the parameter's whole range
+    se[held] = math.nan  # at a bound: the warnings say so
     t_q = float(stats.t.ppf(0.975, dof))
     idx = {k: i for i, k in enumerate(free)}
     values = {**fixed, **dict(zip(free, x, strict=True))}
@@ -133,6 +135,9 @@ def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult
                                  None if lv.energy is None else est(f"E_{lv.name}"),
                                  lv.degeneracy, lv.name) for lv in base.levels)
     net, comp = net_and_ratio(tc.model, values, idx, cov, t_q)
+    if any(lost[i] for k, i in idx.items() if k.startswith("log10_N_")):
+        net = Estimate(net.value, math.inf, (0.0, math.inf), net.method)
+        comp = Estimate(comp.value, math.inf, (0.0, 1.0), comp.method)
     r_m, lr_m, bc = tc.series(values)
     t = tc.model.temperature
     t_star, reversal = _reversal(tc, values, t, free, (cov, lost, hi - lo), dof)
@@ -169,6 +174,8 @@ def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult
     model_density = np.array(base.data.model_density, dtype=float)
     model_density[ok] = majority
     corr = cov / np.outer(d, d)
+    corr[lost | held, :] = np.nan
+    corr[:, lost | held] = np.nan
     warnings = kept_after_refit(base.warnings, mixed_fitted=True, own_solution=True)
     warnings += tuple(refit_warnings(names, x, (lo, hi), corr, what="two-carrier fit"))
     warnings += _misfit(two, dof)
