@@ -185,3 +185,21 @@ def test_cli_refuses_what_it_cannot_fit(tmp_path, monkeypatch, capsys):
     code, _, err = cli(monkeypatch, capsys, "fit", path, "--carriers", "three", "--no-history",
                        "--json")
     assert code == 2 and "valid: majority, both" in err
+
+
+def test_common_thickness_uncertainty_widens_the_concentrations_only():
+    # a 5 % thickness uncertainty scales R_H and rho alike: it moves every concentration
+    # (1/(q R_H)) by 5 % and no mobility (R_H/rho) (common practice, no source)
+    from dataclasses import replace
+
+    mat = api.load_material("Ge")
+    run = _run(11)
+    plain = fit_run_two_carrier(run, mat, mobility=MECHANISMS)
+    thick = fit_run_two_carrier(replace(run, scale_uncertainty=0.05), mat, mobility=MECHANISMS)
+    net0, net1 = plain.net_doping, thick.net_doping
+    assert net1.stderr == pytest.approx(math.hypot(net0.stderr, 0.05 * net0.value), rel=1e-6)
+    n0, n1 = plain.levels[0].concentration, thick.levels[0].concentration
+    assert n1.stderr > n0.stderr and n1.stderr >= 0.05 * n1.value * 0.99
+    mu0 = plain.two_carrier.hole.lattice_mu300
+    mu1 = thick.two_carrier.hole.lattice_mu300
+    assert mu1.stderr == pytest.approx(mu0.stderr, rel=1e-9)
