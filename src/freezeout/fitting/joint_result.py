@@ -22,8 +22,8 @@ from freezeout.fitting.mobility_model import (
     model_series,
 )
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
-from freezeout.fitting.wald import net_and_ratio, wald_estimate
+from freezeout.fitting.result import FitResult, LevelEstimate
+from freezeout.fitting.wald import net_and_ratio, parameter_estimate, with_common_scale
 from freezeout.fitting.warnings import kept_after_refit
 
 _LN10 = math.log(10.0)
@@ -59,13 +59,11 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
     idx = {k: i for i, k in enumerate(free)}
     values = {**fixed, **dict(zip(free, x, strict=True))}
 
+    # the thickness scales n and leaves mu_H = R_H / rho alone: it moves the concentrations
+    common = float(run.scale_uncertainty)
+
     def est(name):
-        if name not in idx:
-            v = values[name]
-            return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
-                            (math.nan, math.nan), "fixed")
-        i = idx[name]
-        return wald_estimate(x[i], se[i], t_q, lo[i], hi[i], name.startswith("log10_"))
+        return parameter_estimate(name, values, idx, x, se, t_q, (lo, hi), common)
 
     levels = []
     for lv in base.levels:
@@ -73,6 +71,7 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
         levels.append(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"), energy, lv.degeneracy,
                                     lv.name))
     net, comp = net_and_ratio(model, values, idx, cov, t_q)
+    net = with_common_scale(net, common, t_q)
     ln_n, ln_mu, cm = series(values)
     d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
     corr = cov / np.outer(d, d)

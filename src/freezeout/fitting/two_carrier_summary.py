@@ -19,7 +19,7 @@ from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
 from freezeout.fitting.two_carrier_model import TwoCarrierModel
 from freezeout.fitting.two_carrier_result import CarrierLattice, TwoCarrierFit
-from freezeout.fitting.wald import net_and_ratio, wald_estimate
+from freezeout.fitting.wald import net_and_ratio, parameter_estimate, with_common_scale
 from freezeout.fitting.warnings import kept_after_refit, refit_warnings
 from freezeout.physics.transport import hall_sign_change_temperature
 
@@ -128,24 +128,13 @@ def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult
     common = float(run.scale_uncertainty)
 
     def est(name):
-        if name not in idx:
-            v = values[name]
-            return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
-                            (math.nan, math.nan), "fixed")
-        i = idx[name]
-        s_i = se[i]
-        if common > 0 and name.startswith("log10_N_"):
-            s_i = math.hypot(s_i, common / math.log(10.0))
-        return wald_estimate(x[i], s_i, t_q, lo[i], hi[i], name.startswith("log10_"))
+        return parameter_estimate(name, values, idx, x, se, t_q, (lo, hi), common)
 
     levels = tuple(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"),
                                  None if lv.energy is None else est(f"E_{lv.name}"),
                                  lv.degeneracy, lv.name) for lv in base.levels)
     net, comp = net_and_ratio(tc.model, values, idx, cov, t_q)
-    if common > 0 and math.isfinite(net.stderr):
-        s_net = math.hypot(net.stderr, common * net.value)
-        net = Estimate(net.value, s_net, (max(net.value - t_q * s_net, 0.0),
-                                          net.value + t_q * s_net), net.method)
+    net = with_common_scale(net, common, t_q)
     if any(lost[i] for k, i in idx.items() if k.startswith("log10_N_")):
         net = Estimate(net.value, math.inf, (0.0, math.inf), net.method)
         comp = Estimate(comp.value, math.inf, (0.0, 1.0), comp.method)

@@ -83,3 +83,45 @@ def net_and_ratio(model, values, idx, cov, t_q) -> tuple[Estimate, Estimate]:
     else:
         comp = Estimate(0.0, math.nan, (math.nan, math.nan), "fixed")
     return net, comp
+
+
+def parameter_estimate(name: str, values: dict, idx: dict, x, se, t_q, bounds,
+                       common: float = 0.0) -> Estimate:
+    """The Estimate of an internal parameter of a refit: held, or Wald from its error.
+
+    Parameters
+    ----------
+    name
+        Internal name (``log10_N_D1``, ``E_D1``, ``log10_mu300_n``...).
+    values
+        Internal values at the solution, held ones included.
+    idx
+        Internal name -> index into ``x`` and ``se`` of each free parameter.
+    x, se
+        Free values and their standard errors (internal units).
+    t_q
+        Student's t quantile for 95 %.
+    bounds
+        (lower, upper) arrays of the free parameters' ranges.
+    common
+        Relative uncertainty common to every point (the thickness), added to each
+        concentration in quadrature (concentrations scale with it, energies do not). [1]
+    """
+    if name not in idx:
+        v = values[name]
+        return Estimate(10.0**v if name.startswith("log10_") else v, math.nan,
+                        (math.nan, math.nan), "fixed")
+    i = idx[name]
+    s_i = se[i]
+    if common > 0 and name.startswith("log10_N_"):
+        s_i = math.hypot(s_i, common / _LN10)
+    return wald_estimate(x[i], s_i, t_q, bounds[0][i], bounds[1][i], name.startswith("log10_"))
+
+
+def with_common_scale(net: Estimate, common: float, t_q: float) -> Estimate:
+    """The net doping with a relative uncertainty common to every point added in quadrature."""
+    if not common > 0 or not math.isfinite(net.stderr):
+        return net
+    s_net = math.hypot(net.stderr, common * net.value)
+    return Estimate(net.value, s_net, (max(net.value - t_q * s_net, 0.0),
+                                       net.value + t_q * s_net), net.method)
