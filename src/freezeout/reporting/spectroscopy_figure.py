@@ -44,7 +44,21 @@ def spectroscopy_figure(result: FitResult) -> Figure | None:
         fig = Figure(figsize=(8.6, 4.8), layout="constrained")
         ax = fig.subplots()
         ax.plot(u, s, "-", lw=2.0, color=INK, label="S = kT dn/du_F")
-        top = float(np.nanmax(s))
+        # where intrinsic generation matters (minority carriers above 1 % of the majority,
+        # p = n_i^2 / n with n from u_F), the rise of S is not a level: shaded, and the axis
+        # scaled to the extrinsic part (project choice, no source)
+        kt = 8.617333262e-5 * spec.temperature
+        edge = (result.material.nc(spec.temperature) if spec.carrier == "n"
+                else result.material.nv(spec.temperature))
+        with np.errstate(over="ignore", under="ignore"):
+            majority = edge * np.exp(-spec.energy / kt)
+            intrinsic = (result.material.intrinsic_density(spec.temperature) / majority) ** 2 > 0.01
+        extrinsic = ok & ~intrinsic
+        top = float(np.nanmax(s[extrinsic])) if extrinsic.any() else float(np.nanmax(s))
+        if (intrinsic & ok).any():
+            ax.axvspan(float(np.nanmin(u[intrinsic & ok])), float(np.nanmax(u[ok])) * 1.05,
+                       color=MUTED, alpha=0.15, lw=0,
+                       label="intrinsic generation (minority > 1 % of majority): not a level")
         for i, pk in enumerate(spec.peaks):
             ax.plot([pk.energy], [pk.height], "v", ms=9, color=LEVEL_COLOURS[i % 6],
                     zorder=5, label=f"peak {i + 1}: {pk.energy:.4f} eV, "
