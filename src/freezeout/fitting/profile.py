@@ -212,7 +212,10 @@ class Profiler:
 
         Returns the rows and the violation of the dependent's bounds (0 when feasible). [dex]
         """
-        theta = np.insert(z, t.dep, 0.0, axis=1)
+        theta = np.empty((z.shape[0], z.shape[1] + 1))  # z with a column at t.dep
+        theta[:, :t.dep] = z[:, :t.dep]
+        theta[:, t.dep + 1:] = z[:, t.dep:]
+        theta[:, t.dep] = 0.0
         lin = self.linear
         theta[:, lin] = self.theta[lin] + np.log10(np.maximum(theta[:, lin], 1e-300))
         if t.key in self.free:

@@ -219,6 +219,11 @@ def _log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarra
     return log_fermi_dirac_half_ratio(eta)
 
 
+def _softplus(x: np.ndarray) -> np.ndarray:
+    """ln(1 + e^x), without overflow: max(x, 0) + ln(1 + e^-|x|). [1]"""
+    return np.maximum(x, 0.0) + np.log1p(np.exp(-np.abs(x)))
+
+
 def _log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
     """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
 
@@ -337,45 +342,41 @@ def solve_levels(
         lp, dlp = _log_band(-u, fd)
         lp = lp + log_nv
         pos = [(lp, -dlp)]
+        soft_d, soft_a = [], []
         for ln_n, off in d_terms:
             # ln N_D+ = ln N - ln(1 + e^x), d/du = -expit(x), x = off + u
             x = off + u
-            soft = np.logaddexp(0.0, x)
+            soft = _softplus(x)
+            soft_d.append(soft)
             pos.append((ln_n - soft, -np.exp(x - soft)))
         ln_, dln = _log_band(u - gap_kt, fd)
         ln_ = ln_ + log_nc
         neg = [(ln_, dln)]
         for ln_a, off in a_terms:
             x = off - u
-            soft = np.logaddexp(0.0, x)
+            soft = _softplus(x)
+            soft_a.append(soft)
             neg.append((ln_a - soft, np.exp(x - soft)))
         log_pos, slope_pos = _log_sum(pos, const_pos)
         log_neg, slope_neg = _log_sum(neg, const_neg)
-        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_
+        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, soft_d, soft_a
 
     lo, hi = fermi_bracket(bands, terms, gap_kt)
     if initial_fermi_level is None:
         u = np.broadcast_to(0.5 * gap_kt, shape).copy()
     else:
         u = np.broadcast_to(np.asarray(initial_fermi_level, dtype=float) / kt, shape).copy()
-    u, (_, _, lp, ln_), iterations = solve_decreasing(
+    u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
         residual, lo, hi, u, tolerance, name="charge-neutrality residual")
+    # ionized fractions 1 / (1 + e^x) = exp(-ln(1 + e^x)), from the last residual
     donor_ion = []
-    ai = iter(d_terms)
+    ai = iter(soft_d)
     for lv in donors:
-        if lv.energy is None:
-            donor_ion.append(np.ones(shape))
-        else:
-            _, off = next(ai)
-            donor_ion.append(expit(-(off + u)))
+        donor_ion.append(np.ones(shape) if lv.energy is None else np.exp(-next(ai)))
     acc_ion = []
-    ai = iter(a_terms)
+    ai = iter(soft_a)
     for lv in acceptors:
-        if lv.energy is None:
-            acc_ion.append(np.ones(shape))
-        else:
-            _, off = next(ai)
-            acc_ion.append(expit(-(off - u)))
+        acc_ion.append(np.ones(shape) if lv.energy is None else np.exp(-next(ai)))
     return NeutralityResult(
         temperature=np.broadcast_to(bands.temperature, shape),
         fermi_level=u * kt,

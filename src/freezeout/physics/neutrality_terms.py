@@ -110,9 +110,10 @@ def fermi_bracket(bands: BandState, terms: LevelTerms,
     total = np.maximum(total, 1.0)
     r_v = total / np.exp(bands.log_nv)
     r_c = total / np.exp(bands.log_nc)
-    lo = -(np.maximum(np.log(r_v), 0.0) + 2.0 * np.maximum(r_v, 1.0) ** (2.0 / 3.0) + 10.0)
+    # max(r, 1)^(2/3) as a cube root of the square (cheaper than a power)
+    m_v, m_c = np.maximum(r_v, 1.0), np.maximum(r_c, 1.0)
+    lo = -(np.log(m_v) + 2.0 * np.cbrt(m_v * m_v) + 10.0)
     if gap_kt is None:
         gap_kt = bands.band_gap / bands.kt
-    hi = (gap_kt + np.maximum(np.log(r_c), 0.0)
-          + 2.0 * np.maximum(r_c, 1.0) ** (2.0 / 3.0) + 10.0)
+    hi = gap_kt + np.log(m_c) + 2.0 * np.cbrt(m_c * m_c) + 10.0
     return lo, hi

@@ -67,6 +67,16 @@ def iteration_cap(width, tolerance: float) -> int:
     return NEWTON_ITERATIONS + halvings + 2
 
 
+def _resolution(magnitude: np.ndarray, tolerance: float):
+    """max(tolerance, 8 units in the last place of ``magnitude``), elementwise.
+
+    The tolerance alone (a number) when it exceeds 8 ulp of the largest magnitude.
+    """
+    if magnitude.size == 0 or 8.0 * np.spacing(float(magnitude.max())) <= tolerance:
+        return tolerance
+    return np.maximum(tolerance, 8.0 * np.spacing(magnitude))
+
+
 def solve_decreasing(
     evaluate: Callable[[np.ndarray], tuple],
     lo: np.ndarray,
@@ -121,14 +131,13 @@ def solve_decreasing(
         # converged: balance exact to rounding, or the Newton step below the tolerance or
         # below the floating-point resolution of u itself
         done = ((np.abs(h) <= EXACT_RESIDUAL)
-                | (np.abs(newton) <= np.maximum(tolerance, 8.0 * np.spacing(np.abs(u)))))
+                | (np.abs(newton) <= _resolution(np.abs(u), tolerance)))
         late = iterations >= STEP_TEST_FROM
         if late:
             lo = np.where(h > 0, u, lo)
             hi = np.where(h < 0, u, hi)
             # or the bracket itself below the tolerance (what ends a bisection)
-            done |= hi - lo <= np.maximum(tolerance, 8.0 * np.spacing(
-                np.maximum(np.abs(lo), np.abs(hi))))
+            done |= hi - lo <= _resolution(np.maximum(np.abs(lo), np.abs(hi)), tolerance)
         if done.all():
             return u, out, iterations
         if not np.isfinite(h).all():
