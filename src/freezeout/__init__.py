@@ -10,7 +10,7 @@ from freezeout._version import __version__
 #: The calls re-exported here (the API has more: ``freezeout.api``).
 _API_NAMES = frozenset({
     "fit_arrays", "fit_file", "fit_table", "history", "list_materials", "load_material",
-    "load_run", "qualify_lot", "reduce_file", "simulate",
+    "load_run", "plan_temperatures", "qualify_lot", "reduce_file", "simulate",
 })
 
 
@@ -31,4 +31,5 @@ def __dir__() -> list[str]:
 
 
 __all__ = ["__version__", "fit_arrays", "fit_file", "fit_table", "history", "list_materials",
-           "load_material", "load_run", "qualify_lot", "reduce_file", "simulate"]
+           "load_material", "load_run", "plan_temperatures", "qualify_lot", "reduce_file",
+           "simulate"]

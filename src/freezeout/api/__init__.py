@@ -19,6 +19,7 @@ _FITS = frozenset({
 _GUARD = frozenset({"refuse_overwrite", "same_file", "sqlite_file"})
 _HISTORY = frozenset({"HistoryResult", "history", "parse_since", "trend_file_name"})
 _MATERIALS = frozenset({"list_materials", "load_material"})
+_PLAN = frozenset({"PLAN_FILES", "PlanResult", "plan_csv", "plan_temperatures", "write_plan"})
 _QUALIFICATION = frozenset({
     "EXIT_CODES", "QualificationOutcome", "build_qualification", "default_lot_folder",
     "lot_options", "qualify_lot"
@@ -59,6 +60,10 @@ def __getattr__(name: str):
         import freezeout.api.materials  # noqa: F401  (the module, taken from sys.modules)
 
         module = sys.modules["freezeout.api.materials"]
+    elif name in _PLAN:
+        import freezeout.api.plan  # noqa: F401  (the module, taken from sys.modules)
+
+        module = sys.modules["freezeout.api.plan"]
     elif name in _QUALIFICATION:
         import freezeout.api.qualification  # noqa: F401  (the module, taken from sys.modules)
 
@@ -100,6 +105,7 @@ __all__ = [
     "fit_arrays", "fit_file", "fit_report_outputs", "fit_table", "history", "is_raw_file",
     "list_materials", "load_material", "load_run", "lot_options", "measure_wafer",
     "parameters_frame", "parse_since", "qualify_lot", "record_fit", "reduce_file",
-    "reduce_raw_file", "refuse_overwrite", "same_file", "simulate", "simulation_csv",
+    "reduce_raw_file", "refuse_overwrite", "PLAN_FILES", "PlanResult", "plan_csv",
+    "plan_temperatures", "write_plan", "same_file", "simulate", "simulation_csv",
     "sqlite_file", "trend_file_name", "write_fit_report", "write_simulation_csv",
 ]

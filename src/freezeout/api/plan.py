@@ -14,15 +14,12 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from freezeout.api.materials import load_material
 from freezeout.api.plan_inputs import PlanModel, model_from_fit_json, model_from_levels
 from freezeout.api.simulation import MAX_TEMPERATURE_K, check_statistics
 from freezeout.errors import InputError
-
-if TYPE_CHECKING:
-    import numpy as np
 
 #: Schema of the plan JSON (bump when it changes shape).
 PLAN_SCHEMA_VERSION = 1

@@ -18,6 +18,7 @@ from freezeout.cli import (
     fit_cmd,
     history_cmd,
     materials_cmd,
+    plan_cmd,
     qualify_cmd,
     reduce_cmd,
     simulate_cmd,
@@ -58,6 +59,7 @@ app.command("materials", help=materials_cmd.HELP)(materials_cmd.materials_comman
 app.command("reduce", help=reduce_cmd.HELP)(reduce_cmd.reduce_command)
 app.command("qualify", help=qualify_cmd.HELP)(qualify_cmd.qualify_command)
 app.command("history", help=history_cmd.HELP)(history_cmd.history_command)
+app.command("plan", help=plan_cmd.HELP)(plan_cmd.plan_command)
 
 
 def main() -> None:

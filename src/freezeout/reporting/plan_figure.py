@@ -1,5 +1,7 @@
-"""The run-plan figure: the model n(T) with the proposed and the even plan's temperatures,
-and the sensitivities d ln n / d theta of the target parameters below, against 1000/T.
+"""The run-plan figure: the model n(T), the two plans' points, the target sensitivities.
+
+The model n(T) with the proposed and the even plan's temperatures on top, and the
+sensitivities d ln n / d theta of the target parameters below, against 1000/T.
 
 A plan's points are where the sensitivities are large and unlike each other; the figure
 shows both so a reader can see why the plan put its points where it did. Several proposed
@@ -101,8 +103,7 @@ def plan_figure(temperature, density, proposed, proposed_density, even, even_den
         _temperature_axis(top, lo, hi)
 
         width = 0.012 * (hi - lo)
-        for row, (pts, colour, name) in enumerate(((xp, PROPOSED, "proposed"),
-                                                   (xe, MUTED, "even"))):
+        for row, (pts, colour) in enumerate(((xp, PROPOSED), (xe, MUTED))):
             yrow = 1.0 - row
             strip.vlines(pts, yrow - 0.3, yrow + 0.3, color=colour, lw=1.6)
             for pos, count in _clusters(pts, width):
