@@ -253,6 +253,10 @@ class FitResult:
         The level spectrum of the run's density without a fit
         (:class:`freezeout.fitting.spectroscopy.LevelSpectrum`), or None; in the JSON under
         ``spectroscopy``.
+    posterior
+        The sampled posterior of the density fit's parameters
+        (:class:`freezeout.fitting.posterior.Posterior`: medians, 95 % credible intervals,
+        the chain's statistics), or None; in the JSON under ``posterior``.
     """
 
     carrier: str
@@ -283,6 +287,7 @@ class FitResult:
     two_carrier: Any = None
     model_selection: Any = None
     spectroscopy: Any = None
+    posterior: Any = None
 
     def _ln_residual(self) -> np.ndarray:
         """ln(model) - ln(measured) at the points used, in temperature order."""
@@ -373,4 +378,6 @@ class FitResult:
             out["model_selection"] = self.model_selection.to_dict()
         if self.spectroscopy is not None:
             out["spectroscopy"] = self.spectroscopy.to_dict()
+        if self.posterior is not None:
+            out["posterior"] = self.posterior.to_dict()
         return out
