@@ -39,6 +39,9 @@ def fit_file(
     lattice_mu300: float | None = None,
     lattice_exponent: float | None = None,
     carriers: str = "majority",
+    posterior: bool = False,
+    posterior_steps: int | None = None,
+    posterior_progress=None,
 ) -> FitResult:
     """Read a run, fit it and return the :class:`~freezeout.fitting.result.FitResult`.
 
@@ -85,6 +88,11 @@ def fit_file(
         R_H(T) and rho(T) with electrons and holes, mixed-conduction points included
         (:func:`freezeout.fitting.two_carrier.fit_run_two_carrier`; mechanisms from
         ``mobility``, default ``lattice+brooks-herring``).
+    posterior, posterior_steps, posterior_progress
+        Sample the density fit's posterior with an ensemble MCMC
+        (:func:`freezeout.fitting.posterior.sample_posterior`; needs the ``posterior`` extra),
+        ``posterior_steps`` steps per walker (default its ``DEFAULT_STEPS``), calling
+        ``posterior_progress(done, total)`` after every step; the result carries ``posterior``.
     """
     check_statistics(statistics)
     run = load_run(path, hall_factor=reader_hall_factor(hall_factor, mobility),
@@ -96,7 +104,9 @@ def fit_file(
                           degeneracy=degeneracy, fix=fix, bounds=bounds,
                           include_mixed=include_mixed, include_flagged=include_flagged,
                           mobility=mobility, lattice_mu300=lattice_mu300,
-                          lattice_exponent=lattice_exponent, carriers=carriers)
+                          lattice_exponent=lattice_exponent, carriers=carriers,
+                          posterior=posterior, posterior_steps=posterior_steps,
+                          posterior_progress=posterior_progress)
 
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
@@ -111,7 +121,8 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    where: str = "the file", mobility: Sequence[str] | str = (),
                    lattice_mu300: float | None = None,
                    lattice_exponent: float | None = None,
-                   carriers: str = "majority") -> FitResult:
+                   carriers: str = "majority", posterior: bool = False,
+                   posterior_steps: int | None = None, posterior_progress=None) -> FitResult:
     """Fit a run record with the options and provenance of :func:`fit_file`.
 
     ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
@@ -137,6 +148,11 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     statistics = check_statistics(statistics)
     carriers = check_carriers(carriers)
     donors, acceptors = level_count(donors, "--donors"), level_count(acceptors, "--acceptors")
+    if posterior:  # refused before any fit: a joint/two-carrier fit, bad steps, no emcee
+        from freezeout.fitting import posterior as mcmc
+
+        posterior_steps = mcmc.DEFAULT_STEPS if posterior_steps is None else posterior_steps
+        mcmc.check_request(carriers, mobility, posterior_steps)
     if carriers == "both" and not mobility:
         mobility = "lattice+brooks-herring"
     models = ()
@@ -161,6 +177,9 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                "include_mixed": include_mixed, "include_flagged": include_flagged}
     if carriers == "both":
         options["carriers"] = "both"
+    if posterior:
+        options["posterior"] = {"steps": posterior_steps, "walkers": mcmc.DEFAULT_WALKERS,
+                                "seed": 0}
     if models:
         options["mobility"] = {"models": list(models), "lattice_mu300_start": lattice_mu300,
                                "lattice_exponent_start": lattice_exponent,
@@ -204,6 +223,9 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         from freezeout.fitting.spectroscopy import fit_spectrum
 
         result = replace(result, spectroscopy=fit_spectrum(result, degeneracy=degeneracy))
+    if posterior:
+        result = replace(result, posterior=mcmc.sample_posterior(
+            result, run, steps=posterior_steps, progress=posterior_progress))
     return result
 
 

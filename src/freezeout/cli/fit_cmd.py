@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import sys
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated
 
@@ -87,6 +89,13 @@ def fit_command(
         "--no-history", help="Do not store the fit in the history database.")] = False,
     svg: Annotated[bool, typer.Option(
         "--svg", help="Also write every figure as SVG beside its PNG.")] = False,
+    posterior: Annotated[bool, typer.Option(
+        "--posterior", help="Sample the density fit's parameters with an ensemble MCMC "
+        "(emcee: pip install freezeout[posterior]) and report medians and 95 % credible "
+        "intervals beside the fit's; not with --mobility or --carriers both.")] = False,
+    posterior_steps: Annotated[int | None, typer.Option(
+        "--posterior-steps", metavar="N", help="Steps per walker of --posterior (64 "
+        "walkers; default 1000).")] = None,
 ) -> int:
     """Fit a run; see HELP."""
     fixes = {k: parse_number(v, f"--fix {k}") for k, v in
@@ -117,7 +126,64 @@ def fit_command(
                    include_flagged=include_flagged, thickness=thickness,
                    mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent,
                    carriers=carriers)
-    runs = list(run)
+    if posterior or posterior_steps is not None:
+        if not posterior:
+            raise InputError("--posterior-steps needs --posterior")
+        options.update(posterior=True, posterior_steps=posterior_steps)
+    with _posterior_bar(posterior and not json_output) as bar:
+        if posterior:
+            options["posterior_progress"] = bar
+        return _fit_runs(list(run), out, json_output, svg, db, no_history, material_file,
+                         options)
+
+
+@contextmanager
+def _posterior_bar(show: bool):
+    """A progress(done, total) callback drawing the sampler's bar on a terminal's stderr.
+
+    The bar is live only while a chain runs (it starts at a chain's first step and goes at
+    its last, or when the command ends), so the summary prints on a clean terminal.
+    """
+    from rich.console import Console
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeElapsedColumn,
+        TimeRemainingColumn,
+    )
+
+    live: list = []
+    show = show and sys.stderr.isatty()
+
+    def stop() -> None:
+        while live:
+            live.pop().stop()
+
+    def progress(done: int, total: int) -> None:
+        if not show:
+            return
+        if not live:
+            bar = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+                           TimeElapsedColumn(), TimeRemainingColumn(),
+                           console=Console(stderr=True), transient=True)
+            bar.add_task("sampling the posterior (Ctrl-C keeps what is sampled)", total=total)
+            bar.start()
+            live.append(bar)
+        live[0].update(live[0].task_ids[0], total=total, completed=done)
+        if done >= total:
+            stop()
+
+    try:
+        yield progress
+    finally:
+        stop()
+
+
+def _fit_runs(runs: list[Path], out, json_output: bool, svg: bool, db, no_history: bool,
+              material_file, options: dict) -> int:
+    """Fit one run or several with the same options, report and print them."""
     if len(runs) == 1:
         result = _fit_one(runs[0], out, json_output, svg, db, no_history, options)
         if json_output:
@@ -218,6 +284,7 @@ def _print_summary(result, written) -> None:
             row("Hall sign reversal", rev, "K")
     show(con, table)
     _print_selection(con, d.get("model_selection"))
+    _print_posterior(con, d.get("posterior"))
     two = d.get("two_carrier")
     if two is not None:
         say(con, f"two-carrier fit of R_H and rho: chi^2 = {num(two['chi2'])} over "
@@ -253,3 +320,31 @@ def _print_selection(con, sel: dict | None) -> None:
                       text(num(c["bic"])), text(num(c["delta_bic"], 3)), text(verdict))
     show(con, table)
     say(con, f"{sel['rule']} {sel['stop_rule']} This search: {sel['stopped']}.")
+
+
+def _print_posterior(con, post: dict | None) -> None:
+    """Posterior medians and 95 % credible intervals beside the fit's, and the chain."""
+    if post is None:
+        return
+    from rich.table import Table
+    from rich.text import Text
+
+    table = Table(title=text("posterior (MCMC): median and 95 % credible interval"),
+                  title_justify="left")
+    for col in ("parameter", "median", "95 % credible", "fit 95 % interval"):
+        table.add_column(col, justify="left" if col == "parameter" else "right")
+
+    def span(ci) -> str:
+        return "—" if ci[0] is None else f"{num(ci[0])} … {num(ci[1])}"
+
+    for name, q in post["parameters"].items():
+        fit = q["fit"]
+        table.add_row(text(name), text(f"{num(q['median'])} {q['unit']}".rstrip()),
+                      text(span(q["ci95"])), text(f"{span(fit['ci95'])} ({fit['method']})"))
+    show(con, table)
+    tau = ", ".join(f"{k} {num(v, 3)}" for k, v in post["autocorr_time_steps"].items())
+    say(con, f"{post['walkers']} walkers x {post['steps']} steps, first {post['burn_in_steps']} "
+             f"discarded (burn-in: {post['burn_in_rule']}); acceptance "
+             f"{num(post['acceptance_fraction'], 2)}; autocorrelation time (steps): {tau}")
+    for note in post["notes"]:
+        say(con, Text.assemble(("posterior: ", "yellow"), clean(note)))
