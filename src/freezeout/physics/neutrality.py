@@ -34,7 +34,7 @@ from scipy.special import expit
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.fermi import log_fermi_dirac_half_ratio
 from freezeout.physics.materials import Material
-from freezeout.physics.neutrality_terms import fermi_bracket, level_terms
+from freezeout.physics.neutrality_terms import fermi_bracket, level_terms, log_sum, softplus
 from freezeout.physics.safeguarded_newton import iteration_cap, solve_decreasing
 
 STATISTICS = ("fermi-dirac", "boltzmann")
@@ -214,38 +214,16 @@ def acceptor_ionized_fraction(fermi_level, acceptor_level, kt,
 
 def _log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray]:
     """ln F_1/2(eta) and d ln F_1/2 / d eta = F_-1/2/F_1/2."""
-    if not fermi_dirac:
+    if not fermi_dirac or float(eta.max()) <= -39.2:
+        # Boltzmann, or so far below the band that the first term of the series is exact
+        # to 1e-17 (what log_fermi_dirac_half_ratio returns there)
         return eta, 1.0
     return log_fermi_dirac_half_ratio(eta)
 
 
-def _softplus(x: np.ndarray) -> np.ndarray:
-    """ln(1 + e^x), without overflow: max(x, 0) + ln(1 + e^-|x|). [1]"""
-    return np.maximum(x, 0.0) + np.log1p(np.exp(-np.abs(x)))
-
-
-def _log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
-    """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
-
-    ``const`` is one more term of slope 0, or None. The largest term is taken out first,
-    so nothing overflows.
-    """
-    if const is None and len(terms) == 1:
-        return terms[0]
-    top = terms[0][0]
-    for t, _ in terms[1:]:
-        top = np.maximum(top, t)
-    if const is not None:
-        top = np.maximum(top, const)
-    total = 0.0
-    moment = 0.0
-    for t, s in terms:
-        w = np.exp(t - top)
-        total = total + w
-        moment = moment + w * s
-    if const is not None:
-        total = total + np.exp(const - top)
-    return top + np.log(total), moment / total
+def _on_shape(a: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
+    """``a`` broadcast to ``shape`` (itself when it has that shape already)."""
+    return a if a.shape == shape else np.broadcast_to(a, shape)
 
 
 def iteration_bound(bands: BandState, donors: Sequence[DopantLevel],
@@ -346,26 +324,32 @@ def solve_levels(
         for ln_n, off in d_terms:
             # ln N_D+ = ln N - ln(1 + e^x), d/du = -expit(x), x = off + u
             x = off + u
-            soft = _softplus(x)
+            soft = softplus(x)
             soft_d.append(soft)
-            pos.append((ln_n - soft, -np.exp(x - soft)))
+            x -= soft
+            np.exp(x, out=x)
+            np.negative(x, out=x)
+            pos.append((ln_n - soft, x))
         ln_, dln = _log_band(u - gap_kt, fd)
-        ln_ = ln_ + log_nc
+        ln_ += log_nc
         neg = [(ln_, dln)]
         for ln_a, off in a_terms:
             x = off - u
-            soft = _softplus(x)
+            soft = softplus(x)
             soft_a.append(soft)
-            neg.append((ln_a - soft, np.exp(x - soft)))
-        log_pos, slope_pos = _log_sum(pos, const_pos)
-        log_neg, slope_neg = _log_sum(neg, const_neg)
+            x -= soft
+            np.exp(x, out=x)
+            neg.append((ln_a - soft, x))
+        log_pos, slope_pos = log_sum(pos, const_pos)
+        log_neg, slope_neg = log_sum(neg, const_neg)
+        # (not in place: a side of one term is that term, lp or ln_ itself)
         return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, soft_d, soft_a
 
     lo, hi = fermi_bracket(bands, terms, gap_kt)
     if initial_fermi_level is None:
-        u = np.broadcast_to(0.5 * gap_kt, shape).copy()
+        u = np.array(_on_shape(0.5 * gap_kt, shape))
     else:
-        u = np.broadcast_to(np.asarray(initial_fermi_level, dtype=float) / kt, shape).copy()
+        u = np.array(_on_shape(np.asarray(initial_fermi_level, dtype=float) / kt, shape))
     u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
         residual, lo, hi, u, tolerance, name="charge-neutrality residual")
     # ionized fractions 1 / (1 + e^x) = exp(-ln(1 + e^x)), from the last residual
@@ -378,9 +362,9 @@ def solve_levels(
     for lv in acceptors:
         acc_ion.append(np.ones(shape) if lv.energy is None else np.exp(-next(ai)))
     return NeutralityResult(
-        temperature=np.broadcast_to(bands.temperature, shape),
+        temperature=_on_shape(bands.temperature, shape),
         fermi_level=u * kt,
-        band_gap=np.broadcast_to(bands.band_gap, shape),
+        band_gap=_on_shape(bands.band_gap, shape),
         log_n=ln_,
         log_p=lp,
         donor_ionized=tuple(donor_ion),

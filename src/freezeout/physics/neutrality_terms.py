@@ -1,4 +1,6 @@
-"""The levels of a charge-neutrality solve in units of kT, and the bracket of its root.
+"""The levels of a charge-neutrality solve in units of kT, the bracket of its root, log-sums.
+
+The log-sums (:func:`log_sum`, :func:`softplus`) are those of the residual of the solve.
 
 The bracket's ends are where holes (below E_v) or electrons (above E_c) alone outnumber
 every level: the band density grows at least like eta^(3/2) past its edge [1].
@@ -117,3 +119,43 @@ def fermi_bracket(bands: BandState, terms: LevelTerms,
         gap_kt = bands.band_gap / bands.kt
     hi = gap_kt + np.log(m_c) + 2.0 * np.cbrt(m_c * m_c) + 10.0
     return lo, hi
+
+
+def softplus(x: np.ndarray) -> np.ndarray:
+    """ln(1 + e^x), without overflow: max(x, 0) + ln(1 + e^-|x|). [1]"""
+    a = np.abs(x)
+    np.negative(a, out=a)
+    np.exp(a, out=a)
+    np.log1p(a, out=a)
+    a += np.maximum(x, 0.0)
+    return a
+
+
+def log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
+    """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
+
+    ``const`` is one more term of slope 0, or None. The largest term is taken out first,
+    so nothing overflows.
+    """
+    if const is None and len(terms) == 1:
+        return terms[0]
+    top = terms[0][0]
+    for t, _ in terms[1:]:
+        top = np.maximum(top, t)
+    if const is not None:
+        top = np.maximum(top, const)
+    total = moment = None
+    for t, s in terms:
+        w = np.subtract(t, top)
+        np.exp(w, out=w)
+        if total is None:
+            total, moment = w, w * s
+        else:
+            moment += w * s
+            total += w
+    if const is not None:
+        total += np.exp(const - top)
+    moment /= total
+    np.log(total, out=total)
+    total += top
+    return total, moment

@@ -117,34 +117,40 @@ def solve_decreasing(
         If f is not finite somewhere.
     """
     u = np.clip(start, lo, hi)
-    lo0, hi0 = lo, hi  # the initial bracket, for the cap
+    # own copies of the bracket on the shape of u, narrowed in place
+    lo = np.array(lo if np.shape(lo) == u.shape else np.broadcast_to(lo, u.shape), dtype=float)
+    hi = np.array(hi if np.shape(hi) == u.shape else np.broadcast_to(hi, u.shape), dtype=float)
+    lo0, hi0 = lo.copy(), hi.copy()  # the initial bracket, for the cap
     cap = None  # worked out only if the Newton iterations run out
     step = step_before = None  # the last two steps, kept once the step test is near
     iterations = 0
     while True:
         iterations += 1
         out = evaluate(u)
-        h, slope = out[0], out[1]
+        h, slope = np.asarray(out[0]), np.asarray(out[1])
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            # a flat residual gives an infinite step: bisection takes over below
-            newton = np.where(slope < 0, -h / slope, np.inf)
+            newton = -(h / slope)
+            flat = ~(slope < 0)
+            if flat.any():
+                # a flat residual gives an infinite step: bisection takes over below
+                newton = np.where(flat, np.inf, newton)
         # converged: balance exact to rounding, or the Newton step below the tolerance or
         # below the floating-point resolution of u itself
         done = ((np.abs(h) <= EXACT_RESIDUAL)
                 | (np.abs(newton) <= _resolution(np.abs(u), tolerance)))
         late = iterations >= STEP_TEST_FROM
         if late:
-            lo = np.where(h > 0, u, lo)
-            hi = np.where(h < 0, u, hi)
+            np.copyto(lo, u, where=h > 0)
+            np.copyto(hi, u, where=h < 0)
             # or the bracket itself below the tolerance (what ends a bisection)
             done |= hi - lo <= _resolution(np.maximum(np.abs(lo), np.abs(hi)), tolerance)
         if done.all():
             return u, out, iterations
-        if not np.isfinite(h).all():
+        if not (math.isfinite(float(h.sum())) or np.isfinite(h).all()):
             raise RuntimeError(f"{name} is not finite")
         if not late:
-            lo = np.where(h > 0, u, lo)
-            hi = np.where(h < 0, u, hi)
+            np.copyto(lo, u, where=h > 0)
+            np.copyto(hi, u, where=h < 0)
         if iterations >= NEWTON_ITERATIONS:
             if cap is None:
                 cap = iteration_cap(hi0 - lo0, tolerance)
@@ -152,11 +158,12 @@ def solve_decreasing(
                 break
             nxt = 0.5 * (lo + hi)
         else:
-            new = u + newton
-            take = (new > lo) & (new < hi)
+            nxt = u + newton
+            take = (nxt > lo) & (nxt < hi)
             if late:
                 take &= np.abs(newton) <= 0.5 * np.abs(step_before)
-            nxt = np.where(take, new, 0.5 * (lo + hi))
+            if not take.all():
+                nxt = np.where(take, nxt, 0.5 * (lo + hi))
             if iterations >= STEP_TEST_FROM - 2:
                 step_before, step = step, nxt - u
         u = np.where(done, u, nxt)
