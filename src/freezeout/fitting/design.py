@@ -121,7 +121,8 @@ def criterion_values(fisher: np.ndarray, targets: np.ndarray, criterion: str) ->
             s_o, ld_o = np.linalg.slogdet(f[..., others[:, None], others[None, :]])
         else:
             s_o, ld_o = np.ones_like(sign), np.zeros_like(logdet)
-        loss = ld_o - logdet
+        with np.errstate(invalid="ignore"):  # a singular matrix: -inf - -inf
+            loss = ld_o - logdet
         bad = (sign <= 0) | (s_o <= 0) | ~np.isfinite(loss)
         return np.where(bad, np.inf, loss)
     if criterion == "A":
