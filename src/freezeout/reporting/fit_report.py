@@ -17,11 +17,12 @@ from freezeout.reporting.mobility_figure import (
     hall_factor_label,
     narrowing_html,
 )
+from freezeout.reporting.posterior_figure import posterior_html
 from freezeout.reporting.selection_figure import selection_figure, selection_html
 
 #: The figures a fit report may draw (``.png``, and ``.svg`` on request).
 FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
-                "mobility", "hall_sign", "selection", "spectroscopy")
+                "mobility", "hall_sign", "selection", "spectroscopy", "posterior")
 
 #: Every file a fit report may write into its folder (replaced as a set): the result, the
 #: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
@@ -116,6 +117,11 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
     sp = spectroscopy_figure(result)
     if sp is not None:
         drawn["spectroscopy"] = (sp, CAPTION)
+    from freezeout.reporting import posterior_figure as pf
+
+    pp = pf.posterior_figure(result)
+    if pp is not None:
+        drawn["posterior"] = (pp, pf.CAPTION)
     hs = hall_sign_figure(result)
     if hs is not None:
         drawn["hall_sign"] = (hs, "Two-carrier fit: |R_H| against temperature with its sign "
@@ -254,6 +260,7 @@ the data; plateau from the saturation points alone.</p>
 <p>χ² = {_fmt(st['chi2'])}, reduced χ² = {_fmt(st['reduced_chi2'])}, AIC = {_fmt(st['aic'])},
 BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_sentence(st)}</p>
 {selection_html(result)}
+{posterior_html(d.get("posterior"))}
 {_alternatives_html(d.get("alternatives") or [])}{narrowing_html(result)}{two_carrier_html(result)}
 <h2>Warnings</h2>{warn_html}
 <h2>Figures</h2>{''.join(figs)}
