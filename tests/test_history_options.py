@@ -107,7 +107,15 @@ def test_qualify_without_history(monkeypatch, capsys, tmp_path):
 ])
 def test_default_workers(wafers, cpus, expected):
     # spawned workers re-import the stack, so a small lot runs faster in one process
-    assert default_workers(wafers, cpus) == expected
+    assert default_workers(wafers, cpus, fork=False) == expected
+
+
+@pytest.mark.parametrize(("wafers", "cpus", "expected"), [
+    (1, 8, 1), (3, 2, 1), (4, 2, 2), (4, 8, 2), (9, 8, 4), (100, 2, 2), (1000, 1, 1),
+])
+def test_default_workers_forked(wafers, cpus, expected):
+    # forked workers start warm: a pool pays from 4 wafers on (measured, project choice)
+    assert default_workers(wafers, cpus, fork=True) == expected
 
 
 def test_history_table_shows_the_options_each_record_used(monkeypatch, capsys, tmp_path):

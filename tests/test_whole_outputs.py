@@ -281,8 +281,10 @@ def test_killing_qualify_leaves_no_worker(tmp_path):
         deadline = time.monotonic() + 40
         while time.monotonic() < deadline and parent.poll() is None:
             # the spawn start method adds a resource tracker too; workers run python as well
+            # (spawned: "spawn_main" in their command line; forked: the parent's own one)
             kids = _children(parent.pid)
-            workers = [k for k in kids if "spawn_main" in _cmdline(k)]
+            own = _cmdline(parent.pid)
+            workers = [k for k in kids if "spawn_main" in _cmdline(k) or _cmdline(k) == own]
             if len(workers) >= 2:
                 break
             time.sleep(0.05)
