@@ -267,13 +267,13 @@ def test_lot_hall_factor_is_passed_to_the_fit_only_when_stated(monkeypatch, caps
     from freezeout.api import fits
 
     seen = []
-    real = fits.fit_file
+    real = fits.fit_run_record  # what a wafer's measurement calls on its loaded run
 
     def recording(*args, **kwargs):
         seen.append(kwargs)
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(fits, "fit_file", recording)
+    monkeypatch.setattr(fits, "fit_run_record", recording)
     shutil.copy(SAMPLE_RUN, tmp_path / "w.csv")
     lot = write_lot(tmp_path, N_CLAIMS, [("F1", "Si", "w.csv")])
     code, out, err = cli(monkeypatch, capsys, "qualify", lot, "--json", "--workers", 1)
