@@ -60,7 +60,10 @@ def claim_axes(verdict: LotVerdict, claim_key: str, ax=None):
     (shape and colour, see :data:`VERDICT_STYLE`), which is also written under the wafer id.
     The specification is the shaded band (to the edge of the plot for a one-sided claim),
     the nominal value a dashed line. Net doping is drawn on a log axis, resistivity on a log
-    axis when the values span more than a factor of 10.
+    axis when the values span more than a factor of 10. A lot of more than
+    :data:`~freezeout.reporting.lot_summary_figure.MAX_WAFERS_DRAWN` wafers is drawn in
+    groups of consecutive wafers instead, one box each, at one figure size whatever the
+    count (:func:`~freezeout.reporting.lot_summary_figure.summary_axes`).
 
     Parameters
     ----------
@@ -109,6 +112,19 @@ def claim_axes(verdict: LotVerdict, claim_key: str, ax=None):
     log = quantity == "net_doping" or (
         len(positive) > 1 and max(positive) / min(positive) > 10.0)
 
+    from freezeout.reporting.lot_summary_figure import MAX_WAFERS_DRAWN, summary_axes
+
+    temp = finite_or_none(first.temperature_K)
+    where = f" at {temp:g} K" if temp is not None and quantity == "resistivity" else ""
+    title = f"{claim_key}: {quantity.replace('_', ' ')}{where}"
+    ylabel = f"{_QUANTITY_LABEL.get(quantity, quantity)} [{unit_label(unit)}]"
+    if n > MAX_WAFERS_DRAWN:  # a large lot: groups of wafers, a chart of one size
+        return summary_axes(
+            entries, log=log, styles=VERDICT_STYLE, window=(lower, upper, nominal),
+            labels={"window": f"specification {_window_words(lower, upper, unit)}",
+                    "nominal": None if nominal is None
+                    else f"nominal {nominal:.4g} {unit_label(unit)}",
+                    "k": f"{k:g}", "ylabel": ylabel, "title": title}, ax=ax)
     size = (max(7.6, 3.6 + 0.55 * n), 4.6)
     with plt.rc_context(STYLE):
         ax = new_axes(ax, size)
@@ -172,10 +188,8 @@ def claim_axes(verdict: LotVerdict, claim_key: str, ax=None):
         ax.set_xlim(-0.6, n - 0.4)
         ax.grid(axis="x", visible=False)
         ax.set_xlabel("wafer")
-        ax.set_ylabel(f"{_QUANTITY_LABEL.get(quantity, quantity)} [{unit_label(unit)}]")
-        temp = finite_or_none(first.temperature_K)
-        where = f" at {temp:g} K" if temp is not None and quantity == "resistivity" else ""
-        ax.set_title(f"{claim_key}: {quantity.replace('_', ' ')}{where}", loc="left")
+        ax.set_ylabel(ylabel)
+        ax.set_title(title, loc="left")
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.26), ncols=4,
                   borderaxespad=0.0)
         return ax

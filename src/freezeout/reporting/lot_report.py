@@ -160,6 +160,7 @@ def lot_figures(qualification: LotQualification) -> dict[str, tuple[bytes, str]]
     """One chart per claim with a specification window: file name -> (PNG bytes, caption)."""
     from freezeout.reporting import lot_figures as lf
     from freezeout.reporting.figures import png_bytes
+    from freezeout.reporting.lot_summary_figure import MAX_WAFERS_DRAWN
 
     verdict = qualification.verdict
     out = {}
@@ -167,10 +168,20 @@ def lot_figures(qualification: LotQualification) -> dict[str, tuple[bytes, str]]
         ax = lf.claim_axes(verdict, key)
         quantity = ax.get_title(loc="left").split(": ", 1)[-1]
         k = _g(verdict.coverage_factor)
-        caption = (f"{key}, {quantity}: measured value per wafer with its expanded "
-                   f"uncertainty ±U (k = {k}, thin bars with caps) and standard uncertainty "
-                   "±u (thick bars), against the specification window (shaded). Marker shape "
-                   "and the word under each wafer give its verdict on this claim.")
+        if len(lf.claim_entries(verdict, key)) > MAX_WAFERS_DRAWN:
+            caption = (f"{key}, {quantity}: the wafers in groups of consecutive wafers, lot "
+                       "order; per group a box from the lower to the upper quartile of the "
+                       "measured values with the median, whiskers to the minimum and maximum, "
+                       f"and beside it the group's median ± its median U (k = {k}); every "
+                       "indeterminate or rejected wafer drawn on its own by its verdict's "
+                       "marker; under each group its counts of accepted, indeterminate and "
+                       "rejected wafers. The specification window is shaded.")
+        else:
+            caption = (f"{key}, {quantity}: measured value per wafer with its expanded "
+                       f"uncertainty ±U (k = {k}, thin bars with caps) and standard "
+                       "uncertainty ±u (thick bars), against the specification window "
+                       "(shaded). Marker shape and the word under each wafer give its "
+                       "verdict on this claim.")
         out[chart_file_name(key)] = (png_bytes(ax), caption)
         ax.figure.clear()
     return out

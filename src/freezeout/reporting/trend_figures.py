@@ -50,7 +50,9 @@ def trend_axes(points: Sequence[TrendPoint], supplier: str, ax=None):
     measured/claimed over the lot's wafers and the bar spans their minimum to maximum; the
     claimed value is the nominal, else the middle of the window, else its one limit. The
     specification window over the claimed value is a band behind each lot's points, and the
-    ratio 1 a line.
+    ratio 1 a line. More than
+    :data:`~freezeout.reporting.trend_summary_figure.MAX_LOTS_DRAWN` lots are drawn in
+    groups of consecutive lots, a box each, at one figure size whatever the count.
 
     Parameters
     ----------
@@ -74,16 +76,19 @@ def trend_axes(points: Sequence[TrendPoint], supplier: str, ax=None):
     """
     if not points:
         raise ValueError(f"no trend points for supplier {supplier!r}")
-    lots: list[tuple[str, str]] = []
-    for p in sorted(points, key=lambda p: (_date_text(p), str(p.lot))):
-        key = (_date_text(p), str(p.lot))
-        if key not in lots:
-            lots.append(key)
+    lots = list(dict.fromkeys(sorted((_date_text(p), str(p.lot)) for p in points)))
     xpos = {lot: i for i, (_, lot) in enumerate(lots)}
     series: dict[tuple[str, float | None], list[TrendPoint]] = {}
     for p in points:
         series.setdefault(_series_key(p), []).append(p)
     keys = sorted(series, key=lambda k: (k[0], k[1] or 0.0))
+    from freezeout.reporting.trend_summary_figure import MAX_LOTS_DRAWN, trend_summary_axes
+
+    if len(lots) > MAX_LOTS_DRAWN:  # many lots: groups of lots, a figure of one size
+        return trend_summary_axes(lots, series, keys, _SERIES_COLOURS,
+                                  lambda k: _series_label(k, None),
+                                  {str(p.lot): str(p.lot_verdict) for p in points},
+                                  supplier, ax=ax)
     width = 0.7 / max(len(keys), 1)
     n = len(lots)
     size = (max(7.6, 3.8 + 0.8 * n), 5.0)
