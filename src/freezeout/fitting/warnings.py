@@ -153,7 +153,8 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
         w.append(f"two-carrier conduction: from {t_mixed.min():g} K the model's minority "
                  f"carriers exceed 1 % of the majority (up to {worst:.2g} %); a single-carrier "
                  "Hall density is biased there by the unknown mobility ratio, even before the "
-                 "Hall coefficient changes sign")
+                 "Hall coefficient changes sign (--carriers both fits R_H and rho with both "
+                 "carriers)")
     if (z is not None and z < RUNS_Z_LIMIT
             and misfit_significant(weighted, out.chisqr, out.nfree, rms)):
         runs = f"the residuals are systematic (runs test z = {z:.1f}: too few changes of sign)"
