@@ -87,17 +87,13 @@ def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: 
                 ax.axhline(lim, color=MUTED, lw=1.0)
         if nominal is not None:
             ax.axhline(nominal, color=MUTED, lw=1.0, ls="--", label=labels["nominal"])
-        ticks, seen = [], set()
+        ticks, seen, boxes, places = [], set(), [], []
         for gi, g in enumerate(groups):
             idx = np.array(list(g))
             vals = y[idx][ok[idx]]
             if vals.size:
-                ax.boxplot([vals], positions=[gi], widths=0.5, whis=(0, 100),
-                           showfliers=False, patch_artist=True, manage_ticks=False,
-                           boxprops={"facecolor": "white", "edgecolor": INK, "lw": 1.0},
-                           medianprops={"color": INK, "lw": 1.6},
-                           whiskerprops={"color": INK, "lw": 1.0},
-                           capprops={"color": INK, "lw": 1.0}, zorder=3)
+                boxes.append(vals)
+                places.append(gi)
                 us = big_u[idx][ok[idx] & np.isfinite(big_u[idx])]
                 if us.size:
                     med, mu = float(np.median(vals)), float(np.median(us))
@@ -123,6 +119,13 @@ def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: 
             tail = f"\n{missing} no value" if missing else ""
             ticks.append(f"{entries[g.start][0]}\n–{entries[g.stop - 1][0]}\n"
                          f"{counts[0]}·{counts[1]}·{counts[2]}{tail}")
+        if boxes:  # one call for every group's box
+            ax.boxplot(boxes, positions=places, widths=0.5, whis=(0, 100),
+                       showfliers=False, patch_artist=True, manage_ticks=False,
+                       boxprops={"facecolor": "white", "edgecolor": INK, "lw": 1.0},
+                       medianprops={"color": INK, "lw": 1.6},
+                       whiskerprops={"color": INK, "lw": 1.0},
+                       capprops={"color": INK, "lw": 1.0}, zorder=3)
         ax.set_xticks(range(len(groups)), ticks, fontsize=7)
         ax.set_xlim(-0.6, len(groups) - 0.4)
         ax.grid(axis="x", visible=False)

@@ -182,9 +182,51 @@ class Store:
         fit_rows = [fit_row(f) for f in fits]
         row = lot_row(qualification)
         with self.engine.begin() as conn:
-            fits_new = sum(self._insert_once(conn, fit_records, r).created for r in fit_rows)
+            fits_new = len(self._insert_many(conn, fit_records, fit_rows))
             lot = self._insert_lot(conn, qualification, row)
         return QualificationSaved(lot, fits_new)
+
+    @staticmethod
+    def _insert_many(conn: Connection, table: Table, rows: list[dict]) -> dict:
+        """Insert rows not stored yet in one batched statement: (sha, options hash) -> new id."""
+        if not rows:
+            return {}
+        dialect = _pg if conn.dialect.name == "postgresql" else _sqlite
+        stmt = (dialect.insert(table)
+                .on_conflict_do_nothing(index_elements=["input_sha256", "options_hash"])
+                .returning(table.c.id, table.c.input_sha256, table.c.options_hash))
+        return {(r.input_sha256, r.options_hash): int(r.id)
+                for r in conn.execute(stmt, rows)}
+
+    def save_lots(self, qualifications: Iterable[LotQualification]) -> list[SaveOutcome]:
+        """Store many lot qualifications in one transaction, in batched inserts.
+
+        Each is stored once, as by :meth:`save_lot`; the lot rows go in one batched insert,
+        their claim rows in another: all are written or (on any failure) none. Returns one
+        SaveOutcome per qualification, in order.
+        """
+        qs = list(qualifications)
+        rows = [lot_row(q) for q in qs]
+        keys = [(r["input_sha256"], r["options_hash"]) for r in rows]
+        with self.engine.begin() as conn:
+            new = self._insert_many(conn, lot_records, rows)
+            first = {k: q for q, k in reversed(list(zip(qs, keys, strict=True)))}
+            claims = [c for k, q in first.items() if k in new
+                      for c in claim_rows(q.verdict, new[k])]
+            if claims:
+                conn.execute(claim_records.insert(), claims)
+            old = {}
+            for k in dict.fromkeys(k for k in keys if k not in new):
+                old[k] = conn.execute(select(lot_records.c.id).where(
+                    lot_records.c.input_sha256 == k[0],
+                    lot_records.c.options_hash == k[1])).scalar_one()
+        seen: set = set()
+        out = []
+        for k in keys:  # a lot given twice is new the first time only
+            created = k in new and k not in seen
+            seen.add(k)
+            out.append(SaveOutcome(new[k] if k in new else old[k], created))
+        return out
 
     # -- reading ---------------------------------------------------------------------------
 
@@ -326,8 +368,6 @@ class Store:
                 lot_verdict=first["verdict"], lot_record_id=rid))
         out.sort(key=lambda p: (p.lot_date, p.lot, p.quantity, p.temperature_K or 0.0))
         return out
-
-
 
 
 def open_store(url: str | None = None) -> Store:
