@@ -71,8 +71,9 @@ def test_reads_as_p_type_with_one_hall_sign_change():
     # the sign at the cold end is our convention (Al-doped: p-type when cold; the contact
     # orientation is not stated by the authors); the sign change itself is measured
     t0 = _sign_change(run)
-    # measured here: 273.6 K (between the cycles at 271.3 K and 276.1 K); the brief's window
-    # is 250-320 K (intrinsic electrons of Ge overtaking the holes, common practice, no source)
+    # measured here: 273.6 K (between the cycles at 271.3 K and 276.1 K); a window of
+    # 250-320 K for intrinsic electrons of Ge overtaking the holes of a lightly doped sample
+    # (project choice, no source)
     assert 250.0 < t0 < 320.0
     hot = run.temperature > t0
     assert all(c == "n" for c, h in zip(run.point_carrier, hot, strict=True) if h)

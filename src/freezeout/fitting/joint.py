@@ -45,7 +45,6 @@ from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, internal_op
 from freezeout.fitting.problem import Problem
 from freezeout.fitting.result import FitResult
 from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
-from freezeout.physics.neutrality import BandState, solve_levels
 from freezeout.records.run import RunData
 
 _LATTICE_BOUNDS = {"log10_mu300": (0.0, 6.0), "lattice_exponent": (0.0, 5.0)}
@@ -172,11 +171,8 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
             ln_n, ln_mu, _ = series(values)
         except (RuntimeError, ValueError, FloatingPointError):
             return np.full(y_n.size + y_mu.size, 1e6)
-        r = np.concatenate([(ln_n - y_n) / sig_n, (ln_mu[m_ok] - y_mu) / sig_mu])
-        penalty = problem.type_penalty(values)
-        if penalty > 0:
-            r = r + 1e3 * penalty * np.sign(r + 1e-300)
-        return np.where(np.isfinite(r), r, 1e6)
+        return problem.guarded(np.concatenate([(ln_n - y_n) / sig_n,
+                                               (ln_mu[m_ok] - y_mu) / sig_mu]), values)
 
     def jacobian(x, sig_n, sig_mu):
         # central differences of every parameter in one batch solve (2 p rows), warm-started
@@ -184,14 +180,8 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
         h = 1e-5 * np.maximum(np.abs(x), 1e-2)
         rows = np.concatenate([x + np.diag(h), x - np.diag(h)])
         values = {**fixed, **{k: rows[:, i:i + 1] for i, k in enumerate(free)}}
-        warm = model.warm_fermi
-        init = None if warm is None else np.broadcast_to(warm, (rows.shape[0], warm.size))
-        donors, acceptors = model.levels(values)
-        bands = model.bands
-        bb = BandState(bands.temperature[None, :], bands.kt[None, :], bands.band_gap[None, :],
-                       bands.log_nc[None, :], bands.log_nv[None, :])
         try:
-            res = solve_levels(bb, donors, acceptors, model.statistics, init)
+            res = model.solve_rows(values)
             ln_n, ln_mu, _ = model_series(model, values, res, models, hall_factor,
                                           run.hall_factor)
         except (RuntimeError, ValueError, FloatingPointError):

@@ -13,7 +13,6 @@ import math
 from dataclasses import replace
 
 import numpy as np
-from scipy import stats
 
 from freezeout.fitting.mobility_model import (
     MobilityFit,
@@ -22,8 +21,8 @@ from freezeout.fitting.mobility_model import (
     model_series,
 )
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.result import FitResult, LevelEstimate
-from freezeout.fitting.wald import net_and_ratio, parameter_estimate, with_common_scale
+from freezeout.fitting.result import FitResult
+from freezeout.fitting.wald import RefitEstimates
 from freezeout.fitting.warnings import kept_after_refit
 
 _LN10 = math.log(10.0)
@@ -55,23 +54,11 @@ def build_result(run, base: FitResult, model: CarrierModel, free, fixed, out, se
     except np.linalg.LinAlgError:
         cov = np.full((x.size, x.size), np.nan)
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    t_q = float(stats.t.ppf(0.975, dof))
-    idx = {k: i for i, k in enumerate(free)}
-    values = {**fixed, **dict(zip(free, x, strict=True))}
-
     # the thickness scales n and leaves mu_H = R_H / rho alone: it moves the concentrations
-    common = float(run.scale_uncertainty)
-
-    def est(name):
-        return parameter_estimate(name, values, idx, x, se, t_q, (lo, hi), common)
-
-    levels = []
-    for lv in base.levels:
-        energy = None if lv.energy is None else est(f"E_{lv.name}")
-        levels.append(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"), energy, lv.degeneracy,
-                                    lv.name))
-    net, comp = net_and_ratio(model, values, idx, cov, t_q)
-    net = with_common_scale(net, common, t_q)
+    sol = RefitEstimates(tuple(free), fixed, x, se, dof, (lo, hi), float(run.scale_uncertainty))
+    values, est = sol.values, sol.estimate
+    levels = sol.levels(base.levels)
+    net, comp = sol.net_and_ratio(model, cov)
     ln_n, ln_mu, cm = series(values)
     d = np.sqrt(np.maximum(np.diag(cov), 1e-300))
     corr = cov / np.outer(d, d)

@@ -55,7 +55,15 @@ class Problem:
             ln_model = self.model.log_density(values)
         except (RuntimeError, ValueError, FloatingPointError):
             return np.full(self.y.shape, 1e6)
-        r = (ln_model - self.y) / self.sigma
+        return self.guarded((ln_model - self.y) / self.sigma, values)
+
+    def guarded(self, r, values: dict) -> np.ndarray:
+        """Residuals ``r`` of ``values`` with the carrier-type penalty added, non-finite -> 1e6.
+
+        Shared by every least-squares problem built on this model (the density fit, the
+        joint and the two-carrier fits): a parameter set of the wrong carrier type is pushed
+        back by 1e3 times its penalty on every residual, away from zero.
+        """
         penalty = self.type_penalty(values)
         if penalty > 0:
             r = r + 1e3 * penalty * np.sign(r + 1e-300)

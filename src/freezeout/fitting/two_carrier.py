@@ -160,11 +160,8 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
             r_m, lr_m, _ = tc.series(values)
         except (RuntimeError, ValueError, FloatingPointError):
             return np.full(2 * t.size, 1e6)
-        r = np.concatenate([(r_m - rh) / w_r, (lr_m - np.log(rho)) / w_rho])
-        penalty = problem.type_penalty(values)
-        if penalty > 0:
-            r = r + 1e3 * penalty * np.sign(r + 1e-300)
-        return np.where(np.isfinite(r), r, 1e6)
+        return problem.guarded(np.concatenate([(r_m - rh) / w_r,
+                                               (lr_m - np.log(rho)) / w_rho]), values)
 
     def jacobian(x, w_r, w_rho):
         # central differences of every parameter in one batch solve

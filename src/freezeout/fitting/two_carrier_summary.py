@@ -16,10 +16,10 @@ import numpy as np
 from scipy import stats
 
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.result import Estimate, FitResult, LevelEstimate
+from freezeout.fitting.result import Estimate, FitResult
 from freezeout.fitting.two_carrier_model import TwoCarrierModel
 from freezeout.fitting.two_carrier_result import CarrierLattice, TwoCarrierFit
-from freezeout.fitting.wald import net_and_ratio, parameter_estimate, with_common_scale
+from freezeout.fitting.wald import RefitEstimates
 from freezeout.fitting.warnings import kept_after_refit, refit_warnings
 from freezeout.physics.transport import hall_sign_change_temperature
 
@@ -119,22 +119,12 @@ def build_result(run, base, tc, free, fixed, out, bounds, ok, data) -> FitResult
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
     se[lost] = math.inf  # not set by the data: the interval is the parameter's whole range
     se[held] = math.nan  # at a bound: the warnings say so
-    t_q = float(stats.t.ppf(0.975, dof))
-    idx = {k: i for i, k in enumerate(free)}
-    values = {**fixed, **dict(zip(free, x, strict=True))}
-
     # an uncertainty common to every point (the thickness) scales R_H and rho alike: it moves
     # every concentration (1/(q R_H)) and leaves the mobilities (R_H/rho) alone
-    common = float(run.scale_uncertainty)
-
-    def est(name):
-        return parameter_estimate(name, values, idx, x, se, t_q, (lo, hi), common)
-
-    levels = tuple(LevelEstimate(lv.kind, est(f"log10_N_{lv.name}"),
-                                 None if lv.energy is None else est(f"E_{lv.name}"),
-                                 lv.degeneracy, lv.name) for lv in base.levels)
-    net, comp = net_and_ratio(tc.model, values, idx, cov, t_q)
-    net = with_common_scale(net, common, t_q)
+    sol = RefitEstimates(tuple(free), fixed, x, se, dof, (lo, hi), float(run.scale_uncertainty))
+    idx, values, est = sol.idx, sol.values, sol.estimate
+    levels = sol.levels(base.levels)
+    net, comp = sol.net_and_ratio(tc.model, cov)
     if any(lost[i] for k, i in idx.items() if k.startswith("log10_N_")):
         net = Estimate(net.value, math.inf, (0.0, math.inf), net.method)
         comp = Estimate(comp.value, math.inf, (0.0, 1.0), comp.method)

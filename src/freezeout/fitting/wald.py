@@ -10,10 +10,12 @@ N_min / N_maj take their errors by the delta method (JCGM 100:2008, GUM, 5.1.2).
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
+from scipy import stats
 
-from freezeout.fitting.result import Estimate
+from freezeout.fitting.result import Estimate, LevelEstimate
 
 _LN10 = math.log(10.0)
 
@@ -125,3 +127,64 @@ def with_common_scale(net: Estimate, common: float, t_q: float) -> Estimate:
     s_net = math.hypot(net.stderr, common * net.value)
     return Estimate(net.value, s_net, (max(net.value - t_q * s_net, 0.0),
                                        net.value + t_q * s_net), net.method)
+
+
+@dataclass(frozen=True)
+class RefitEstimates:
+    """The Wald estimates of a refit (the joint or the two-carrier fit) of the levels.
+
+    Attributes
+    ----------
+    free
+        Internal names of the free parameters, the order of ``x`` and ``se``.
+    fixed
+        Held internal values.
+    x, se
+        Free values and their standard errors (internal units).
+    dof
+        Degrees of freedom of the refit (Student's t for the 95 % intervals).
+    bounds
+        (lower, upper) arrays of the free parameters' ranges.
+    common
+        Relative uncertainty common to every point (the thickness): it scales every
+        concentration and leaves energies and mobilities alone. [1]
+    """
+
+    free: tuple
+    fixed: dict
+    x: np.ndarray
+    se: np.ndarray
+    dof: int
+    bounds: tuple
+    common: float = 0.0
+
+    @property
+    def t_q(self) -> float:
+        """Student's t quantile for 95 % at the refit's degrees of freedom."""
+        return float(stats.t.ppf(0.975, self.dof))
+
+    @property
+    def idx(self) -> dict:
+        """Internal name -> index of each free parameter."""
+        return {k: i for i, k in enumerate(self.free)}
+
+    @property
+    def values(self) -> dict:
+        """Every internal value at the solution, held ones included."""
+        return {**self.fixed, **dict(zip(self.free, self.x, strict=True))}
+
+    def estimate(self, name: str) -> Estimate:
+        """The Estimate of one internal parameter (:func:`parameter_estimate`)."""
+        return parameter_estimate(name, self.values, self.idx, self.x, self.se, self.t_q,
+                                  self.bounds, self.common)
+
+    def levels(self, base_levels) -> tuple[LevelEstimate, ...]:
+        """The refit's levels, in the order and with the names of ``base_levels``."""
+        return tuple(LevelEstimate(lv.kind, self.estimate(f"log10_N_{lv.name}"),
+                                   None if lv.energy is None else self.estimate(f"E_{lv.name}"),
+                                   lv.degeneracy, lv.name) for lv in base_levels)
+
+    def net_and_ratio(self, model, cov) -> tuple[Estimate, Estimate]:
+        """Net doping (the common uncertainty added) and compensation ratio."""
+        net, comp = net_and_ratio(model, self.values, self.idx, cov, self.t_q)
+        return with_common_scale(net, self.common, self.t_q), comp

@@ -177,12 +177,7 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
         w.append("the uncertainties could not be estimated (singular covariance): some "
                  "parameters are not determined by these data")
     else:
-        for a in range(len(public)):
-            for b in range(a + 1, len(public)):
-                if np.isfinite(corr[a, b]) and abs(corr[a, b]) > CORRELATION_LIMIT:
-                    w.append(f"{public[a]} and {public[b]} are strongly correlated "
-                             f"(r = {corr[a, b]:+.3f}): the data constrain a combination of "
-                             "them better than each one")
+        w += correlation_warnings(public, corr)
     if weighted and out.nfree > 0 and out.redchi > 2.0:
         model_words = "the model, with its held values," if held else "the model"
         w.append(f"reduced chi^2 = {out.redchi:.3g}: the data scatter more than their stated "
@@ -253,11 +248,24 @@ def refit_warnings(public, x, bounds, corr, *, what: str) -> list[str]:
         if x[i] - lo[i] < 1e-6 * span or hi[i] - x[i] < 1e-6 * span:
             w.append(f"{what} at a bound: {name} sits at its limit, so its interval is not "
                      "set by the data")
+    return w + correlation_warnings(public, corr, f" in the {what}")
+
+
+def correlation_warnings(public, corr, where: str = "") -> list[str]:
+    """One statement per pair of parameters correlated beyond :data:`CORRELATION_LIMIT`.
+
+    Parameters
+    ----------
+    public
+        Public names of the free parameters, the order of ``corr``.
+    corr
+        Their correlation matrix (NaN where not estimated).
+    where
+        Words naming the fit, after "strongly correlated" (e.g. " in the two-carrier fit").
+    """
     corr = np.asarray(corr)
-    for a in range(len(public)):
-        for b in range(a + 1, len(public)):
-            if np.isfinite(corr[a, b]) and abs(corr[a, b]) > CORRELATION_LIMIT:
-                w.append(f"{public[a]} and {public[b]} are strongly correlated in the {what} "
-                         f"(r = {corr[a, b]:+.3f}): the data constrain a combination of them "
-                         "better than each one")
-    return w
+    return [f"{public[a]} and {public[b]} are strongly correlated{where} "
+            f"(r = {corr[a, b]:+.3f}): the data constrain a combination of them better than "
+            "each one"
+            for a in range(len(public)) for b in range(a + 1, len(public))
+            if np.isfinite(corr[a, b]) and abs(corr[a, b]) > CORRELATION_LIMIT]

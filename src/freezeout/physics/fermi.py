@@ -139,7 +139,10 @@ def _log_fd(name: str, j: float, eta) -> np.ndarray:
 
 
 def log_fermi_dirac_pair(eta) -> tuple[np.ndarray, np.ndarray]:
-    """ln F_1/2 and ln F_-1/2 together, sharing the work (used by the neutrality solver).
+    """ln F_1/2 and ln F_-1/2 together, from :func:`log_fermi_dirac_half_ratio`.
+
+    The neutrality solver uses the ratio form itself; this one is its log-log reading
+    (ln F_-1/2 = ln F_1/2 + ln(F_-1/2 / F_1/2)), checked against mpmath in the tests.
 
     Parameters
     ----------
@@ -151,12 +154,8 @@ def log_fermi_dirac_pair(eta) -> tuple[np.ndarray, np.ndarray]:
     tuple of numpy.ndarray
         (ln F_1/2(eta), ln F_-1/2(eta)), each of the shape of ``eta``. [1]
     """
-    eta = np.asarray(eta, dtype=float)
-    if eta.size and float(np.max(eta)) < _SERIES_MAX:
-        # the common non-degenerate case: one pass of the series for both orders
-        lhalf, lminus = _log_series(eta, 0.5, -0.5)
-        return lhalf, lminus
-    return _log_fd("1/2", 0.5, eta), _log_fd("-1/2", -0.5, eta)
+    lhalf, ratio = log_fermi_dirac_half_ratio(eta)
+    return lhalf, lhalf + np.log(ratio)
 
 
 @cache

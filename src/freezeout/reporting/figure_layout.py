@@ -129,3 +129,18 @@ def label_line_ends(ax, items, gap=0.07) -> None:
         ax.annotate(text, (x_end, y), xytext=(1.015, p), textcoords="axes fraction",
                     va="center", fontsize=9, color=col, annotation_clip=False,
                     arrowprops=arrow)
+
+
+def ratio_limits(ax, values) -> None:
+    """Y range of a measured/claimed ratio axis: log when the values span more than 10x.
+
+    A linear range is padded by 12 % of the span (0.1 for a single value) and never goes
+    below 0; a log range extends 1.5x beyond both ends (project choice, no source).
+    """
+    vmin, vmax = min(values), max(values)
+    if vmin > 0 and vmax / vmin > 10.0:
+        ax.set_yscale("log")
+        ax.set_ylim(vmin / 1.5, vmax * 1.5)
+    else:
+        pad = 0.12 * (vmax - vmin) if vmax > vmin else 0.1
+        ax.set_ylim(max(vmin - pad, 0.0), vmax + pad)

@@ -99,43 +99,32 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
                         "right: measured from the majority band edge."),
         "ionization": (fg.ionization_axes(result, curves), "Ionized fraction of each level."),
     }
-    tr = fg.transport_figure(result)
-    if tr is not None:
-        drawn["transport"] = (tr, "Resistivity and Hall mobility versus temperature "
-                              "(crosses: points left out of the fit).")
+    from freezeout.reporting import posterior_figure as pf
     from freezeout.reporting.mobility_figure import mobility_figure
-
-    mo = mobility_figure(result)
-    if mo is not None:
-        drawn["mobility"] = (mo, "Hall mobility of the joint fit: measured points and the "
-                             "model of the named scattering mechanisms, each mechanism's "
-                             "own drift mobility dashed; below, the Hall factor the model "
-                             "applied to the density and the mobility ("
-                             + hall_factor_label(result) + ").")
     from freezeout.reporting.spectroscopy_figure import CAPTION, spectroscopy_figure
 
-    sp = spectroscopy_figure(result)
-    if sp is not None:
-        drawn["spectroscopy"] = (sp, CAPTION)
-    from freezeout.reporting import posterior_figure as pf
-
-    pp = pf.posterior_figure(result)
-    if pp is not None:
-        drawn["posterior"] = (pp, pf.CAPTION)
-    hs = hall_sign_figure(result)
-    if hs is not None:
-        drawn["hall_sign"] = (hs, "Two-carrier fit: |R_H| against temperature with its sign "
-                              "(filled circles and one colour where holes dominate, open squares "
-                              "and the other where electrons do), the reversal marked; below, "
-                              "the resistivity.")
-    sf = selection_figure(result)
-    if sf is not None:
-        drawn["selection"] = (sf, "Model selection: the measured density and the model "
-                              "curve of every candidate fitted (chosen: thick ink; others "
-                              "coloured by level count, dashed without compensation, faded "
-                              "when refused; curves that coincide lie on top of each other), "
-                              "each with its delta BIC; below, each candidate's misfit at "
-                              "the points.")
+    optional = (  # stem, drawing (None when the fit has nothing to draw), caption
+        ("transport", fg.transport_figure, "Resistivity and Hall mobility versus temperature "
+         "(crosses: points left out of the fit)."),
+        ("mobility", mobility_figure, lambda r: "Hall mobility of the joint fit: measured "
+         "points and the model of the named scattering mechanisms, each mechanism's own "
+         "drift mobility dashed; below, the Hall factor the model applied to the density and "
+         "the mobility (" + hall_factor_label(r) + ")."),
+        ("spectroscopy", spectroscopy_figure, CAPTION),
+        ("posterior", pf.posterior_figure, pf.CAPTION),
+        ("hall_sign", hall_sign_figure, "Two-carrier fit: |R_H| against temperature with its "
+         "sign (filled circles and one colour where holes dominate, open squares and the "
+         "other where electrons do), the reversal marked; below, the resistivity."),
+        ("selection", selection_figure, "Model selection: the measured density and the model "
+         "curve of every candidate fitted (chosen: thick ink; others coloured by level count, "
+         "dashed without compensation, faded when refused; curves that coincide lie on top of "
+         "each other), each with its delta BIC; below, each candidate's misfit at the "
+         "points."),
+    )
+    for stem, draw, caption in optional:
+        fig = draw(result)
+        if fig is not None:
+            drawn[stem] = (fig, caption(result) if callable(caption) else caption)
     out = {}
     for stem, (fig, caption) in drawn.items():
         out[f"{stem}.png"] = (fg.png_bytes(fig), caption)

@@ -19,6 +19,7 @@ import numpy as np  # noqa: E402
 from freezeout.io.atomic import atomic_write_bytes  # noqa: E402
 from freezeout.numbers import finite_or_none  # noqa: E402
 from freezeout.records.history import TrendPoint  # noqa: E402
+from freezeout.reporting.figure_layout import ratio_limits  # noqa: E402
 from freezeout.reporting.figures import INK, LEVEL_COLOURS, STYLE, new_axes, png_bytes  # noqa: E402
 
 # one accent per trend series (quantity and temperature)
@@ -121,13 +122,7 @@ def trend_axes(points: Sequence[TrendPoint], supplier: str, ax=None):
                         mfc="white", mew=1.5, elinewidth=1.2, capsize=4, zorder=3,
                         label=f"{_series_label(key, None)}: mean, min–max over wafers")
         ax.axhline(1.0, color=INK, lw=1.0, ls="--", zorder=2, label="measured = claimed")
-        vmin, vmax = min(values), max(values)
-        if vmin > 0 and vmax / vmin > 10.0:
-            ax.set_yscale("log")
-            ax.set_ylim(vmin / 1.5, vmax * 1.5)
-        else:
-            pad = 0.12 * (vmax - vmin) if vmax > vmin else 0.1
-            ax.set_ylim(max(vmin - pad, 0.0), vmax + pad)
+        ratio_limits(ax, values)
         verdict_of = {str(p.lot): str(p.lot_verdict) for p in points}
         ax.set_xticks(range(n), [f"{lot}\n{date}\n{verdict_of.get(lot, '')}"
                                  for date, lot in lots], rotation=0 if n <= 8 else 90)

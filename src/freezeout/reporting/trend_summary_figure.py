@@ -19,6 +19,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 
 from freezeout.numbers import finite_or_none  # noqa: E402
+from freezeout.reporting.figure_layout import ratio_limits  # noqa: E402
 from freezeout.reporting.figures import INK, STYLE, new_axes  # noqa: E402
 from freezeout.reporting.lot_summary_figure import SUMMARY_SIZE, wafer_groups  # noqa: E402
 
@@ -91,13 +92,7 @@ def trend_summary_axes(lots: list[tuple[str, str]], series: dict, keys: list, co
                           f"{label_of(key)}: lots' mean ratio, quartiles and median; "
                           "whiskers: wafer min–max")
         ax.axhline(1.0, color=INK, lw=1.0, ls="--", zorder=2, label="measured = claimed")
-        vmin, vmax = min(values), max(values)
-        if vmin > 0 and vmax / vmin > 10.0:
-            ax.set_yscale("log")
-            ax.set_ylim(vmin / 1.5, vmax * 1.5)
-        else:
-            pad = 0.12 * (vmax - vmin) if vmax > vmin else 0.1
-            ax.set_ylim(max(vmin - pad, 0.0), vmax + pad)
+        ratio_limits(ax, values)
         ticks = []
         for g in groups:
             rejected = sum(verdict_of.get(lots[i][1]) == "reject" for i in g)
