@@ -32,9 +32,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from freezeout.fitting.problem import Problem
+from freezeout.fitting.quantiles import chi2_quantile, t_quantile
 from freezeout.physics.neutrality import NeutralityResult
 
 #: Fewest points a plateau window holds (a line through them keeps one degree of freedom).
@@ -110,7 +110,7 @@ def _trend(t: np.ndarray, y: np.ndarray, s: np.ndarray | None) -> tuple[float, b
     var = 1.0 / sxx if s is not None else chi2 / sxx
     if var <= 0:
         return slope, slope != 0.0
-    return slope, abs(slope) > float(stats.t.ppf(0.975, k - 2)) * math.sqrt(var)
+    return slope, abs(slope) > t_quantile(0.975, k - 2) * math.sqrt(var)
 
 
 def _flat(t: np.ndarray, y: np.ndarray, s: np.ndarray | None) -> bool:
@@ -120,7 +120,7 @@ def _flat(t: np.ndarray, y: np.ndarray, s: np.ndarray | None) -> bool:
     if s is None:
         return True
     _, _, chi2 = _mean(y, s)
-    return chi2 * (y.size - 1) <= float(stats.chi2.ppf(0.95, y.size - 1))
+    return chi2 * (y.size - 1) <= chi2_quantile(0.95, y.size - 1)
 
 
 def _mean(y: np.ndarray, s: np.ndarray | None) -> tuple[float, float, float]:
@@ -187,6 +187,6 @@ def plateau_net_doping(problem: Problem, res: NeutralityResult, weighted: bool, 
     mean, se, _ = _mean(y, s)
     se = math.hypot(se, scale * mean)
     n = best[3] - best[2]
-    tq = float(stats.t.ppf(0.975, n - 1))
+    tq = t_quantile(0.975, n - 1)
     ci = (max(mean - tq * se, 0.0), mean + tq * se)
     return Plateau(True, mean, se, ci, n, k, (float(t[sl][0]), float(t[sl][-1])), slope_all)

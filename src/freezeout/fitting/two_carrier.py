@@ -17,9 +17,10 @@ voltage that scales with rho (project choice, no source). Without stated errors 
 series' scale s is estimated from its own scatter (a first pass, then a refit with the
 weights' ratio fixed), as in :mod:`freezeout.fitting.joint`.
 
-Start: the density-only fit's levels; a batch scan over the compensating concentration and
-both lattice terms (the majority's around the mobility of the colder points, the
-minority's at 0.5 to 4 times it); then a bounded trust-region least squares
+Start: the density-only fit's levels; a batch scan over the compensation ratio at the
+density fit's net doping (with the majority energies halved or doubled: n(T) alone often
+leaves the compensation basin open), then over both lattice terms (the majority's around
+the mobility of the colder points, the minority's at 0.7 to 2.8 times it); then a bounded trust-region least squares
 (scipy.optimize.least_squares, "trf") with a central-difference Jacobian computed in one
 batch solve. Standard errors from (J^T J)^-1 scaled by max(chi^2/dof, 1); Wald intervals
 (in log space for concentrations and mu_300). The reversal temperature's error is by the
@@ -211,40 +212,48 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
 
 
 def _scan(tc, values0, lattice0, rh, ln_rho, weight_r, s_rho, fixed):
-    """Best start over compensation and both lattice terms, in one batch evaluation.
+    """Best start over compensation and both lattice terms, in two batch evaluations.
 
+    First every level row (:func:`_level_grid`) with the majority's lattice term at its
+    start and six minority terms; then the best row with the whole lattice grid (majority
+    mu_300 x 0.5-2, a +-0.6; minority mu_300 0.7-2.8 times the majority's, a 1.2 or 2).
     Cost: N ln(SSR/N) per series without stated errors, chi^2 with them (as in the joint fit).
     """
     model = tc.model
-    base_r, r_stated = weight_r
-    cname = model.compensation_name
-    vals = dict(values0)
-    grid_c = np.array([values0.get(cname, 0.0)])
-    if model.compensated and cname not in fixed:
-        major = math.log10(sum(10.0 ** values0[k] for k in model.major_concentration_names))
-        grid_c = np.unique(np.concatenate([[values0[cname]],
-                                           major + np.linspace(-4.0, math.log10(0.9), 6)]))
-        grid_c = grid_c[grid_c >= LOG10_CONCENTRATION_BOUNDS[0]]
-        vals[cname] = grid_c[:, None]
     mu0, a0 = lattice0
-    g = np.meshgrid(mu0 + np.linspace(-0.3, 0.3, 3), np.clip(a0 + np.linspace(-0.6, 0.6, 3),
-                                                            0.1, 4.9),
-                    mu0 + np.log10([0.7, 1.4, 2.8]), [1.2, 2.0], indexing="ij")
-    g = [x.reshape(-1, 1, 1) for x in g]
     major_names, minor_names = ((LATTICE_NAMES[:2], LATTICE_NAMES[2:]) if model.carrier == "n"
                                 else (LATTICE_NAMES[2:], LATTICE_NAMES[:2]))
-    for name, grid in zip((*major_names, *minor_names), g, strict=True):
-        vals[name] = grid
+    names = (*major_names, *minor_names)
+    best = dict(values0)
+    best.update(zip(names, (mu0, a0, mu0 + 0.3, 1.7), strict=True))
+    level_rows = _level_grid(model, values0, fixed)
+    if level_rows:
+        g = [np.array([x]).reshape(-1, 1, 1) for x in (mu0, a0)] + [
+            x.reshape(-1, 1, 1) for x in np.meshgrid(mu0 + np.log10([0.7, 1.4, 2.8]),
+                                                     [1.2, 2.0], indexing="ij")]
+        found = _best_of(tc, {**values0, **{k: v[:, None] for k, v in level_rows.items()}},
+                         names, g, rh, ln_rho, weight_r, s_rho)
+        if found is None:
+            return best
+        best.update({k: float(v[found[1]]) for k, v in level_rows.items()})
+    g = [x.reshape(-1, 1, 1) for x in np.meshgrid(
+        mu0 + np.linspace(-0.3, 0.3, 3), np.clip(a0 + np.linspace(-0.6, 0.6, 3), 0.1, 4.9),
+        mu0 + np.log10([0.7, 1.4, 2.8]), [1.2, 2.0], indexing="ij")]
+    found = _best_of(tc, best, names, g, rh, ln_rho, weight_r, s_rho)
+    if found is not None:
+        best.update({name: float(np.ravel(grid)[found[0]]) for name, grid in zip(
+            names, np.broadcast_arrays(*g), strict=True)})
+    return best
+
+
+def _best_of(tc, vals, names, grids, rh, ln_rho, weight_r, s_rho):
+    """(lattice index, level row) of the lowest cost of a batch, or None when none is finite."""
+    base_r, r_stated = weight_r
+    vals = {**vals, **dict(zip(names, grids, strict=True))}
     try:
         r_m, lr_m, _ = tc.series(vals, warm=False)  # (G, C, T)
     except (RuntimeError, ValueError, FloatingPointError):
-        r_m = None
-    best = dict(values0)
-    if r_m is None:
-        for name, grid in zip((*major_names, *minor_names), (mu0, a0, mu0 + 0.3, 1.7),
-                              strict=True):
-            best[name] = float(np.ravel(grid)[0])
-        return best
+        return None
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         e_r = (r_m - rh) / base_r
         e_rho = lr_m - ln_rho
@@ -253,12 +262,51 @@ def _scan(tc, values0, lattice0, rh, ln_rho, weight_r, s_rho, fixed):
         cost_rho = (np.sum((e_rho / s_rho) ** 2, axis=-1) if s_rho is not None
                     else rh.size * np.log(np.mean(e_rho ** 2, axis=-1)))
     cost = np.where(np.isfinite(cost_r + cost_rho), cost_r + cost_rho, np.inf)
-    cost = np.broadcast_to(cost, (g[0].size, grid_c.size))
+    cost = np.atleast_2d(cost)
+    cost = np.broadcast_to(cost, (np.broadcast_arrays(*grids)[0].size, cost.shape[-1]))
     if not np.isfinite(cost).any():
-        return best
+        return None
     i, c = np.unravel_index(int(np.argmin(cost)), cost.shape)
-    if model.compensated and cname not in fixed:
-        best[cname] = float(grid_c[c])
-    for name, grid in zip((*major_names, *minor_names), g, strict=True):
-        best[name] = float(grid.ravel()[i])
-    return best
+    return int(i), int(c)
+
+
+#: Energy factors of the start scan: where the density fit chose heavy compensation, the
+#: freeze-out slope is E, and at light compensation E/2 (so E doubles), and the reverse
+#: (common practice, no source: the two limits of the freeze-out slope).
+_ENERGY_FACTORS = (0.5, 1.0, 2.0)
+
+
+def _level_grid(model, values0, fixed) -> dict[str, np.ndarray]:
+    """Start rows over the compensation ratio at the density fit's net doping.
+
+    n(T) alone sets the net doping well and the compensation poorly, so the density fit may
+    sit in the wrong compensation basin: each row keeps the net doping, sets K = N_comp /
+    N_major from 1e-4 to 0.9 (the majority levels scaled together) and scales the majority
+    energies by 0.5, 1 or 2 (within their bounds). The density fit's own point is the first
+    row. Empty when the compensation is fixed or absent.
+    """
+    cname = model.compensation_name
+    names = model.major_concentration_names
+    if not model.compensated or cname in fixed or any(k in fixed for k in names):
+        return {}
+    major = sum(10.0 ** values0[k] for k in names)
+    net = major - 10.0 ** values0[cname]
+    if not net > 0:
+        return {}
+    energies = [k for k in (f"E_{model.major_symbol}{i}" for i in range(1, model.n_levels + 1))
+                if k not in fixed]
+    rows = [dict(values0)]
+    for ratio in np.geomspace(1e-4, 0.9, 6):
+        scale = net / (1.0 - ratio) / major
+        for f in _ENERGY_FACTORS:
+            row = dict(values0)
+            row.update({k: values0[k] + math.log10(scale) for k in names})
+            row[cname] = math.log10(ratio * net / (1.0 - ratio))
+            row.update({k: float(np.clip(values0[k] * f, 2e-4, 0.45 * float(
+                model.bands.band_gap.min()))) for k in energies})
+            rows.append(row)
+    keys = [cname, *names, *energies]
+    out = {k: np.array([r[k] for r in rows], dtype=float) for k in keys}
+    lo, hi = LOG10_CONCENTRATION_BOUNDS
+    keep = np.all([(out[k] >= lo) & (out[k] <= hi) for k in (cname, *names)], axis=0)
+    return {k: v[keep] for k, v in out.items()}

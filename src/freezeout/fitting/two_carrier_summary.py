@@ -13,9 +13,9 @@ import math
 from dataclasses import replace
 
 import numpy as np
-from scipy import stats
 
 from freezeout.fitting.model import CarrierModel
+from freezeout.fitting.quantiles import t_quantile
 from freezeout.fitting.result import Estimate, FitResult
 from freezeout.fitting.two_carrier_model import TwoCarrierModel
 from freezeout.fitting.two_carrier_result import CarrierLattice, TwoCarrierFit
@@ -70,7 +70,8 @@ def _reversal(tc, values, t, free, covariance, dof):
     if t_star is None:
         return None, None
     dt = 1e-4 * t_star
-    d_t = (r_of_t([t_star + dt])[0] - r_of_t([t_star - dt])[0]) / (2 * dt)
+    r_pm = r_of_t([t_star - dt, t_star + dt])
+    d_t = (r_pm[1] - r_pm[0]) / (2 * dt)
     x = np.array([values[k] for k in free])
     h = 1e-5 * np.maximum(np.abs(x), 1e-2)
     rows = np.concatenate([x + np.diag(h), x - np.diag(h)])
@@ -84,7 +85,7 @@ def _reversal(tc, values, t, free, covariance, dof):
         se = math.inf
     else:
         se = float(np.sqrt(max(grad @ cov @ grad, 0.0)))
-    q = float(stats.t.ppf(0.975, dof))
+    q = t_quantile(0.975, dof)
     return t_star, Estimate(t_star, se, (t_star - q * se, t_star + q * se), "wald-linear")
 
 
