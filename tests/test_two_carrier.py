@@ -251,3 +251,31 @@ def test_start_scan_finds_the_light_compensation_basin():
     n_a = next(lv for lv in d["levels"] if lv["name"].startswith("A"))["concentration_cm3"]
     assert abs(math.log10(n_a["value"] / TRUTH["N_A"])) < 0.1
     assert max(calls) <= 15
+
+
+def test_start_only_density_fit_is_a_start_not_a_result():
+    # project choice, no source: the start of the two-carrier fit follows no flat valley to
+    # its end, makes no profile intervals or alternatives, and makes no convergence
+    # statement (the two-carrier fit refits every level and states its own)
+    import lmfit
+
+    from freezeout.fitting import fit as fit_module
+
+    run = _run(3)
+    ge = api.load_material("Ge")
+    seen = []
+    real = lmfit.minimize
+
+    def counted(*args, **kw):
+        seen.append(kw.get("max_nfev"))
+        return real(*args, **kw)
+
+    fit_module.lmfit.minimize = counted
+    try:
+        start = fit_module.fit_run(run, ge, start_only=True)
+    finally:
+        fit_module.lmfit.minimize = real
+    assert seen and set(seen) == {fit_module.START_EVALUATIONS}
+    assert start.alternatives == ()
+    assert all(lv.concentration.method.startswith("wald") for lv in start.levels)
+    assert not any(w.startswith("the optimizer did not converge") for w in start.warnings)

@@ -196,14 +196,16 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         "options": options,
         "hall_factor": run.hall_factor,
     }
-    # the two-carrier fit starts from the density-only levels and states its own intervals:
-    # the start needs no profile intervals
     # an "auto" count: candidates fitted and one chosen by BIC (fitting.model_selection)
     density_fit = select_model if AUTO in (donors, acceptors) else fit_run
+    # the two-carrier fit starts from the density-only levels, refits them all and states its
+    # own intervals: its start is a start-only fit (the candidates of an "auto" count are
+    # full fits, without profiles, so that their chi^2 can be compared)
+    role = ({"start_only": True} if carriers == "both" and density_fit is fit_run
+            else {"profiles": carriers != "both"})
     result = density_fit(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
                          degeneracy=degeneracy, fix=fix, bounds=bounds,
-                         include_flagged=include_flagged, provenance=provenance,
-                         profiles=carriers != "both")
+                         include_flagged=include_flagged, provenance=provenance, **role)
     if carriers == "both":
         from freezeout.fitting.two_carrier import fit_run_two_carrier
 

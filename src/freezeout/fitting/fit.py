@@ -48,6 +48,9 @@ __all__ = ["LOG10_CONCENTRATION_BOUNDS", "MAX_EVALUATIONS", "fit_run", "guess", 
 
 #: Model evaluations allowed to one local fit before it counts as not converged.
 MAX_EVALUATIONS = 1500
+#: Evaluations of each local fit of a start-only fit (project choice, no source): the fit
+#: that starts from it refits every level, so a flat valley need not be followed to its end.
+START_EVALUATIONS = 200
 
 _NOT_CONVERGED = ("the optimizer did not converge: the chi^2 surface is flat along some "
                   "directions, so those parameters are not determined by these data (see the "
@@ -121,7 +124,7 @@ def _variance_unit(chi2: float, nfree: int, weighted: bool) -> float:
 
 def _local_fits(problem: Problem, points: list[dict], costs: np.ndarray, fermi: np.ndarray,
                 required: list[int], spare: list[int], n_tries: int, internal_fix: dict,
-                internal_bounds: dict, weighted: bool):
+                internal_bounds: dict, weighted: bool, max_nfev: int = MAX_EVALUATIONS):
     """Refine the descended points locally with lmfit.
 
     Every point of ``required`` (the basins within reach of the best) is refined; the points
@@ -144,7 +147,7 @@ def _local_fits(problem: Problem, points: list[dict], costs: np.ndarray, fermi: 
         params = lmfit_parameters(model, points[idx], internal_fix, internal_bounds)
         model.warm_start(fermi[idx])  # warm start from the global stage
         out = lmfit.minimize(problem.residual, params, method="leastsq",
-                             scale_covar=not weighted, max_nfev=MAX_EVALUATIONS)
+                             scale_covar=not weighted, max_nfev=max_nfev)
         if problem.type_penalty(out.params.valuesdict()) > 0 or not np.isfinite(out.chisqr):
             failures.append(str(out.message))
             continue
@@ -208,6 +211,7 @@ def fit_run(
     include_flagged: bool = False,
     provenance: dict | None = None,
     profiles: bool = True,
+    start_only: bool = False,
 ) -> FitResult:
     """Fit a run's majority-carrier density versus temperature.
 
@@ -237,6 +241,11 @@ def fit_run(
         Compute profile-likelihood intervals where the covariance is unreliable (default);
         False keeps the Wald intervals (a fit used only as the start of another, e.g. the
         two-carrier fit, which states its own).
+    start_only
+        A fit used only as the start of another that refits every level (the two-carrier
+        fit): no profiles and no alternatives, each local fit stopped after
+        :data:`START_EVALUATIONS` evaluations, and the best point kept even where the
+        optimizer stopped short (no convergence statement: the refit states its own).
 
     Raises
     ------
@@ -302,9 +311,14 @@ def fit_run(
     spare = [i for i in heads if i not in required] + rest
     best, stalled, converged, failures = _local_fits(
         problem, points, costs, fermi, required, spare, 4 if n_levels > 1 else 3,
-        internal_fix, internal_bounds, weighted)
+        internal_fix, internal_bounds, weighted,
+        START_EVALUATIONS if start_only else MAX_EVALUATIONS)
     not_converged = False
-    if best is None and stalled is not None and stalled.nfree > 0:
+    if start_only:
+        profiles = False
+        if stalled is not None and (best is None or stalled.chisqr < best.chisqr):
+            best = stalled
+    elif best is None and stalled is not None and stalled.nfree > 0:
         # accept a stalled fit only if it describes the data: reduced chi^2 within what the
         # stated uncertainties allow (weighted) or a residual scatter below 30 % (unweighted)
         ok = stalled.redchi < 4.0 if weighted else stalled.redchi < 0.3**2
@@ -313,7 +327,7 @@ def fit_run(
     if best is None or not np.isfinite(best.chisqr) or best.chisqr >= 1e11:
         raise FitError("no starting point converged to a fit of this carrier type",
                        optimizer_message="; ".join(dict.fromkeys(failures)) or None)
-    if u_t is not None and not not_converged:
+    if u_t is not None and not not_converged and not start_only:
         # the slope of the first pass came from a start: take it from the fit and refit once
         problem.include_temperature(best.params.valuesdict(), base_sigma, u_t)
         again = lmfit.minimize(problem.residual, best.params.copy(), method="leastsq",
@@ -321,13 +335,15 @@ def fit_run(
         if again.success and not again.aborted and problem.type_penalty(
                 again.params.valuesdict()) == 0:
             best = again
-    alternatives = _alternatives(problem, best, converged, weighted, low_density)
+    alternatives = ([] if start_only
+                    else _alternatives(problem, best, converged, weighted, low_density))
     # a lower chi^2 seen on the way (a descended start, or a local fit that stopped short)
     # that the reported fit does not reach: say so rather than choose silently
     lowest = float(np.min(costs)) if u_t is None else math.inf
     if stalled is not None and stalled is not best:
         lowest = min(lowest, float(stalled.chisqr))
-    missed = lowest < best.chisqr - 1e-3 * _variance_unit(best.chisqr, best.nfree, weighted)
+    missed = not start_only and lowest < best.chisqr - 1e-3 * _variance_unit(
+        best.chisqr, best.nfree, weighted)
     upper = None
     cname = model_used.compensation_name
     if profiles and model_used.compensated and cname not in internal_fix:

@@ -20,11 +20,12 @@ weights' ratio fixed), as in :mod:`freezeout.fitting.joint`.
 Start: the density-only fit's levels; a batch scan over the compensation ratio at the
 density fit's net doping (with the majority energies halved or doubled: n(T) alone often
 leaves the compensation basin open), then over both lattice terms (the majority's around
-the mobility of the colder points, the minority's at 0.7 to 2.8 times it); then a bounded trust-region least squares
-(scipy.optimize.least_squares, "trf") with a central-difference Jacobian computed in one
-batch solve. Standard errors from (J^T J)^-1 scaled by max(chi^2/dof, 1); Wald intervals
-(in log space for concentrations and mu_300). The reversal temperature's error is by the
-delta method, dT*/dtheta = -(dR/dtheta) / (dR/dT) at T*.
+the mobility of the colder points, the minority's at 0.7 to 2.8 times it); then a bounded
+trust-region least squares (scipy.optimize.least_squares, "trf") with a central-difference
+Jacobian computed in one batch solve. Standard errors from (J^T J)^-1 scaled by
+max(chi^2/dof, 1); Wald intervals (in log space for concentrations and mu_300). The
+reversal temperature's error is by the delta method, dT*/dtheta = -(dR/dtheta) / (dR/dT)
+at T*.
 """
 
 from __future__ import annotations
@@ -121,7 +122,7 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
                          "'lattice' in the mobility mechanisms")
     ok, rh_all, rho_all, u_r_all, u_rho_all = _data(run, include_flagged)
     if base is None:
-        base = fit_run(run, material, include_flagged=include_flagged, profiles=False,
+        base = fit_run(run, material, include_flagged=include_flagged, start_only=True,
                        **fit_options)
     n_levels = sum(1 for lv in base.levels if lv.energy is not None)
     compensated = n_levels < len(base.levels)
