@@ -166,3 +166,16 @@ def test_default_folder_name_is_one_safe_component():
 
     assert default_lot_folder("KRW-2611-07") == Path("reports") / "KRW-2611-07"
     assert default_lot_folder("../lot 7/a") == Path("reports") / "lot_7_a"
+
+
+def test_wafer_fits_skip_the_level_spectrum(tmp_path, monkeypatch):
+    # project choice, no source: a wafer's verdict reads the fitted levels, not Hoffmann's
+    # level spectrum, so a lot does not compute it (about 17 ms a wafer)
+    import freezeout.fitting.spectroscopy as spectroscopy
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("the level spectrum was computed for a wafer of a lot")
+
+    monkeypatch.setattr(spectroscopy, "fit_spectrum", refuse)
+    outcome = freezeout.qualify_lot(SAMPLE, report=False, workers=1)
+    assert "fit" in [w["input"]["how"] for w in outcome.to_dict()["wafers"]]

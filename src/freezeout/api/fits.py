@@ -122,14 +122,16 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    lattice_mu300: float | None = None,
                    lattice_exponent: float | None = None,
                    carriers: str = "majority", posterior: bool = False,
-                   posterior_steps: int | None = None, posterior_progress=None) -> FitResult:
+                   posterior_steps: int | None = None, posterior_progress=None,
+                   spectrum: bool = True) -> FitResult:
     """Fit a run record with the options and provenance of :func:`fit_file`.
 
     ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
     note made when no material is given ("the file", "the table"). With ``mobility`` the
     density-only fit is followed by the joint fit of density and Hall mobility, and the
     options record the mechanisms and the Hall factor applied (absent otherwise, so a
-    density-only fit's options are unchanged).
+    density-only fit's options are unchanged). ``spectrum=False`` leaves out Hoffmann's level
+    spectrum of a density-only fit (a wafer of a lot: its verdict does not read it).
 
     The Hall factor of a joint fit (project choice, no source): a number given here, or the
     run's stated one (a ``# hall_factor:`` line, which ``freezeout reduce`` always writes), is
@@ -220,7 +222,7 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                                base=result, fix=fix, bounds=bounds)
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
-    if carriers == "majority" and not models:
+    if spectrum and carriers == "majority" and not models:
         # the density fit's run read without a fit: Hoffmann's level spectrum of n(T)
         from freezeout.fitting.spectroscopy import fit_spectrum
 

@@ -146,7 +146,7 @@ def measure_wafer(job: WaferJob) -> WaferOutcome:
     try:  # the run read above, fitted as fit_file would (read once, not twice)
         result = fit_run_record(run, input_name=name, input_path=str(run_path),
                                 material=material, material_file=job.material_file,
-                                **FIT_OPTIONS, **hall_kw)
+                                spectrum=False, **FIT_OPTIONS, **hall_kw)
     except (InputError, FitError) as exc:
         return WaferOutcome(job.wafer_id, "not measured", sha,
                             reason=_reason_from(exc, name, "the fit of"))
@@ -172,7 +172,6 @@ def warm_imports() -> None:
     import freezeout.api.fits  # noqa: F401 - the fit, its reading and its material
     import freezeout.claims  # noqa: F401 - the measurement of a fit or a single point
     import freezeout.fitting.fit  # noqa: F401
-    import freezeout.fitting.spectroscopy  # noqa: F401
 
 
 def pool_context():
