@@ -12,6 +12,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from freezeout.fitting.jacobian import majority_log_jacobian
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import lmfit_parameters
 from freezeout.fitting.problem import Problem
@@ -120,12 +121,15 @@ def start_grid(model: CarrierModel, g: dict, fixed: Mapping[str, float]) -> list
 #: Levenberg-Marquardt steps of the global stage's batched descent, at most.
 DESCENT_STEPS = 30
 
-def batch_residuals(problem: Problem, names: list[str], theta: np.ndarray, fixed: dict,
-                     init) -> tuple[np.ndarray, np.ndarray]:
-    """Residuals of many parameter sets (rows of ``theta``) in one vectorized solve.
 
-    Rows that cannot be solved give infinite residuals; ``init`` is the starting Fermi
-    level of each row (None: cold). Returns residuals and Fermi levels, one row per set.
+def batch_residuals_jacobian(problem: Problem, names: list[str], theta: np.ndarray,
+                             fixed: dict, init) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Residuals of many parameter sets (rows of ``theta``) and their Jacobian, one solve.
+
+    ``init`` is the starting Fermi level of each row (None: cold). Returns the residuals and
+    Fermi levels, one row per set, and the Jacobian (rows, parameters, temperatures) by
+    implicit differentiation (:func:`freezeout.fitting.jacobian.majority_log_jacobian`);
+    rows that cannot be solved give infinite residuals and a zero Jacobian.
     """
     model = problem.model
     batch = {k: theta[:, j][:, None] for j, k in enumerate(names)}
@@ -139,18 +143,23 @@ def batch_residuals(problem: Problem, names: list[str], theta: np.ndarray, fixed
             donors, acceptors = model.levels(batch)
             res = solve_levels(bands, donors, acceptors, model.statistics, init)
             r = (model.majority_log(res) - problem.y[None, :]) / problem.sigma[None, :]
+            jac = majority_log_jacobian(model, bands, batch, res, names) / problem.sigma
     except (RuntimeError, ValueError, FloatingPointError):
-        return np.full(shape, np.inf), np.full(shape, np.nan)
-    return np.where(np.isfinite(r), r, np.inf), res.fermi_level
+        return (np.full(shape, np.inf), np.full(shape, np.nan),
+                np.zeros((shape[0], len(names), shape[1])))
+    ok = np.isfinite(r)
+    return (np.where(ok, r, np.inf), res.fermi_level,
+            np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0))
 
 
 def descend(problem: Problem, starts: list[dict], internal_fix: dict, internal_bounds: dict
              ) -> tuple[list[dict], np.ndarray, np.ndarray, np.ndarray]:
     """Bring every start down its chi^2 valley: batched Levenberg-Marquardt steps.
 
-    All starts step together: each step solves the trial points of the whole batch and their
-    forward-difference Jacobians (warm from each start's last solve) in one vectorized solve,
-    so an accepted step already has the Jacobian of the next. A start
+    All starts step together: each step solves the trial points of the whole batch (warm from
+    each start's last solve) in one vectorized solve and takes their Jacobians from that
+    solve by implicit differentiation, so an accepted step already has the Jacobian of the
+    next. A start
     stops when a step lowers its chi^2 by less than 1e-4 relative (lmfit polishes it), when no
     step lowers it, or when it has merged with a start of lower chi^2 (from the second step on).
     The steps keep to the bounds of the local fit and keep the compensating species below
@@ -179,20 +188,12 @@ def descend(problem: Problem, starts: list[dict], internal_fix: dict, internal_b
         return th
 
     n_par = len(names)
-    step_size = np.array([1e-4 if n.startswith("log10_") else 1e-5 for n in names])
 
     def with_jacobian(th: np.ndarray, init):
-        # residuals at th and forward-difference Jacobians there, in one solve
-        h = np.where(th + step_size > hi, -step_size, step_size)
-        rows = np.concatenate([th[:, None, :], th[:, None, :] + np.eye(n_par)[None]
-                               * h[:, None, :]], axis=1).reshape(-1, n_par)
-        rr, ff = batch_residuals(problem, names, rows, fixed,
-                                 None if init is None else np.repeat(init, n_par + 1, axis=0))
-        rr = rr.reshape(len(th), n_par + 1, -1)
-        jac = (rr[:, 1:, :] - rr[:, :1, :]) / h[:, :, None]
-        c = np.sum(rr[:, 0, :] ** 2, axis=1)
-        return (rr[:, 0, :], ff.reshape(len(th), n_par + 1, -1)[:, 0, :],
-                np.where(np.isfinite(c), c, np.inf), np.where(np.isfinite(jac), jac, 0.0))
+        # residuals at th and their Jacobian there (implicit differentiation), in one solve
+        rr, ff, jac = batch_residuals_jacobian(problem, names, th, fixed, init)
+        c = np.sum(rr ** 2, axis=1)
+        return rr, ff, np.where(np.isfinite(c), c, np.inf), jac
 
     theta = admissible(np.array([[st[n] for n in names] for st in starts], dtype=float))
     r, fermi, cost, jac = with_jacobian(theta, None)
