@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import io
-
 import matplotlib
 
 matplotlib.use("Agg")
@@ -21,6 +19,7 @@ from freezeout.reporting.figure_layout import (  # noqa: E402
     shade_outside,
     split_at,
 )
+from freezeout.reporting.figure_output import png_bytes as png_bytes  # noqa: E402
 
 # our own palette: ink, slate, and one accent per level
 INK = "#1d2a3a"
@@ -424,11 +423,3 @@ def residual_columns(result: FitResult) -> dict[str, np.ndarray]:
                 "residual_err_percent": 100.0 * np.asarray(err, dtype=float) / model,
                 "ln_residual": np.log(d.density / model), "used": np.asarray(d.used),
                 "left_out": reason}
-
-
-def png_bytes(fig_or_ax, fmt: str = "png") -> bytes:
-    """Render a Figure (or the Figure of an Axes) to PNG (or ``fmt``, e.g. SVG) bytes."""
-    fig = fig_or_ax if isinstance(fig_or_ax, Figure) else fig_or_ax.figure
-    buf = io.BytesIO()
-    fig.savefig(buf, format=fmt, dpi=130)
-    return buf.getvalue()

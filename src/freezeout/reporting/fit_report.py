@@ -5,12 +5,14 @@ from __future__ import annotations
 import base64
 import html
 import json
+from functools import partial
 from pathlib import Path
 
 from freezeout.fitting.curves import model_curves
 from freezeout.fitting.result import FitResult
 from freezeout.io.atomic import atomic_folder, atomic_write_bytes, atomic_write_text
 from freezeout.io.writers import format_csv
+from freezeout.reporting.figure_workers import render_figures
 from freezeout.reporting.hall_figure import hall_sign_figure, two_carrier_html
 from freezeout.reporting.mobility_figure import (
     carrier_density_view,
@@ -18,16 +20,8 @@ from freezeout.reporting.mobility_figure import (
     narrowing_html,
 )
 from freezeout.reporting.posterior_figure import posterior_html
+from freezeout.reporting.report_files import REPORT_FILES
 from freezeout.reporting.selection_figure import selection_figure, selection_html
-
-#: The figures a fit report may draw (``.png``, and ``.svg`` on request).
-FIGURE_STEMS = ("density", "residuals", "fermi_level", "ionization", "transport",
-                "mobility", "hall_sign", "selection", "spectroscopy", "posterior")
-
-#: Every file a fit report may write into its folder (replaced as a set): the result, the
-#: page, the model curves and residuals as CSV, and each figure as PNG and SVG.
-REPORT_FILES = ("fit.json", "report.html", "curves.csv", "residuals.csv",
-                *(f"{stem}.{ext}" for stem in FIGURE_STEMS for ext in ("png", "svg")))
 
 CSS = """
 body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;max-width:980px;
@@ -77,28 +71,33 @@ def _rms_sentence(st: dict) -> str:
     return f" rms residual {rms:.2g} % (ln density).{note}"
 
 
-def _figure_files(result: FitResult, curves=None, svg: dict | None = None
-                  ) -> dict[str, tuple[bytes, str]]:
-    """PNG bytes and caption per figure; with ``svg`` (a dict), its SVG bytes go there too."""
+def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
+                 workers: int | None = None) -> dict[str, tuple[bytes, str]]:
+    """PNG bytes and caption per figure; with ``svg`` (a dict), its SVG bytes go there too.
+
+    The figures are drawn by :func:`freezeout.reporting.figure_workers.render_figures`
+    (``workers``: 1 here only, 2 with a forked helper, None where the machine allows it).
+    """
     from freezeout.reporting import figures as fg
 
     curves = model_curves(result) if curves is None else curves
     scattering = result.mobility is not None and result.mobility.hall_factor_source == \
         "scattering"
-    drawn = {
-        "density": (fg.density_axes(carrier_density_view(result), curves),
-                    "Carrier density versus 1000/T: measured points, the fit, and the "
-                    "contribution of each level and of intrinsic generation."
-                    + (" The measured points are carrier densities n = r_H(T) / (q |R_H|), "
-                       "the run's densities times r_H(T) / r with the fitted r_H(T) of the "
-                       "joint fit (r: the run's constant Hall factor)." if scattering
-                       else "")),
-        "residuals": (fg.residual_axes(result), "Residuals of the fit, measured/fitted − 1."),
-        "fermi_level": (fg.fermi_figure(result, curves),
-                        "Fermi level in the gap, with the band edges and level energies; "
-                        "right: measured from the majority band edge."),
-        "ionization": (fg.ionization_axes(result, curves), "Ionized fraction of each level."),
-    }
+    core = (  # stem, drawing, caption
+        ("density", lambda: fg.density_axes(carrier_density_view(result), curves),
+         "Carrier density versus 1000/T: measured points, the fit, and the "
+         "contribution of each level and of intrinsic generation."
+         + (" The measured points are carrier densities n = r_H(T) / (q |R_H|), "
+            "the run's densities times r_H(T) / r with the fitted r_H(T) of the "
+            "joint fit (r: the run's constant Hall factor)." if scattering else "")),
+        ("residuals", lambda: fg.residual_axes(result),
+         "Residuals of the fit, measured/fitted − 1."),
+        ("fermi_level", lambda: fg.fermi_figure(result, curves),
+         "Fermi level in the gap, with the band edges and level energies; "
+         "right: measured from the majority band edge."),
+        ("ionization", lambda: fg.ionization_axes(result, curves),
+         "Ionized fraction of each level."),
+    )
     from freezeout.reporting import posterior_figure as pf
     from freezeout.reporting.mobility_figure import mobility_figure
     from freezeout.reporting.spectroscopy_figure import CAPTION, spectroscopy_figure
@@ -121,15 +120,16 @@ def _figure_files(result: FitResult, curves=None, svg: dict | None = None
          "each other), each with its delta BIC; below, each candidate's misfit at the "
          "points."),
     )
-    for stem, draw, caption in optional:
-        fig = draw(result)
-        if fig is not None:
-            drawn[stem] = (fig, caption(result) if callable(caption) else caption)
+    jobs = [*core, *((stem, partial(draw, result), caption) for stem, draw, caption in optional)]
+    drawn = render_figures([(stem, draw) for stem, draw, _ in jobs], svg=svg is not None,
+                           workers=workers)
     out = {}
-    for stem, (fig, caption) in drawn.items():
-        out[f"{stem}.png"] = (fg.png_bytes(fig), caption)
-        if svg is not None:
-            svg[f"{stem}.svg"] = fg.png_bytes(fig, "svg")
+    for stem, _, caption in jobs:
+        if stem in drawn:  # an optional figure the fit has nothing for is not drawn
+            png, vector = drawn[stem]
+            out[f"{stem}.png"] = (png, caption(result) if callable(caption) else caption)
+            if svg is not None:
+                svg[f"{stem}.svg"] = vector
     return out
 
 
@@ -291,7 +291,7 @@ def write_fit_report(result: FitResult, out_dir: str | Path, *, svg: bool = Fals
     out = Path(out_dir)
     curves = model_curves(result)
     svgs: dict[str, bytes] | None = {} if svg else None
-    figures = _figure_files(result, curves, svgs)
+    figures = figure_files(result, curves, svgs)
     page = render_html(result, figures)
     tables = {"curves.csv": format_csv(curve_columns(result, curves)),
               "residuals.csv": format_csv(residual_columns(result))}
