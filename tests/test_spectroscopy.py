@@ -150,3 +150,22 @@ def test_fit_json_and_report_figure(tmp_path):
     written = write_fit_report(result, tmp_path / "report")
     assert "spectroscopy.png" in written
     assert written["spectroscopy.png"].stat().st_size > 10_000
+
+
+def test_peak_rule_matches_scipy_find_peaks():
+    """The written-out peak rule picks the peaks of scipy.signal.find_peaks(prominence=).
+
+    Reference: SciPy's implementation of the same rule (local maxima with flat tops at their
+    middle, topographic prominence), on random signals with and without plateaus.
+    """
+    from scipy.signal import find_peaks
+
+    from freezeout.fitting.spectroscopy import _prominent_maxima
+
+    rng = np.random.default_rng(7)
+    for trial in range(3000):
+        n = int(rng.integers(1, 60))
+        x = (rng.normal(size=n), rng.integers(0, 4, size=n).astype(float),
+             np.cumsum(rng.normal(size=n)))[trial % 3]
+        floor = 0.0 if trial % 5 == 0 else float(rng.uniform(0.0, 2.0))
+        assert _prominent_maxima(x, floor) == list(find_peaks(x, prominence=floor)[0])

@@ -11,7 +11,7 @@ from freezeout.api.materials import load_material
 from freezeout.api.runs import load_run
 from freezeout.api.simulation import check_statistics
 from freezeout.errors import InputError
-from freezeout.reporting.fit_report import REPORT_FILES as FIT_REPORT_FILES
+from freezeout.reporting.report_files import REPORT_FILES as FIT_REPORT_FILES
 
 if TYPE_CHECKING:
     from freezeout.fitting.result import FitResult

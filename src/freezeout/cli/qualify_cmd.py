@@ -12,8 +12,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.console import Console
-from rich.table import Table
 
 from freezeout import api
 from freezeout.cli.common import DbOpt, JsonOpt, print_json
@@ -46,6 +44,7 @@ def qualify_command(
         "says so.")] = False,
 ) -> int:
     """Qualify a lot; see HELP."""
+    from rich.console import Console
     from rich.progress import (
         BarColumn,
         MofNCompleteColumn,
@@ -104,6 +103,8 @@ def indeterminate_lines(doc: dict) -> list[str]:
 
 
 def _print_summary(outcome) -> None:
+    from rich.table import Table
+
     doc = outcome.to_dict()
     con = console()
     table = Table(title=text(f"Lot {doc['lot']} ({doc['supplier']}, {doc['date']}), "

@@ -5,15 +5,16 @@ from __future__ import annotations
 import json
 import math
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.table import Table
-from rich.text import Text
 
 from freezeout import api
 from freezeout.cli.common import parse_assignments, parse_number
 from freezeout.cli.render import clean, console, num, say, show, text
+
+if TYPE_CHECKING:
+    from rich.table import Table
 
 __all__ = ["HELP", "reduce_command"]
 
@@ -42,6 +43,9 @@ def _fmt(value: float, err: float | None = None) -> str:
 
 
 def _summary_table(run) -> Table:
+    from rich.table import Table
+    from rich.text import Text
+
     c = run.majority_carrier
     table = Table(title=f"Reduced run ({run.n_points} set points)",
                   caption="flags: CODE! = severe (red), CODE? = warning (yellow), CODE = info "
@@ -103,6 +107,9 @@ def reduce_command(
     if json_output:
         typer.echo(json.dumps(outcome.to_dict(), allow_nan=False))
         return
+    from rich.table import Table
+    from rich.text import Text
+
     run = outcome.run
     con = console()
     show(con, _summary_table(run))

@@ -255,10 +255,41 @@ def _read_peak(i: int, u: np.ndarray, s: np.ndarray, t: np.ndarray, d: np.ndarra
     return SpectrumPeak(u_pk - off, float(conc), t_pk, u_pk, s_pk, raw_e, raw_n), True
 
 
+def _prominent_maxima(x: np.ndarray, floor: float) -> list[int]:
+    """Interior local maxima of ``x`` whose topographic prominence is at least ``floor``.
+
+    The rule of ``scipy.signal.find_peaks(x, prominence=floor)`` (same peaks, checked against
+    it in the tests), written out because scipy.signal costs a command ~0.06 s to import: a
+    flat top counts once, at its middle (the lower middle of an even run); a peak's
+    prominence is its height above the higher of the lowest points on either side before
+    the signal rises above the peak (or ends).
+    """
+    n = len(x)
+    found = []
+    i = 1
+    while i < n - 1:
+        if x[i - 1] < x[i]:
+            ahead = i + 1
+            while ahead < n - 1 and x[ahead] == x[i]:
+                ahead += 1
+            if x[ahead] < x[i]:
+                peak = (i + ahead - 1) // 2
+                sides = []
+                for step in (-1, 1):
+                    j, low = peak, x[peak]
+                    while 0 <= j < n and x[j] <= x[peak]:
+                        low = min(low, x[j])
+                        j += step
+                    sides.append(low)
+                if x[peak] - max(sides) >= floor:
+                    found.append(peak)
+                i = ahead
+        i += 1
+    return found
+
+
 def _peak_indices(signal: np.ndarray) -> list[int]:
     """Interior maxima of each defined stretch with the prominence rule."""
-    from scipy.signal import find_peaks
-
     ok = np.isfinite(signal)
     if not ok.any():
         return []
@@ -268,7 +299,7 @@ def _peak_indices(signal: np.ndarray) -> list[int]:
     found = []
     edges = np.flatnonzero(np.diff(np.concatenate([[0], ok.astype(int), [0]])))
     for start, stop in zip(edges[::2], edges[1::2], strict=True):
-        idx, _ = find_peaks(signal[start:stop], prominence=floor)
+        idx = _prominent_maxima(signal[start:stop], floor)
         found.extend(int(start + i) for i in idx if signal[start + i] > 0)
     return found
 

@@ -27,6 +27,19 @@ class StorageError(FreezeoutError):
     """The history database cannot be used (unsupported URL, schema newer than this tool)."""
 
 
+def insert_of(conn):
+    """The INSERT construct (with ON CONFLICT) of ``conn``'s back end: PostgreSQL or SQLite.
+
+    The PostgreSQL dialect is imported only for a PostgreSQL connection: its module loads
+    the asyncpg dialect too, a cost a SQLite history need not pay on every command.
+    """
+    if conn.dialect.name == "postgresql":
+        from sqlalchemy.dialects.postgresql import insert
+    else:
+        from sqlalchemy.dialects.sqlite import insert
+    return insert
+
+
 def default_url() -> str:
     """``$FREEZEOUT_DB`` if set, else a SQLite file under the user's data directory."""
     env = os.environ.get(ENV_VAR)

@@ -15,14 +15,13 @@ import json
 from collections.abc import Iterable
 
 from sqlalchemy import Engine, Table, select
-from sqlalchemy.dialects import postgresql as _pg
-from sqlalchemy.dialects import sqlite as _sqlite
 from sqlalchemy.engine import Connection
 
 from freezeout.errors import InputError
 from freezeout.fitting.result import FitResult
 from freezeout.records.history import QualificationSaved, Record, SaveOutcome, TrendPoint
 from freezeout.records.qualification import LotQualification
+from freezeout.storage import engine as _engine
 from freezeout.storage.engine import StorageError, default_url, make_engine, normalize_url
 from freezeout.storage.migrations import migrate, schema_version_of
 from freezeout.storage.rows import claim_rows, fit_row, lot_row
@@ -90,8 +89,7 @@ class Store:
 
     @staticmethod
     def _insert_once(conn: Connection, table: Table, row: dict) -> SaveOutcome:
-        dialect = _pg if conn.dialect.name == "postgresql" else _sqlite
-        stmt = (dialect.insert(table).values(**row)
+        stmt = (_engine.insert_of(conn)(table).values(**row)
                 .on_conflict_do_nothing(index_elements=["input_sha256", "options_hash"])
                 .returning(table.c.id))
         new_id = conn.execute(stmt).scalar_one_or_none()
@@ -191,8 +189,7 @@ class Store:
         """Insert rows not stored yet in one batched statement: (sha, options hash) -> new id."""
         if not rows:
             return {}
-        dialect = _pg if conn.dialect.name == "postgresql" else _sqlite
-        stmt = (dialect.insert(table)
+        stmt = (_engine.insert_of(conn)(table)
                 .on_conflict_do_nothing(index_elements=["input_sha256", "options_hash"])
                 .returning(table.c.id, table.c.input_sha256, table.c.options_hash))
         return {(r.input_sha256, r.options_hash): int(r.id)
