@@ -15,9 +15,9 @@ def png_bytes(fig_or_ax, fmt: str = "png") -> bytes:
 
     A PNG is drawn once on an Agg canvas (the layout and the drawing share one renderer, so
     each text is measured once) and encoded at zlib level 3 instead of 6 (project choice,
-    no source: a third less encoding time, the files no larger on these figures);
-    ``savefig`` adds a dry-run draw before the real one. Other formats go through
-    ``savefig``.
+    no source: a third less encoding time for files about 12 % larger, 271 -> 305 kB for
+    the silicon sample's five); ``savefig`` adds a dry-run draw before the real one. Other
+    formats go through ``savefig``.
     """
     fig = fig_or_ax if isinstance(fig_or_ax, Figure) else fig_or_ax.figure
     buf = io.BytesIO()
