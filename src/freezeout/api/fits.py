@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from freezeout._version import __version__
+from freezeout.api.level_physics import LevelPhysics, check_fit_use, level_physics
 from freezeout.api.materials import load_material
 from freezeout.api.runs import load_run
 from freezeout.api.simulation import check_statistics
@@ -42,6 +43,9 @@ def fit_file(
     posterior: bool = False,
     posterior_steps: int | None = None,
     posterior_progress=None,
+    excited_states: str | None = None,
+    energy_vs_density: str | None = None,
+    dos_mass: str | None = None,
 ) -> FitResult:
     """Read a run, fit it and return the :class:`~freezeout.fitting.result.FitResult`.
 
@@ -93,6 +97,8 @@ def fit_file(
         (:func:`freezeout.fitting.posterior.sample_posterior`; needs the ``posterior`` extra),
         ``posterior_steps`` steps per walker (default its ``DEFAULT_STEPS``), calling
         ``posterior_progress(done, total)`` after every step; the result carries ``posterior``.
+    excited_states, energy_vs_density, dos_mass
+        Optional physics, off by default (:mod:`freezeout.api.level_physics`).
     """
     check_statistics(statistics)
     run = load_run(path, hall_factor=reader_hall_factor(hall_factor, mobility),
@@ -106,7 +112,8 @@ def fit_file(
                           mobility=mobility, lattice_mu300=lattice_mu300,
                           lattice_exponent=lattice_exponent, carriers=carriers,
                           posterior=posterior, posterior_steps=posterior_steps,
-                          posterior_progress=posterior_progress)
+                          posterior_progress=posterior_progress, physics=level_physics(
+                              excited_states, energy_vs_density, dos_mass))
 
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
@@ -123,7 +130,7 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                    lattice_exponent: float | None = None,
                    carriers: str = "majority", posterior: bool = False,
                    posterior_steps: int | None = None, posterior_progress=None,
-                   spectrum: bool = True) -> FitResult:
+                   spectrum: bool = True, physics: LevelPhysics | None = None) -> FitResult:
     """Fit a run record with the options and provenance of :func:`fit_file`.
 
     ``input_name`` and ``input_path`` name where the run came from; ``where`` says it in the
@@ -139,7 +146,8 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     r_H(T) from the mechanisms at every point for both series (the density column, computed
     with the run's r_run, modelled as r_run n / r_H(T); mu_H = r_H(T) mu). A constant the
     user states is a measurement of the sample and wins; without one, the scattering the fit
-    already computes gives r_H(T), which moves by 10-20 % over a run.
+    already computes gives r_H(T), which moves by 10-20 % over a run. ``physics``: the
+    optional level and band physics (:func:`freezeout.api.level_physics.level_physics`).
     """
     import datetime as _dt
     from dataclasses import replace
@@ -170,13 +178,16 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
             material = stated
         else:
             notes.append(f"no material given and none stated in {where}: assumed Si")
-    mat = load_material(material, material_file)
+    physics = physics or level_physics()
+    check_fit_use(physics, run.carrier, joint=bool(models), posterior=posterior)
+    mat = physics.material(load_material(material, material_file))
     check_gap_open(mat, run.temperature, input_path)
     options = {"material": mat.name, "material_file": None if material_file is None
                else str(material_file), "donors": donors, "acceptors": acceptors,
                "statistics": statistics, "hall_factor": hall_factor, "degeneracy": degeneracy,
                "fix": dict(fix or {}), "bounds": {k: list(v) for k, v in (bounds or {}).items()},
-               "include_mixed": include_mixed, "include_flagged": include_flagged}
+               "include_mixed": include_mixed, "include_flagged": include_flagged,
+               **physics.options}
     if carriers == "both":
         options["carriers"] = "both"
     if posterior:
@@ -205,8 +216,10 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
     # full fits, without profiles, so that their chi^2 can be compared)
     role = ({"start_only": True} if carriers == "both" and density_fit is fit_run
             else {"profiles": carriers != "both"})
+    if physics.active:
+        role.update(excited=physics.excited, lowering=physics.lowering)
     result = density_fit(run, mat, donors=donors, acceptors=acceptors, statistics=statistics,
-                         degeneracy=degeneracy, fix=fix, bounds=bounds,
+                         degeneracy=physics.degeneracy(degeneracy), fix=fix, bounds=bounds,
                          include_flagged=include_flagged, provenance=provenance, **role)
     if carriers == "both":
         from freezeout.fitting.two_carrier import fit_run_two_carrier

@@ -190,6 +190,9 @@ def model_from_fit_json(path: str | Path, material: Material | None = None) -> P
                          column="statistics.model")
     if material is None:
         mdoc = _member(doc, "material", dict, file)
+        if mdoc.get("dos_mass_model", "constant") != "constant":
+            raise InputError("plan does not take a fit made with --dos-mass temperature yet",
+                             file=file, column="material.dos_mass_model")
         material = material_from_mapping({k: v for k, v in mdoc.items()
                                           if k in MATERIAL_KEYS and v is not None},
                                          file=file, description=str(mdoc.get("description", "")),
@@ -210,6 +213,9 @@ def model_from_fit_json(path: str | Path, material: Material | None = None) -> P
         if energy_doc is None or not (name.startswith(ms) and name[1:].isdigit()):
             raise InputError(f"not a fit result of the fit's model: level {name!r}",
                              file=file, column=f"{where}name")
+        if "excited_states" in lv or "pearson_bardeen_alpha_eV_cm" in lv:
+            raise InputError("plan does not take levels fitted with --excited-states or "
+                             "--energy-vs-density yet", file=file, column=f"{where}name")
         n_levels += 1
         values[f"N_{name}"] = conc
         values[f"E_{name}"] = _number(energy_doc, "value", file, f"{where}energy_eV.")

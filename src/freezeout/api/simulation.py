@@ -6,6 +6,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from freezeout.api.level_physics import LevelPhysics, level_physics
 from freezeout.api.materials import load_material
 from freezeout.errors import InputError
 
@@ -25,8 +26,16 @@ MAX_TEMPERATURE_K = 5000.0
 MAX_CONCENTRATION = 1e22
 
 
-def _levels(kind: str, specs: Sequence[LevelSpec]):
+def _levels(kind: str, specs: Sequence[LevelSpec], physics: LevelPhysics):
     from freezeout.physics.neutrality import DopantLevel
+
+    def options(energy, g) -> dict:  # the optional physics of a partially ionized level
+        if energy is None:
+            return {}
+        if kind == "donor" and physics.excited:
+            return {"excited": physics.excited, "lowering": physics.lowering,
+                    "degeneracy": physics.degeneracy(g)}
+        return {"lowering": physics.lowering}
 
     out = []
     for spec in specs:
@@ -35,8 +44,10 @@ def _levels(kind: str, specs: Sequence[LevelSpec]):
             raise InputError(f"{kind} {spec!r}: give (concentration, energy[, degeneracy])")
         g = None if len(spec) < 3 or spec[2] is None else float(spec[2])
         try:
-            out.append(DopantLevel(kind, float(spec[0]),
-                                   None if spec[1] is None else float(spec[1]), g))
+            energy = None if spec[1] is None else float(spec[1])
+            out.append(DopantLevel(kind, float(spec[0]), energy, g) if not physics.active
+                       else DopantLevel(kind, float(spec[0]), energy,
+                                        **{"degeneracy": g, **options(energy, g)}))
         except (TypeError, ValueError) as exc:
             raise InputError(f"{kind} {spec!r}: {exc}") from None
     return out
@@ -62,6 +73,10 @@ def simulate(
     lattice_exponent: float | None = None,
     minority_mu300: float | None = None,
     minority_exponent: float | None = None,
+    *,
+    excited_states: str | None = None,
+    energy_vs_density: str | None = None,
+    dos_mass: str | None = None,
 ):
     """Simulate a run: n, p, E_F and ionized fractions versus temperature.
 
@@ -90,6 +105,10 @@ def simulate(
         conduct together and ``R_H``, ``rho`` and ``mu_H = |R_H| / rho`` are the two-carrier
         values, so a hot run shows its mixed conduction and Hall sign reversal.
         [cm^2/(V s)], [1]
+    excited_states, energy_vs_density, dos_mass
+        Optional physics, off by default (:mod:`freezeout.api.level_physics`): the excited
+        states go to every partially ionized donor (its g the set's g_0 unless given), the
+        Pearson-Bardeen lowering to every partially ionized level (its energy is E_0).
 
     Returns
     -------
@@ -101,7 +120,8 @@ def simulate(
     from freezeout.physics.simulation import simulate as _simulate
     from freezeout.physics.simulation import temperature_grid
 
-    mat = load_material(material, material_file)
+    physics = level_physics(excited_states, energy_vs_density, dos_mass)
+    mat = physics.material(load_material(material, material_file))
     if isinstance(temperatures, tuple) and len(temperatures) == 3:
         try:
             t = temperature_grid(float(temperatures[0]), float(temperatures[1]),
@@ -117,7 +137,8 @@ def simulate(
     gap = float(np.min(mat.band_gap(t)))
     if not gap > 0:
         raise InputError(f"the band gap of {mat.name} closes within these temperatures")
-    levels = {"donor": _levels("donor", donors), "acceptor": _levels("acceptor", acceptors)}
+    levels = {"donor": _levels("donor", donors, physics), "acceptor": _levels(
+        "acceptor", acceptors, physics)}
     for kind, lvs in levels.items():
         for lv in lvs:
             if not lv.concentration <= MAX_CONCENTRATION:
@@ -152,7 +173,12 @@ def simulation_metadata(sim, statistics: str) -> dict[str, str]:
         for i, lv in enumerate(levels, 1):
             meta[f"{kind}_{i}"] = f"{lv.concentration:g} cm^-3, " + (
                 "fully ionized" if lv.energy is None
-                else f"{lv.energy:g} eV, g={lv.degeneracy:g}")
+                else f"{lv.energy:g} eV, g={lv.degeneracy:g}") + (
+                ", excited states " + " ".join(f"{d * 1e3:g}meV/g={g:g}" for d, g in lv.excited)
+                if lv.excited else "") + (
+                f", Pearson-Bardeen alpha={lv.lowering:g} eV cm" if lv.lowering else "")
+    if sim.material.dos_mass_model != "constant":
+        meta["dos_mass"] = sim.material.dos_mass_model
     tr = getattr(sim, "transport", None)
     if tr is not None and hasattr(tr, "electron_lattice"):  # both carriers
         meta["mobility"] = "+".join(tr.models) + (

@@ -22,6 +22,7 @@ from freezeout.cli.common import (
     parse_number,
     print_json,
 )
+from freezeout.cli.physics_options import DosMassOpt, EnergyVsDensityOpt, ExcitedStatesOpt
 from freezeout.cli.render import clean, console, num, say, show, text
 from freezeout.errors import InputError
 
@@ -96,6 +97,9 @@ def fit_command(
     posterior_steps: Annotated[int | None, typer.Option(
         "--posterior-steps", metavar="N", help="Steps per walker of --posterior (64 "
         "walkers; default 1000).")] = None,
+    excited_states: ExcitedStatesOpt = None,
+    energy_vs_density: EnergyVsDensityOpt = None,
+    dos_mass: DosMassOpt = None,
 ) -> int:
     """Fit a run; see HELP."""
     fixes = {k: parse_number(v, f"--fix {k}") for k, v in
@@ -126,6 +130,10 @@ def fit_command(
                    include_flagged=include_flagged, thickness=thickness,
                    mobility=mobility or (), lattice_mu300=mu300, lattice_exponent=exponent,
                    carriers=carriers)
+    for key, value in (("excited_states", excited_states), ("dos_mass", dos_mass),
+                       ("energy_vs_density", energy_vs_density)):
+        if value is not None:
+            options[key] = value
     if posterior or posterior_steps is not None:
         if not posterior:
             raise InputError("--posterior-steps needs --posterior")

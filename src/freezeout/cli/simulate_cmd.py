@@ -18,6 +18,7 @@ from freezeout.cli.common import (
     parse_number,
     print_json,
 )
+from freezeout.cli.physics_options import DosMassOpt, EnergyVsDensityOpt, ExcitedStatesOpt
 from freezeout.cli.render import clean
 from freezeout.errors import InputError
 
@@ -54,6 +55,9 @@ def simulate_command(
     out: Annotated[Path | None, typer.Option("--out", "-o", help="CSV file to write "
                                              "(default: stdout).")] = None,
     json_output: JsonOpt = False,
+    excited_states: ExcitedStatesOpt = None,
+    energy_vs_density: EnergyVsDensityOpt = None,
+    dos_mass: DosMassOpt = None,
 ) -> int:
     """Simulate a run; see HELP."""
     parts = temperatures.split(":")
@@ -80,7 +84,8 @@ def simulate_command(
                        acceptors=acceptors, temperatures=(t_min, t_max, n),
                        statistics=statistics, mobility=mobility or (), lattice_mu300=mu300,
                        lattice_exponent=exponent, minority_mu300=mu_min,
-                       minority_exponent=a_min)
+                       minority_exponent=a_min, excited_states=excited_states,
+                       energy_vs_density=energy_vs_density, dos_mass=dos_mass)
     if out is not None:
         api.write_simulation_csv(sim, statistics, out, material_file=material_file)
     if json_output:

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from freezeout.fitting.result import FitResult
+from freezeout.physics.level_energy import pearson_bardeen_energy
 from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
 
 
@@ -58,7 +59,7 @@ def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     for lv in result.levels:
         e = None if lv.energy is None else lv.energy.value
         named[lv.kind].append((lv.name, DopantLevel(lv.kind, lv.concentration.value, e,
-                                                     lv.degeneracy)))
+                                                     lv.degeneracy, lv.excited, lv.lowering)))
     donors = [d for _, d in named["donor"]]
     acceptors = [a for _, a in named["acceptor"]]
     names = [name for name, _ in (*named["donor"], *named["acceptor"])]
@@ -71,10 +72,12 @@ def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     for lv in levels:
         if lv.energy is None:
             energies.append(np.full(t.shape, np.nan))
-        elif lv.kind == "donor":
-            energies.append(res.band_gap - lv.energy)
+        elif lv.kind == "donor":  # (the Pearson-Bardeen lowered energy when set)
+            energies.append(res.band_gap - pearson_bardeen_energy(lv.energy, lv.concentration,
+                                                                  lv.lowering))
         else:
-            energies.append(np.full(t.shape, float(lv.energy)))
+            energies.append(np.full(t.shape, float(pearson_bardeen_energy(
+                lv.energy, lv.concentration, lv.lowering))))
     major, minor = (res.n, res.p) if result.carrier == "n" else (res.p, res.n)
     return ModelCurves(t, major, minor, material.intrinsic_density(t), tuple(names),
                        tuple(kinds), dens, tuple(fractions), tuple(energies), res.fermi_level,

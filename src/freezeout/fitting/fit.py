@@ -212,6 +212,8 @@ def fit_run(
     provenance: dict | None = None,
     profiles: bool = True,
     start_only: bool = False,
+    excited: tuple = (),
+    lowering: float = 0.0,
 ) -> FitResult:
     """Fit a run's majority-carrier density versus temperature.
 
@@ -246,6 +248,9 @@ def fit_run(
         fit): no profiles and no alternatives, each local fit stopped after
         :data:`START_EVALUATIONS` evaluations, and the best point kept even where the
         optimizer stopped short (no convergence statement: the refit states its own).
+    excited, lowering
+        Excited states ``(E_0 - E_i [eV], g_i)`` and Pearson-Bardeen alpha [eV cm] of the
+        majority levels (:class:`freezeout.fitting.model.CarrierModel`); off by default.
 
     Raises
     ------
@@ -255,8 +260,9 @@ def fit_run(
         When no start gives a finite fit.
     """
     n_levels, n_comp = _level_counts(run.carrier, donors, acceptors)
+    physics = {"excited": excited, "lowering": lowering}
     model = CarrierModel(material, run.temperature, run.carrier, n_levels, bool(n_comp),
-                         statistics, degeneracy)
+                         statistics, degeneracy, **physics)
     used = ~run.mixed
     if run.severe is not None and not include_flagged:
         used &= ~np.asarray(run.severe, dtype=bool)
@@ -273,7 +279,7 @@ def fit_run(
 
     t_used = run.temperature[used]
     model_used = CarrierModel(material, t_used, run.carrier, n_levels, bool(n_comp), statistics,
-                              degeneracy)
+                              degeneracy, **physics)
     y = np.log(run.density[used])
     weighted = run.density_err is not None
     sigma = (run.density_err[used] / run.density[used]) if weighted else np.ones(n_used)

@@ -58,11 +58,18 @@ class CarrierModel:
     degeneracy
         Ground-state degeneracy of the majority levels (default 2 for donors, 4 for
         acceptors). [1]
+    excited
+        ``(E_0 - E_i [eV], g_i)`` of the majority levels' excited states (none: a constant
+        g; see :class:`freezeout.physics.neutrality.DopantLevel`).
+    lowering
+        Pearson-Bardeen alpha of the majority levels; their ``E_*`` parameters are then the
+        isolated-centre energies E_0. [eV cm]
     """
 
     def __init__(self, material: Material, temperature, carrier: str, n_levels: int = 1,
                  compensated: bool = True, statistics: str = "fermi-dirac",
-                 degeneracy: float | None = None) -> None:
+                 degeneracy: float | None = None, *, excited: tuple = (),
+                 lowering: float = 0.0) -> None:
         if carrier not in ("n", "p"):
             raise ValueError(f"carrier must be 'n' or 'p', got {carrier!r}")
         if n_levels < 1:
@@ -81,6 +88,8 @@ class CarrierModel:
         default_g = (DEFAULT_DONOR_DEGENERACY if carrier == "n"
                      else DEFAULT_ACCEPTOR_DEGENERACY)
         self.degeneracy = float(default_g if degeneracy is None else degeneracy)
+        self.excited = tuple(excited)
+        self.lowering = float(lowering)
         self.bands = BandState.from_material(material, self.temperature)
         ms, mn = self.major_symbol, self.minor_symbol
         specs = []
@@ -147,7 +156,8 @@ class CarrierModel:
         major = []
         for i in range(1, self.n_levels + 1):
             major.append(DopantLevel(self.major_kind, 10.0 ** values[f"log10_N_{ms}{i}"],
-                                     values[f"E_{ms}{i}"], self.degeneracy))
+                                     values[f"E_{ms}{i}"], self.degeneracy, self.excited,
+                                     self.lowering))
         minor = []
         if self.compensated:
             minor.append(DopantLevel(self.minor_kind, 10.0 ** values[f"log10_N_{mn}"], None))

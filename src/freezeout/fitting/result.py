@@ -69,6 +69,10 @@ class LevelEstimate:
         Ground-state degeneracy used (None for a fully ionized species). [1]
     name
         Parameter name stem, e.g. ``"D1"`` or ``"A"``.
+    excited, lowering
+        Excited states ``(E_0 - E_i [eV], g_i)`` and Pearson-Bardeen alpha [eV cm] the fit
+        used for the level (``energy`` is then E_0 of an isolated centre); in the JSON only
+        when set.
     """
 
     kind: str
@@ -76,13 +80,21 @@ class LevelEstimate:
     energy: Estimate | None
     degeneracy: float | None
     name: str
+    excited: tuple = ()
+    lowering: float = 0.0
 
     def to_dict(self) -> dict:
         """JSON form."""
-        return {"kind": self.kind, "name": self.name,
-                "concentration_cm3": self.concentration.to_dict(),
-                "energy_eV": None if self.energy is None else self.energy.to_dict(),
-                "degeneracy": self.degeneracy}
+        out = {"kind": self.kind, "name": self.name,
+               "concentration_cm3": self.concentration.to_dict(),
+               "energy_eV": None if self.energy is None else self.energy.to_dict(),
+               "degeneracy": self.degeneracy}
+        if self.excited:
+            out["excited_states"] = [{"splitting_eV": d, "degeneracy": g}
+                                     for d, g in self.excited]
+        if self.lowering:
+            out["pearson_bardeen_alpha_eV_cm"] = self.lowering
+        return out
 
 
 @dataclass(frozen=True)

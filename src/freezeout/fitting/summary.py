@@ -169,7 +169,7 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
             held(estimate_linear(params[ename].value, se[ename], tq, lower=0.0, upper=gap),
                  ename),
             model_used.degeneracy,
-            f"{ms}{i}"))
+            f"{ms}{i}", model_used.excited, model_used.lowering))
     if model_used.compensated:
         est = estimate_log10(params[cname_min].value, se[cname_min], tq)
         if profile_upper is not None:

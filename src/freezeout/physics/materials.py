@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cache
 from importlib import resources
 
@@ -23,6 +23,8 @@ from freezeout.physics.bands import (
     intrinsic_density,
     varshni_band_gap,
 )
+from freezeout.physics.dos_mass import DOS_MASS_MODELS, TEMPERATURE_DOS_MASSES, polynomial_dos_mass
+from freezeout.physics.dos_mass import SOURCE as DOS_MASS_SOURCE
 
 #: Keys of a material description; the first six are required, the rest optional.
 MATERIAL_KEYS = (
@@ -66,6 +68,11 @@ class Material:
         Plain-language name.
     sources
         Citation of each parameter, keyed like :data:`MATERIAL_KEYS`.
+    dos_mass_polynomials
+        None (constant masses), or (electron, hole) coefficients (a0, a1, a2) of
+        temperature-dependent masses m/m0 = a0 + a1 T + a2 T^2
+        (:func:`freezeout.physics.dos_mass.polynomial_dos_mass`), which then replace the
+        constant ones in N_c and N_v; see :meth:`with_dos_mass_model`.
     """
 
     name: str
@@ -79,6 +86,7 @@ class Material:
     hole_conductivity_mass: float | None = None
     description: str = ""
     sources: Mapping[str, str] = field(default_factory=dict)
+    dos_mass_polynomials: tuple | None = None
 
     def band_gap(self, temperature):
         """Band gap at ``temperature`` [K] from Varshni's relation. [eV]"""
@@ -87,11 +95,42 @@ class Material:
 
     def nc(self, temperature):
         """Conduction-band effective density of states at ``temperature`` [K]. [cm^-3]"""
+        if self.dos_mass_polynomials is not None:
+            mass = polynomial_dos_mass(temperature, self.dos_mass_polynomials[0])
+            return effective_density_of_states(temperature, mass)
         return effective_density_of_states(temperature, self.electron_dos_mass)
 
     def nv(self, temperature):
         """Valence-band effective density of states at ``temperature`` [K]. [cm^-3]"""
+        if self.dos_mass_polynomials is not None:
+            mass = polynomial_dos_mass(temperature, self.dos_mass_polynomials[1])
+            return effective_density_of_states(temperature, mass)
         return effective_density_of_states(temperature, self.hole_dos_mass)
+
+    @property
+    def dos_mass_model(self) -> str:
+        """``"constant"`` or ``"temperature"`` (the masses N_c and N_v use)."""
+        return "constant" if self.dos_mass_polynomials is None else "temperature"
+
+    def with_dos_mass_model(self, model: str) -> Material:
+        """The material with ``"constant"`` or ``"temperature"``-dependent DOS masses.
+
+        Raises
+        ------
+        InputError
+            For an unknown model, or ``"temperature"`` on a material without a set
+            (:data:`freezeout.physics.dos_mass.TEMPERATURE_DOS_MASSES`: Si).
+        """
+        if model not in DOS_MASS_MODELS:
+            raise InputError(f"unknown density-of-states mass model {model!r}; valid: "
+                             f"{', '.join(DOS_MASS_MODELS)}")
+        if model == "constant":
+            return replace(self, dos_mass_polynomials=None)
+        if self.name not in TEMPERATURE_DOS_MASSES:
+            raise InputError(f"no temperature-dependent density-of-states masses for "
+                             f"material {self.name!r} (known: "
+                             f"{', '.join(TEMPERATURE_DOS_MASSES)})")
+        return replace(self, dos_mass_polynomials=TEMPERATURE_DOS_MASSES[self.name])
 
     def intrinsic_density(self, temperature):
         """Non-degenerate intrinsic density at ``temperature`` [K]. [cm^-3]"""
@@ -127,7 +166,10 @@ class Material:
             "hole_conductivity_mass": self.hole_conductivity_mass,
             "description": self.description,
             "sources": dict(self.sources),
-        }
+        } | ({} if self.dos_mass_polynomials is None else {
+            "dos_mass_model": "temperature",
+            "dos_mass_polynomials": [list(c) for c in self.dos_mass_polynomials],
+            "dos_mass_source": DOS_MASS_SOURCE})
 
 
 _LIMITS = {

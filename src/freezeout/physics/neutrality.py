@@ -66,12 +66,21 @@ class DopantLevel:
         acceptor), or None for a level that is fully ionized at every temperature. [eV]
     degeneracy
         Ground-state degeneracy factor g; None for the default (2 donors, 4 acceptors). [1]
+    excited
+        ``(E_0 - E_i [eV], g_i)`` of the level's excited states; g becomes g_eff(T) of
+        :func:`freezeout.physics.excited_states.log_effective_degeneracy` (none: g). [1]
+    lowering
+        Pearson-Bardeen alpha: the level sits at ``energy - lowering * concentration^(1/3)``
+        (:func:`freezeout.physics.level_energy.pearson_bardeen_energy`; 0: at ``energy``).
+        [eV cm]
     """
 
     kind: str
     concentration: float | np.ndarray
     energy: float | np.ndarray | None = None
     degeneracy: float | None = None
+    excited: tuple[tuple[float, float], ...] = ()
+    lowering: float = 0.0
 
     def __post_init__(self) -> None:
         if self.kind not in ("donor", "acceptor"):
@@ -86,6 +95,12 @@ class DopantLevel:
         if not (math.isfinite(c) and c >= 0 if isinstance(c, float | int) else (
                 np.isfinite(c := np.asarray(c, dtype=float)).all() and (c >= 0).all())):
             raise ValueError(f"{self.kind} concentration must be finite and >= 0, got {c}")
+        if not (math.isfinite(self.lowering) and self.lowering >= 0):
+            raise ValueError(f"lowering must be finite and >= 0, got {self.lowering!r}")
+        for delta, g in self.excited:
+            if not (math.isfinite(delta) and math.isfinite(g) and g > 0):
+                raise ValueError(f"excited state ({delta!r}, {g!r}) needs a finite splitting "
+                                 "and a degeneracy > 0")
         e = self.energy
         if e is not None and not (math.isfinite(e) if isinstance(e, float | int)
                                   else np.isfinite(e).all()):

@@ -18,6 +18,9 @@ from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
+from freezeout.physics.excited_states import log_effective_degeneracy
+from freezeout.physics.level_energy import pearson_bardeen_energy
+
 if TYPE_CHECKING:
     from freezeout.physics.neutrality import BandState, DopantLevel
 
@@ -72,15 +75,28 @@ def level_terms(bands: BandState, donors: Sequence[DopantLevel],
         if lv.energy is None:
             fixed_pos = fixed_pos + lv.concentration
         else:
+            log_g, energy = _level_g_and_energy(lv, kt)
             d_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
-                            np.log(lv.degeneracy) - (bands.band_gap - lv.energy) / kt))
+                            log_g - (bands.band_gap - energy) / kt))
     for lv in acceptors:
         if lv.energy is None:
             fixed_neg = fixed_neg + lv.concentration
         else:
+            log_g, energy = _level_g_and_energy(lv, kt)
             a_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
-                            np.log(lv.degeneracy) + lv.energy / kt))
+                            log_g + energy / kt))
     return LevelTerms(shape, tuple(d_terms), tuple(a_terms), fixed_pos, fixed_neg)
+
+
+def _level_g_and_energy(lv: DopantLevel, kt: np.ndarray):
+    """ln g (g_eff(T) with excited states) and the energy (Pearson-Bardeen when set)."""
+    if not lv.excited and not lv.lowering:
+        return np.log(lv.degeneracy), lv.energy
+    log_g = (log_effective_degeneracy(kt, lv.degeneracy, lv.excited) if lv.excited
+             else np.log(lv.degeneracy))
+    energy = (pearson_bardeen_energy(lv.energy, lv.concentration, lv.lowering)
+              if lv.lowering else lv.energy)
+    return log_g, energy
 
 
 def fermi_bracket(bands: BandState, terms: LevelTerms,

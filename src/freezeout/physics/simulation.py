@@ -140,7 +140,10 @@ class Simulation:
         def level(lv):
             return {"kind": lv.kind, "concentration_cm3": float(lv.concentration),
                     "energy_eV": None if lv.energy is None else float(lv.energy),
-                    "degeneracy": None if lv.energy is None else float(lv.degeneracy)}
+                    "degeneracy": None if lv.energy is None else float(lv.degeneracy)} | (
+                {"excited_states": [{"splitting_eV": d, "degeneracy": g}
+                                    for d, g in lv.excited]} if lv.excited else {}) | (
+                {"pearson_bardeen_alpha_eV_cm": lv.lowering} if lv.lowering else {})
         out = {
             "schema_version": SIM_SCHEMA_VERSION,
             "material": self.material.to_dict(),

@@ -1,0 +1,122 @@
+"""Pearson-Bardeen lowering of the ionization energy with the level's concentration.
+
+Source: G. L. Pearson, J. Bardeen, Phys. Rev. 75, 865 (1949): E = E_0 - alpha N^(1/3) with
+alpha about 4.3e-8 eV cm for Si:B and Si:P (from memory), i.e. a drop of about 43 meV at
+1e18 cm^-3 (from memory). The derivative checks use central differences of fresh solves
+(computed here).
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+import freezeout
+from cli_runner import cli
+from freezeout.errors import InputError
+from freezeout.fitting.fit import fit_run
+from freezeout.fitting.jacobian import majority_log_jacobian
+from freezeout.fitting.model import CarrierModel
+from freezeout.physics.level_energy import (
+    PEARSON_BARDEEN_ALPHA_SI,
+    parse_energy_vs_density,
+    pearson_bardeen_energy,
+)
+from freezeout.physics.materials import get_material
+from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
+from freezeout.records.run import RunData
+
+TRUTH = (3e16, 0.0455, 1e15)  # N_D [cm^-3], E_0 [eV], N_A [cm^-3]
+
+
+def test_published_drop_at_1e18():
+    """Pearson & Bardeen (1949), alpha from memory: about 43 meV lower at 1e18 cm^-3."""
+    assert PEARSON_BARDEEN_ALPHA_SI == 4.3e-8
+    drop = 0.045 - pearson_bardeen_energy(0.045, 1e18)
+    assert drop == pytest.approx(0.043, rel=1e-9)
+    # N^(1/3): 8 times the concentration, twice the drop
+    assert 0.045 - pearson_bardeen_energy(0.045, 8e18) == pytest.approx(2 * drop)
+
+
+def test_solve_uses_lowered_energy():
+    """A level with lowering solves exactly as the plain level at E_0 - alpha N^(1/3)."""
+    si = get_material("Si")
+    t = np.geomspace(20, 500, 30)
+    acc = [DopantLevel("acceptor", 1e15, None)]
+    a = solve_charge_neutrality(t, si, [DopantLevel("donor", 3e16, 0.0455, lowering=4.3e-8)],
+                                acc)
+    b = solve_charge_neutrality(t, si, [DopantLevel("donor", 3e16, 0.0455 - 4.3e-8 * 3e16
+                                                    ** (1 / 3))], acc)
+    np.testing.assert_allclose(a.log_n, b.log_n, rtol=0, atol=1e-12)
+
+
+def test_jacobian_includes_the_energy_shift():
+    """d ln n / d log10 N_D with lowering (the energy moves with N) against central
+    differences of fresh solves (computed here): 1e-5 relative."""
+    si = get_material("Si")
+    t = np.geomspace(25, 400, 20)
+    model = CarrierModel(si, t, "n", 1, True, lowering=PEARSON_BARDEEN_ALPHA_SI)
+    values = {"log10_N_D1": np.log10(TRUTH[0]), "E_D1": TRUTH[1],
+              "log10_N_A": np.log10(TRUTH[2])}
+    res = model.solve(values, warm=False)
+    names = ["log10_N_D1", "E_D1", "log10_N_A"]
+    jac = majority_log_jacobian(model, model.bands, values, res, names)
+    for k, name in enumerate(names):
+        h = 1e-5 if name.startswith("log10") else 1e-7
+        up = model.log_density({**values, name: values[name] + h}, warm=False)
+        down = model.log_density({**values, name: values[name] - h}, warm=False)
+        np.testing.assert_allclose(jac[k], (up - down) / (2 * h), rtol=1e-5, atol=1e-7)
+    # and it differs from the Jacobian without lowering (the term is there)
+    plain = CarrierModel(si, t, "n", 1, True)
+    jp = majority_log_jacobian(plain, plain.bands, values, plain.solve(values, warm=False),
+                               names)
+    assert np.max(np.abs(jp[0] - jac[0])) > 0.01
+
+
+def _run(noise=0.0, seed=0):
+    sim = freezeout.simulate("Si", donors=[TRUTH[:2]], acceptors=[(TRUTH[2], None)],
+                             temperatures=(25.0, 500.0, 40), energy_vs_density="pearson-bardeen")
+    d = sim.n * np.exp(np.random.default_rng(seed).normal(0.0, noise, sim.n.size))
+    return RunData("synthetic.csv", "0" * 64, sim.temperature, d,
+                   noise * d if noise else None, "n", ("n",) * d.size)
+
+
+def test_fit_recovers_e0_and_n():
+    """simulate with Pearson-Bardeen -> fit with it: E_0 and N_D back (common practice);
+    the plain fit gives the lowered energy E_0 - alpha N^(1/3) instead."""
+    run = _run()
+    d, a = fit_run(run, get_material("Si"), lowering=PEARSON_BARDEEN_ALPHA_SI).levels
+    assert d.concentration.value == pytest.approx(TRUTH[0], rel=1e-5)
+    assert d.energy.value == pytest.approx(TRUTH[1], abs=1e-7)
+    assert a.concentration.value == pytest.approx(TRUTH[2], rel=1e-4)
+    assert d.to_dict()["pearson_bardeen_alpha_eV_cm"] == PEARSON_BARDEEN_ALPHA_SI
+    plain = fit_run(run, get_material("Si")).levels[0]
+    lowered = float(pearson_bardeen_energy(TRUTH[1], TRUTH[0]))
+    assert plain.energy.value == pytest.approx(lowered, abs=1e-6)
+
+
+@pytest.mark.parametrize("seed", [1, 2])
+def test_fit_recovers_noisy_run(seed):
+    d, _ = fit_run(_run(0.02, seed), get_material("Si"),
+                   lowering=PEARSON_BARDEEN_ALPHA_SI).levels
+    assert abs(d.energy.value - TRUTH[1]) < 4 * d.energy.stderr
+    assert abs(np.log10(d.concentration.value / TRUTH[0])) < 0.05
+
+
+def test_option_parsing_and_json(monkeypatch, capsys):
+    assert parse_energy_vs_density(None) is None
+    assert parse_energy_vs_density("pearson-bardeen") == 4.3e-8
+    assert parse_energy_vs_density("Pearson-Bardeen:3e-8") == 3e-8
+    for bad in ("altermatt", "pearson-bardeen:x", "pearson-bardeen:-1e-8"):
+        with pytest.raises(InputError):
+            parse_energy_vs_density(bad)
+    code, out, _ = cli(monkeypatch, capsys, "fit", "sample_data/harrowgate_si_n_run.csv",
+                       "--json", "--no-history", "--energy-vs-density", "pearson-bardeen")
+    assert code == 0
+    d = json.loads(out)
+    assert d["provenance"]["options"]["energy_vs_density"]["alpha_eV_cm"] == 4.3e-8
+    code, _, err = cli(monkeypatch, capsys, "fit", "sample_data/harrowgate_si_n_run.csv",
+                       "--no-history", "--energy-vs-density", "bardeen")
+    assert code == 2 and "pearson-bardeen" in err
