@@ -1,9 +1,11 @@
-"""Pearson-Bardeen lowering of the ionization energy with the level's concentration.
+"""Lowering of the ionization energy with the level's concentration.
 
-Source: G. L. Pearson, J. Bardeen, Phys. Rev. 75, 865 (1949): E = E_0 - alpha N^(1/3) with
+Sources: G. L. Pearson, J. Bardeen, Phys. Rev. 75, 865 (1949): E = E_0 - alpha N^(1/3) with
 alpha about 4.3e-8 eV cm for Si:B and Si:P (from memory), i.e. a drop of about 43 meV at
-1e18 cm^-3 (from memory). The derivative checks use central differences of fresh solves
-(computed here).
+1e18 cm^-3 (from memory). P. P. Altermatt, A. Schenk, B. Schmithüsen, G. Heiser, J. Appl.
+Phys. 100, 113714 and 113715 (2006): E = E_0 / (1 + (N/N_ref)^c), Si:P N_ref = 3e18 cm^-3,
+c = 2, Si:B N_ref = 1.7e18 cm^-3, c = 1.4 (parameter sets as quoted in public device-model
+code). The derivative checks use central differences of fresh solves (computed here).
 """
 
 from __future__ import annotations
@@ -20,7 +22,9 @@ from freezeout.fitting.fit import fit_run
 from freezeout.fitting.jacobian import majority_log_jacobian
 from freezeout.fitting.model import CarrierModel
 from freezeout.physics.level_energy import (
+    ALTERMATT_SETS,
     PEARSON_BARDEEN_ALPHA_SI,
+    PearsonBardeen,
     parse_energy_vs_density,
     pearson_bardeen_energy,
 )
@@ -45,20 +49,23 @@ def test_solve_uses_lowered_energy():
     si = get_material("Si")
     t = np.geomspace(20, 500, 30)
     acc = [DopantLevel("acceptor", 1e15, None)]
-    a = solve_charge_neutrality(t, si, [DopantLevel("donor", 3e16, 0.0455, lowering=4.3e-8)],
-                                acc)
+    a = solve_charge_neutrality(t, si, [DopantLevel("donor", 3e16, 0.0455,
+                                                    lowering=PearsonBardeen())], acc)
     b = solve_charge_neutrality(t, si, [DopantLevel("donor", 3e16, 0.0455 - 4.3e-8 * 3e16
                                                     ** (1 / 3))], acc)
     np.testing.assert_allclose(a.log_n, b.log_n, rtol=0, atol=1e-12)
 
 
-def test_jacobian_includes_the_energy_shift():
-    """d ln n / d log10 N_D with lowering (the energy moves with N) against central
+@pytest.mark.parametrize("lowering", [PearsonBardeen(), ALTERMATT_SETS["altermatt-p"]],
+                         ids=["pearson-bardeen", "altermatt-p"])
+def test_jacobian_includes_the_energy_shift(lowering):
+    """d ln n / d log10 N_D and d E_0 with lowering (the energy moves with N) against central
     differences of fresh solves (computed here): 1e-5 relative."""
     si = get_material("Si")
     t = np.geomspace(25, 400, 20)
-    model = CarrierModel(si, t, "n", 1, True, lowering=PEARSON_BARDEEN_ALPHA_SI)
-    values = {"log10_N_D1": np.log10(TRUTH[0]), "E_D1": TRUTH[1],
+    model = CarrierModel(si, t, "n", 1, True, lowering=lowering)
+    big = isinstance(lowering, PearsonBardeen)  # Altermatt's form matters near N_ref only
+    values = {"log10_N_D1": np.log10(TRUTH[0] if big else 1e18), "E_D1": TRUTH[1],
               "log10_N_A": np.log10(TRUTH[2])}
     res = model.solve(values, warm=False)
     names = ["log10_N_D1", "E_D1", "log10_N_A"]
@@ -87,11 +94,11 @@ def test_fit_recovers_e0_and_n():
     """simulate with Pearson-Bardeen -> fit with it: E_0 and N_D back (common practice);
     the plain fit gives the lowered energy E_0 - alpha N^(1/3) instead."""
     run = _run()
-    d, a = fit_run(run, get_material("Si"), lowering=PEARSON_BARDEEN_ALPHA_SI).levels
+    d, a = fit_run(run, get_material("Si"), lowering=PearsonBardeen()).levels
     assert d.concentration.value == pytest.approx(TRUTH[0], rel=1e-5)
     assert d.energy.value == pytest.approx(TRUTH[1], abs=1e-7)
     assert a.concentration.value == pytest.approx(TRUTH[2], rel=1e-4)
-    assert d.to_dict()["pearson_bardeen_alpha_eV_cm"] == PEARSON_BARDEEN_ALPHA_SI
+    assert d.to_dict()["energy_vs_density"]["alpha_eV_cm"] == PEARSON_BARDEEN_ALPHA_SI
     plain = fit_run(run, get_material("Si")).levels[0]
     lowered = float(pearson_bardeen_energy(TRUTH[1], TRUTH[0]))
     assert plain.energy.value == pytest.approx(lowered, abs=1e-6)
@@ -100,16 +107,17 @@ def test_fit_recovers_e0_and_n():
 @pytest.mark.parametrize("seed", [1, 2])
 def test_fit_recovers_noisy_run(seed):
     d, _ = fit_run(_run(0.02, seed), get_material("Si"),
-                   lowering=PEARSON_BARDEEN_ALPHA_SI).levels
+                   lowering=PearsonBardeen()).levels
     assert abs(d.energy.value - TRUTH[1]) < 4 * d.energy.stderr
     assert abs(np.log10(d.concentration.value / TRUTH[0])) < 0.05
 
 
 def test_option_parsing_and_json(monkeypatch, capsys):
     assert parse_energy_vs_density(None) is None
-    assert parse_energy_vs_density("pearson-bardeen") == 4.3e-8
-    assert parse_energy_vs_density("Pearson-Bardeen:3e-8") == 3e-8
-    for bad in ("altermatt", "pearson-bardeen:x", "pearson-bardeen:-1e-8"):
+    assert parse_energy_vs_density("pearson-bardeen") == PearsonBardeen(4.3e-8)
+    assert parse_energy_vs_density("Pearson-Bardeen:3e-8") == PearsonBardeen(3e-8)
+    assert parse_energy_vs_density("altermatt-b") is ALTERMATT_SETS["altermatt-b"]
+    for bad in ("altermatt", "altermatt-p:2", "pearson-bardeen:x", "pearson-bardeen:-1e-8"):
         with pytest.raises(InputError):
             parse_energy_vs_density(bad)
     code, out, _ = cli(monkeypatch, capsys, "fit", "sample_data/harrowgate_si_n_run.csv",
@@ -120,3 +128,31 @@ def test_option_parsing_and_json(monkeypatch, capsys):
     code, _, err = cli(monkeypatch, capsys, "fit", "sample_data/harrowgate_si_n_run.csv",
                        "--no-history", "--energy-vs-density", "bardeen")
     assert code == 2 and "pearson-bardeen" in err
+
+
+def test_altermatt_sets():
+    """Altermatt et al. (2006): E(N_ref) = E_0 / 2; Si:P at 1e18 cm^-3 with their E_0 =
+    45.5 meV: 45.5 / (1 + (1/3)^2) = 40.95 meV (computed here from the published set)."""
+    p, b = ALTERMATT_SETS["altermatt-p"], ALTERMATT_SETS["altermatt-b"]
+    assert (p.n_ref, p.exponent, b.n_ref, b.exponent) == (3e18, 2.0, 1.7e18, 1.4)
+    assert float(p.energy(0.0455, 3e18)) == pytest.approx(0.0455 / 2)
+    assert float(p.energy(0.0455, 1e18)) == pytest.approx(0.04095, rel=1e-12)
+    assert float(b.energy(0.04439, 1.7e18)) == pytest.approx(0.04439 / 2)
+    # below 1e16 the form leaves the energy within 1e-4 relative (P)
+    assert float(p.energy(0.0455, 1e16)) == pytest.approx(0.0455, rel=2e-5)
+
+
+def test_fit_recovers_altermatt_run():
+    """simulate with altermatt-p at N_D = 5e17 -> fit with it: E_0 and N_D back (recovery;
+    common practice)."""
+    sim = freezeout.simulate("Si", donors=[(5e17, 0.0455)], acceptors=[(1e16, None)],
+                             temperatures=(25.0, 500.0, 40), energy_vs_density="altermatt-p")
+    run = RunData("synthetic.csv", "0" * 64, sim.temperature, sim.n, None, "n",
+                  ("n",) * sim.n.size)
+    d, a = fit_run(run, get_material("Si"), lowering=ALTERMATT_SETS["altermatt-p"]).levels
+    assert d.concentration.value == pytest.approx(5e17, rel=1e-4)
+    assert d.energy.value == pytest.approx(0.0455, abs=1e-6)
+    assert a.concentration.value == pytest.approx(1e16, rel=1e-3)
+    plain = fit_run(run, get_material("Si")).levels[0]
+    assert plain.energy.value == pytest.approx(float(ALTERMATT_SETS["altermatt-p"].energy(
+        0.0455, 5e17)), abs=2e-4)

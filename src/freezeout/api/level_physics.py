@@ -2,10 +2,10 @@
 
 Three options, each off by default (the results are then those without them):
 ``excited_states`` (a bundled donor set, ``si-p``, ``si-as``, ``si-sb``: g_eff(T) of
-:mod:`freezeout.physics.excited_states`), ``energy_vs_density`` (``pearson-bardeen`` or
-``pearson-bardeen:ALPHA``: E = E_0 - alpha N^(1/3) of :mod:`freezeout.physics.level_energy`,
-N the level's own concentration) and ``dos_mass`` (``constant`` or ``temperature``: the
-masses of :mod:`freezeout.physics.dos_mass`, Si only).
+:mod:`freezeout.physics.excited_states`), ``energy_vs_density`` (``pearson-bardeen``,
+``pearson-bardeen:ALPHA``, ``altermatt-p``, ``altermatt-b``: E(N) of
+:mod:`freezeout.physics.level_energy`, N the level's own concentration) and ``dos_mass``
+(``constant`` or ``temperature``: the masses of :mod:`freezeout.physics.dos_mass`, Si only).
 """
 
 from __future__ import annotations
@@ -26,7 +26,7 @@ class LevelPhysics:
     ground_degeneracy
         g_0 of the excited-state set, or None.
     lowering
-        Pearson-Bardeen alpha, 0 when off. [eV cm]
+        The energy-versus-density model, or None.
     dos_mass
         ``"constant"`` or ``"temperature"``.
     options
@@ -35,7 +35,7 @@ class LevelPhysics:
 
     excited: tuple
     ground_degeneracy: float | None
-    lowering: float
+    lowering: object | None
     dos_mass: str
     options: dict
     host: str | None = None
@@ -81,18 +81,16 @@ def level_physics(excited_states: str | None = None, energy_vs_density: str | No
         states = get_excited_states(excited_states)
         excited, g0, host = states.splittings, states.ground_degeneracy, states.host
         options["excited_states"] = states.to_dict()
-    alpha = parse_energy_vs_density(energy_vs_density)
-    if alpha is not None:
-        options["energy_vs_density"] = {"model": "pearson-bardeen", "alpha_eV_cm": alpha,
-                                        "concentration": "the level's own N",
-                                        "source": "G. L. Pearson, J. Bardeen, Phys. Rev. 75, "
-                                                  "865 (1949) (alpha from memory)"}
+    lowering = parse_energy_vs_density(energy_vs_density)
+    if lowering is not None:
+        options["energy_vs_density"] = {**lowering.to_dict(),
+                                        "concentration": "the level's own N"}
     mass = "constant" if dos_mass is None else dos_mass.strip().lower()
     if mass not in DOS_MASS_MODELS:
         raise InputError(f"unknown --dos-mass {dos_mass!r}; valid: {', '.join(DOS_MASS_MODELS)}")
     if mass != "constant":
         options["dos_mass"] = mass
-    return LevelPhysics(excited, g0, alpha or 0.0, mass, options, host)
+    return LevelPhysics(excited, g0, lowering, mass, options, host)
 
 
 def check_fit_use(physics: LevelPhysics, carrier: str, *, joint: bool,

@@ -213,7 +213,7 @@ def model_from_fit_json(path: str | Path, material: Material | None = None) -> P
         if energy_doc is None or not (name.startswith(ms) and name[1:].isdigit()):
             raise InputError(f"not a fit result of the fit's model: level {name!r}",
                              file=file, column=f"{where}name")
-        if "excited_states" in lv or "pearson_bardeen_alpha_eV_cm" in lv:
+        if "excited_states" in lv or "energy_vs_density" in lv:
             raise InputError("plan does not take levels fitted with --excited-states or "
                              "--energy-vs-density yet", file=file, column=f"{where}name")
         n_levels += 1

@@ -108,7 +108,7 @@ def simulate(
     excited_states, energy_vs_density, dos_mass
         Optional physics, off by default (:mod:`freezeout.api.level_physics`): the excited
         states go to every partially ionized donor (its g the set's g_0 unless given), the
-        Pearson-Bardeen lowering to every partially ionized level (its energy is E_0).
+        energy-versus-density model to every partially ionized level (its energy is E_0).
 
     Returns
     -------
@@ -176,7 +176,10 @@ def simulation_metadata(sim, statistics: str) -> dict[str, str]:
                 else f"{lv.energy:g} eV, g={lv.degeneracy:g}") + (
                 ", excited states " + " ".join(f"{d * 1e3:g}meV/g={g:g}" for d, g in lv.excited)
                 if lv.excited else "") + (
-                f", Pearson-Bardeen alpha={lv.lowering:g} eV cm" if lv.lowering else "")
+                ", energy vs density " + " ".join(
+                    f"{k}={v:g}" if isinstance(v, float) else f"{k}={v}"
+                    for k, v in lv.lowering.to_dict().items() if k != "source")
+                if lv.lowering else "")
     if sim.material.dos_mass_model != "constant":
         meta["dos_mass"] = sim.material.dos_mass_model
     tr = getattr(sim, "transport", None)

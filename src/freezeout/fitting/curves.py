@@ -7,7 +7,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from freezeout.fitting.result import FitResult
-from freezeout.physics.level_energy import pearson_bardeen_energy
 from freezeout.physics.neutrality import DopantLevel, solve_charge_neutrality
 
 
@@ -50,6 +49,12 @@ class ModelCurves:
     band_gap: np.ndarray
 
 
+def _energy(lv: DopantLevel):
+    """A level's ionization energy at its concentration. [eV]"""
+    return lv.energy if lv.lowering is None else lv.lowering.energy(lv.energy,
+                                                                    lv.concentration)
+
+
 def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     """Evaluate a fit's model from a bit below to a bit above the data's temperatures."""
     material = result.material
@@ -72,12 +77,10 @@ def model_curves(result: FitResult, n_points: int = 400) -> ModelCurves:
     for lv in levels:
         if lv.energy is None:
             energies.append(np.full(t.shape, np.nan))
-        elif lv.kind == "donor":  # (the Pearson-Bardeen lowered energy when set)
-            energies.append(res.band_gap - pearson_bardeen_energy(lv.energy, lv.concentration,
-                                                                  lv.lowering))
+        elif lv.kind == "donor":  # (the energy of its E(N) model when set)
+            energies.append(res.band_gap - _energy(lv))
         else:
-            energies.append(np.full(t.shape, float(pearson_bardeen_energy(
-                lv.energy, lv.concentration, lv.lowering))))
+            energies.append(np.full(t.shape, float(_energy(lv))))
     major, minor = (res.n, res.p) if result.carrier == "n" else (res.p, res.n)
     return ModelCurves(t, major, minor, material.intrinsic_density(t), tuple(names),
                        tuple(kinds), dens, tuple(fractions), tuple(energies), res.fermi_level,

@@ -213,7 +213,7 @@ def fit_run(
     profiles: bool = True,
     start_only: bool = False,
     excited: tuple = (),
-    lowering: float = 0.0,
+    lowering=None,
 ) -> FitResult:
     """Fit a run's majority-carrier density versus temperature.
 
@@ -249,8 +249,9 @@ def fit_run(
         :data:`START_EVALUATIONS` evaluations, and the best point kept even where the
         optimizer stopped short (no convergence statement: the refit states its own).
     excited, lowering
-        Excited states ``(E_0 - E_i [eV], g_i)`` and Pearson-Bardeen alpha [eV cm] of the
-        majority levels (:class:`freezeout.fitting.model.CarrierModel`); off by default.
+        Excited states ``(E_0 - E_i [eV], g_i)`` and energy-versus-density model
+        (:mod:`freezeout.physics.level_energy`) of the majority levels
+        (:class:`freezeout.fitting.model.CarrierModel`); off by default.
 
     Raises
     ------

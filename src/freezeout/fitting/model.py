@@ -62,14 +62,15 @@ class CarrierModel:
         ``(E_0 - E_i [eV], g_i)`` of the majority levels' excited states (none: a constant
         g; see :class:`freezeout.physics.neutrality.DopantLevel`).
     lowering
-        Pearson-Bardeen alpha of the majority levels; their ``E_*`` parameters are then the
-        isolated-centre energies E_0. [eV cm]
+        Energy-versus-density model of the majority levels
+        (:mod:`freezeout.physics.level_energy`), or None; their ``E_*`` parameters are then
+        the isolated-centre energies E_0.
     """
 
     def __init__(self, material: Material, temperature, carrier: str, n_levels: int = 1,
                  compensated: bool = True, statistics: str = "fermi-dirac",
                  degeneracy: float | None = None, *, excited: tuple = (),
-                 lowering: float = 0.0) -> None:
+                 lowering=None) -> None:
         if carrier not in ("n", "p"):
             raise ValueError(f"carrier must be 'n' or 'p', got {carrier!r}")
         if n_levels < 1:
@@ -89,7 +90,7 @@ class CarrierModel:
                      else DEFAULT_ACCEPTOR_DEGENERACY)
         self.degeneracy = float(default_g if degeneracy is None else degeneracy)
         self.excited = tuple(excited)
-        self.lowering = float(lowering)
+        self.lowering = lowering
         self.bands = BandState.from_material(material, self.temperature)
         ms, mn = self.major_symbol, self.minor_symbol
         specs = []

@@ -70,9 +70,9 @@ class LevelEstimate:
     name
         Parameter name stem, e.g. ``"D1"`` or ``"A"``.
     excited, lowering
-        Excited states ``(E_0 - E_i [eV], g_i)`` and Pearson-Bardeen alpha [eV cm] the fit
-        used for the level (``energy`` is then E_0 of an isolated centre); in the JSON only
-        when set.
+        Excited states ``(E_0 - E_i [eV], g_i)`` and energy-versus-density model
+        (:mod:`freezeout.physics.level_energy`) the fit used for the level (``energy`` is
+        then E_0 of an isolated centre); in the JSON only when set.
     """
 
     kind: str
@@ -81,7 +81,7 @@ class LevelEstimate:
     degeneracy: float | None
     name: str
     excited: tuple = ()
-    lowering: float = 0.0
+    lowering: object | None = None
 
     def to_dict(self) -> dict:
         """JSON form."""
@@ -92,8 +92,8 @@ class LevelEstimate:
         if self.excited:
             out["excited_states"] = [{"splitting_eV": d, "degeneracy": g}
                                      for d, g in self.excited]
-        if self.lowering:
-            out["pearson_bardeen_alpha_eV_cm"] = self.lowering
+        if self.lowering is not None:
+            out["energy_vs_density"] = self.lowering.to_dict()
         return out
 
 

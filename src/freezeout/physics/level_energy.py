@@ -1,21 +1,30 @@
-"""Concentration dependence of a level's ionization energy (Pearson-Bardeen).
+"""Concentration dependence of a level's ionization energy.
 
-    E(N) = E_0 - alpha N^(1/3)                                                       [1]
+    E(N) = E_0 - alpha N^(1/3)                      (Pearson-Bardeen [1])
+    E(N) = E_0 / (1 + (N / N_ref)^c)                (the E(N) form of Altermatt et al. [2])
 
-The lowering grows with the mean impurity spacing N^(-1/3) shrinking: neighbouring centres'
+The lowering grows as the mean impurity spacing N^(-1/3) shrinks: neighbouring centres'
 potentials overlap and the bound states broaden towards the band. Here N is the level's own
-concentration (N_D of a donor level, N_A of an acceptor level), the form of [1]; the
-compensating species does not enter. ``E_0`` is the isolated-centre energy, the one a fit
-reports.
+concentration (N_D of a donor level, N_A of an acceptor level); the compensating species
+does not enter. ``E_0`` is the isolated-centre energy, the one a fit reports. Of [2] only
+the E(N) form is taken, not its share of states in the impurity band.
+
+Each model is a small object with ``energy(E_0, N)``, ``scale(N)`` = dE/dE_0 and
+``slope(E_0, N)`` = dE/d ln N (for the fit's analytic Jacobian), and ``to_dict()``.
 
 References
 ----------
 .. [1] G. L. Pearson, J. Bardeen, "Electrical properties of pure silicon and silicon alloys
    containing boron and phosphorus", Phys. Rev. 75, 865 (1949): alpha about 4.3e-8 eV cm
    for Si:B and Si:P (value from memory).
+.. [2] P. P. Altermatt, A. Schenk, B. Schmithüsen, G. Heiser, J. Appl. Phys. 100, 113714
+   (2006) (Si:P: N_ref = 3e18 cm^-3, c = 2) and 113715 (2006) (Si:B: N_ref = 1.7e18 cm^-3,
+   c = 1.4).
 """
 
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -50,19 +59,80 @@ def pearson_bardeen_energy(energy_0k, concentration, alpha=PEARSON_BARDEEN_ALPHA
     return energy_0k - alpha * np.cbrt(concentration)  # [1]
 
 
-def parse_energy_vs_density(text: str | None) -> float | None:
-    """The lowering coefficient of an option ``pearson-bardeen`` or ``pearson-bardeen:ALPHA``.
+@dataclass(frozen=True)
+class PearsonBardeen:
+    """E = E_0 - alpha N^(1/3) [1]; ``alpha`` in eV cm."""
+
+    alpha: float = PEARSON_BARDEEN_ALPHA_SI
+
+    def energy(self, energy_0k, concentration):
+        """E at concentration N [cm^-3] of a centre of energy E_0 [eV]. [eV]"""
+        return pearson_bardeen_energy(energy_0k, concentration, self.alpha)
+
+    def scale(self, concentration):
+        """dE/dE_0. [1]"""
+        return 1.0
+
+    def slope(self, energy_0k, concentration):
+        """dE/d ln N = -(alpha/3) N^(1/3). [eV]"""
+        return -self.alpha / 3.0 * np.cbrt(concentration)
+
+    def to_dict(self) -> dict:
+        """JSON form."""
+        return {"model": "pearson-bardeen", "alpha_eV_cm": self.alpha,
+                "source": "G. L. Pearson, J. Bardeen, Phys. Rev. 75, 865 (1949) (alpha from "
+                          "memory)"}
+
+
+@dataclass(frozen=True)
+class AltermattForm:
+    """E = E_0 / (1 + (N/N_ref)^c) [2]; ``n_ref`` in cm^-3, ``exponent`` c."""
+
+    name: str
+    n_ref: float
+    exponent: float
+
+    def _x(self, concentration):
+        return (np.asarray(concentration, dtype=float) / self.n_ref) ** self.exponent
+
+    def energy(self, energy_0k, concentration):
+        """E at concentration N [cm^-3] of a centre of energy E_0 [eV]. [eV]"""
+        return energy_0k / (1.0 + self._x(concentration))  # [2]
+
+    def scale(self, concentration):
+        """dE/dE_0 = 1 / (1 + x), x = (N/N_ref)^c. [1]"""
+        return 1.0 / (1.0 + self._x(concentration))
+
+    def slope(self, energy_0k, concentration):
+        """dE/d ln N = -E_0 c x / (1 + x)^2. [eV]"""
+        x = self._x(concentration)
+        return -energy_0k * self.exponent * x / (1.0 + x) ** 2
+
+    def to_dict(self) -> dict:
+        """JSON form."""
+        return {"model": self.name, "n_ref_cm3": self.n_ref, "exponent": self.exponent,
+                "source": "P. P. Altermatt, A. Schenk, B. Schmithüsen, G. Heiser, J. Appl. "
+                          "Phys. 100, 113714 and 113715 (2006): E(N) form only"}
+
+
+#: The E(N) sets of [2]: Si:P and Si:B.
+ALTERMATT_SETS = {"altermatt-p": AltermattForm("altermatt-p", 3e18, 2.0),
+                  "altermatt-b": AltermattForm("altermatt-b", 1.7e18, 1.4)}
+
+
+def parse_energy_vs_density(text: str | None):
+    """The energy model of an option (``--energy-vs-density``).
 
     Parameters
     ----------
     text
-        None or ``"none"`` (no lowering), ``"pearson-bardeen"`` (alpha =
-        :data:`PEARSON_BARDEEN_ALPHA_SI`), or ``"pearson-bardeen:ALPHA"`` with ALPHA in eV cm.
+        None or ``"none"`` (none), ``"pearson-bardeen"`` (alpha =
+        :data:`PEARSON_BARDEEN_ALPHA_SI`), ``"pearson-bardeen:ALPHA"`` with ALPHA in eV cm,
+        ``"altermatt-p"`` or ``"altermatt-b"``.
 
     Returns
     -------
-    float or None
-        alpha [eV cm], or None.
+    PearsonBardeen, AltermattForm or None
 
     Raises
     ------
@@ -72,15 +142,18 @@ def parse_energy_vs_density(text: str | None) -> float | None:
     if text is None or text.strip().lower() in ("", "none"):
         return None
     name, _, value = text.strip().lower().partition(":")
+    if name in ALTERMATT_SETS and not value:
+        return ALTERMATT_SETS[name]
     if name != "pearson-bardeen":
-        raise InputError(f"unknown energy-vs-density model {text!r}; use 'pearson-bardeen' or "
-                         "'pearson-bardeen:ALPHA' (ALPHA in eV cm)")
+        raise InputError(f"unknown energy-vs-density model {text!r}; use 'pearson-bardeen', "
+                         "'pearson-bardeen:ALPHA' (ALPHA in eV cm), 'altermatt-p' or "
+                         "'altermatt-b'")
     if not value:
-        return PEARSON_BARDEEN_ALPHA_SI
+        return PearsonBardeen()
     try:
         alpha = float(value)
     except ValueError:
         raise InputError(f"pearson-bardeen alpha {value!r} is not a number (eV cm)") from None
     if not (np.isfinite(alpha) and 0.0 <= alpha <= 1e-6):
         raise InputError(f"pearson-bardeen alpha {alpha!r} is outside [0, 1e-6] eV cm")
-    return alpha
+    return PearsonBardeen(alpha)

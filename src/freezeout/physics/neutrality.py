@@ -70,9 +70,9 @@ class DopantLevel:
         ``(E_0 - E_i [eV], g_i)`` of the level's excited states; g becomes g_eff(T) of
         :func:`freezeout.physics.excited_states.log_effective_degeneracy` (none: g). [1]
     lowering
-        Pearson-Bardeen alpha: the level sits at ``energy - lowering * concentration^(1/3)``
-        (:func:`freezeout.physics.level_energy.pearson_bardeen_energy`; 0: at ``energy``).
-        [eV cm]
+        An energy-versus-density model of :mod:`freezeout.physics.level_energy`
+        (Pearson-Bardeen, Altermatt's form): the level sits at
+        ``lowering.energy(energy, concentration)``; None: at ``energy``.
     """
 
     kind: str
@@ -80,7 +80,7 @@ class DopantLevel:
     energy: float | np.ndarray | None = None
     degeneracy: float | None = None
     excited: tuple[tuple[float, float], ...] = ()
-    lowering: float = 0.0
+    lowering: object | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in ("donor", "acceptor"):
@@ -95,8 +95,8 @@ class DopantLevel:
         if not (math.isfinite(c) and c >= 0 if isinstance(c, float | int) else (
                 np.isfinite(c := np.asarray(c, dtype=float)).all() and (c >= 0).all())):
             raise ValueError(f"{self.kind} concentration must be finite and >= 0, got {c}")
-        if not (math.isfinite(self.lowering) and self.lowering >= 0):
-            raise ValueError(f"lowering must be finite and >= 0, got {self.lowering!r}")
+        if self.lowering is not None and not hasattr(self.lowering, "energy"):
+            raise ValueError(f"lowering must be an energy model, got {self.lowering!r}")
         for delta, g in self.excited:
             if not (math.isfinite(delta) and math.isfinite(g) and g > 0):
                 raise ValueError(f"excited state ({delta!r}, {g!r}) needs a finite splitting "

@@ -45,11 +45,20 @@ class LevelSensitivity(NamedTuple):
     d_log_p_d_energy: np.ndarray | None
 
 
-def _lowering_slope(lv: DopantLevel):
-    """dE/d ln N of a Pearson-Bardeen level, -(alpha/3) N^(1/3); None without lowering."""
-    if lv.energy is None or not lv.lowering:
+def _lowering_chain(lv: DopantLevel):
+    """(dE/dE_0, dE/d ln N) of a level with an E(N) model; None without one."""
+    if lv.energy is None or lv.lowering is None:
         return None
-    return -lv.lowering / 3.0 * np.cbrt(lv.concentration)
+    return (lv.lowering.scale(lv.concentration),
+            lv.lowering.slope(lv.energy, lv.concentration))
+
+
+def _chained(dn_c, dp_c, dn_e, dp_e, chain):
+    """Derivatives by the level's E (at E) mapped onto E_0 and ln N of its E(N) model."""
+    if chain is None:
+        return dn_c, dp_c, dn_e, dp_e
+    scale, slope = chain  # dE/dE_0, dE/d ln N
+    return dn_c + dn_e * slope, dp_c + dp_e * slope, dn_e * scale, dp_e * scale
 
 
 def sensitivities(bands: BandState, donors: Sequence[DopantLevel],
@@ -90,14 +99,14 @@ def sensitivities(bands: BandState, donors: Sequence[DopantLevel],
         curv = nf * (1.0 - f)
         pos = pos + nf
         slope_pos = slope_pos - curv
-        d_charge.append((nf, curv, lv.energy is not None, _lowering_slope(lv)))
+        d_charge.append((nf, curv, lv.energy is not None, _lowering_chain(lv)))
     a_charge = []
     for lv, g in zip(acceptors, result.acceptor_ionized, strict=True):
         ng = lv.concentration * g
         curv = ng * (1.0 - g)
         neg = neg + ng
         slope_neg = slope_neg + curv
-        a_charge.append((ng, curv, lv.energy is not None, _lowering_slope(lv)))
+        a_charge.append((ng, curv, lv.energy is not None, _lowering_chain(lv)))
     d_r_du = slope_pos / pos - slope_neg / neg  # < 0: the residual decreases in u
 
     def moved(d_r):
@@ -105,17 +114,13 @@ def sensitivities(bands: BandState, donors: Sequence[DopantLevel],
         return r_n * du, -r_p * du
 
     out_d = []
-    for nf, curv, has_e, slope in d_charge:
+    for nf, curv, has_e, chain in d_charge:
         dn_c, dp_c = moved(nf / pos)
         dn_e, dp_e = moved(-curv / (kt * pos)) if has_e else (None, None)
-        if slope is not None:  # the energy moves with ln N: dE/d ln N = slope
-            dn_c, dp_c = dn_c + dn_e * slope, dp_c + dp_e * slope
-        out_d.append(LevelSensitivity(dn_c, dp_c, dn_e, dp_e))
+        out_d.append(LevelSensitivity(*_chained(dn_c, dp_c, dn_e, dp_e, chain)))
     out_a = []
-    for ng, curv, has_e, slope in a_charge:
+    for ng, curv, has_e, chain in a_charge:
         dn_c, dp_c = moved(-ng / neg)
         dn_e, dp_e = moved(curv / (kt * neg)) if has_e else (None, None)
-        if slope is not None:
-            dn_c, dp_c = dn_c + dn_e * slope, dp_c + dp_e * slope
-        out_a.append(LevelSensitivity(dn_c, dp_c, dn_e, dp_e))
+        out_a.append(LevelSensitivity(*_chained(dn_c, dp_c, dn_e, dp_e, chain)))
     return out_d, out_a

@@ -19,7 +19,6 @@ from typing import TYPE_CHECKING, NamedTuple
 import numpy as np
 
 from freezeout.physics.excited_states import log_effective_degeneracy
-from freezeout.physics.level_energy import pearson_bardeen_energy
 
 if TYPE_CHECKING:
     from freezeout.physics.neutrality import BandState, DopantLevel
@@ -89,13 +88,13 @@ def level_terms(bands: BandState, donors: Sequence[DopantLevel],
 
 
 def _level_g_and_energy(lv: DopantLevel, kt: np.ndarray):
-    """ln g (g_eff(T) with excited states) and the energy (Pearson-Bardeen when set)."""
-    if not lv.excited and not lv.lowering:
+    """ln g (g_eff(T) with excited states) and the energy (its E(N) model when set)."""
+    if not lv.excited and lv.lowering is None:
         return np.log(lv.degeneracy), lv.energy
     log_g = (log_effective_degeneracy(kt, lv.degeneracy, lv.excited) if lv.excited
              else np.log(lv.degeneracy))
-    energy = (pearson_bardeen_energy(lv.energy, lv.concentration, lv.lowering)
-              if lv.lowering else lv.energy)
+    energy = (lv.energy if lv.lowering is None
+              else lv.lowering.energy(lv.energy, lv.concentration))
     return log_g, energy
 
 

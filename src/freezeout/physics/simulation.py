@@ -143,7 +143,7 @@ class Simulation:
                     "degeneracy": None if lv.energy is None else float(lv.degeneracy)} | (
                 {"excited_states": [{"splitting_eV": d, "degeneracy": g}
                                     for d, g in lv.excited]} if lv.excited else {}) | (
-                {"pearson_bardeen_alpha_eV_cm": lv.lowering} if lv.lowering else {})
+                {"energy_vs_density": lv.lowering.to_dict()} if lv.lowering else {})
         out = {
             "schema_version": SIM_SCHEMA_VERSION,
             "material": self.material.to_dict(),
