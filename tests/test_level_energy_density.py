@@ -115,7 +115,7 @@ def test_fit_recovers_noisy_run(seed):
 def test_option_parsing_and_json(monkeypatch, capsys):
     assert parse_energy_vs_density(None) is None
     assert parse_energy_vs_density("pearson-bardeen") == PearsonBardeen(4.3e-8)
-    assert parse_energy_vs_density("Pearson-Bardeen:3e-8") == PearsonBardeen(3e-8)
+    assert parse_energy_vs_density("Pearson-Bardeen:3e-8") == PearsonBardeen(3e-8, host=None)
     assert parse_energy_vs_density("altermatt-b") is ALTERMATT_SETS["altermatt-b"]
     for bad in ("altermatt", "altermatt-p:2", "pearson-bardeen:x", "pearson-bardeen:-1e-8"):
         with pytest.raises(InputError):
@@ -156,3 +156,42 @@ def test_fit_recovers_altermatt_run():
     plain = fit_run(run, get_material("Si")).levels[0]
     assert plain.energy.value == pytest.approx(float(ALTERMATT_SETS["altermatt-p"].energy(
         0.0455, 5e17)), abs=2e-4)
+
+
+@pytest.mark.parametrize("args, says", [
+    # the default alpha and the Altermatt sets are silicon's (G. L. Pearson, J. Bardeen,
+    # Phys. Rev. 75, 865 (1949); P. P. Altermatt et al., J. Appl. Phys. 100, 113714 and
+    # 113715 (2006)): another host needs its own alpha; a set belongs to one kind of level
+    (("sample_data/harrowgate_gan_p_epilayer.csv", "--energy-vs-density", "pearson-bardeen"),
+     "values are for Si"),
+    (("sample_data/harrowgate_gan_p_epilayer.csv", "--energy-vs-density", "altermatt-b"),
+     "values are for Si"),
+    (("sample_data/harrowgate_si_n_run.csv", "-m", "Si", "--energy-vs-density",
+      "altermatt-b"), "for acceptor levels"),
+    (("sample_data/harrowgate_si_n_run.csv", "-m", "Si", "--energy-vs-density",
+      "pearson-bardeen:"), "after the colon"),
+    (("sample_data/harrowgate_si_n_run.csv", "-m", "Si", "--energy-vs-density",
+      "pearson-bardeen:1e-6"), "outside"),
+    (("sample_data/harrowgate_si_n_run.csv", "-m", "Si", "--excited-states", "si-p",
+      "--donors", "2"), "one donor level"),
+])
+def test_options_refused_off_their_host_or_level(monkeypatch, capsys, args, says):
+    code, _, err = cli(monkeypatch, capsys, "fit", *args, "--json", "--no-history")
+    assert code == 2 and says in err and "Traceback" not in err
+
+
+def test_explicit_alpha_is_accepted_on_another_host(monkeypatch, capsys):
+    code, out, _ = cli(monkeypatch, capsys, "fit", "sample_data/harrowgate_gan_p_epilayer.csv",
+                       "--energy-vs-density", "pearson-bardeen:3e-8", "--json",
+                       "--no-history")
+    assert code == 0
+    doc = json.loads(out)
+    assert any(w.startswith("level physics used:") and "E_0" in w for w in doc["warnings"])
+    assert doc.get("spectroscopy") is None  # the spectrum assumes a constant energy
+
+
+def test_simulate_refuses_a_level_lowered_into_the_band():
+    # 4.3e-8 eV cm x (1e20)^(1/3) = 0.2 eV > 0.045 eV (computed here)
+    with pytest.raises(InputError, match="into the band"):
+        freezeout.api.simulate("Si", donors=[(1e20, 0.045)], temperatures=(20.0, 400.0, 5),
+                               energy_vs_density="pearson-bardeen")

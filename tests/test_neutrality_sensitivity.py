@@ -86,3 +86,36 @@ def test_batch_shapes_broadcast():
     # an exhausted donor over a small compensation: ln n moves one to one with ln N_D when
     # hot (common practice, no source: n = N_D - N_A in saturation)
     assert sd[0].d_log_n_d_log_conc[0, 10] == pytest.approx(1e15 / (1e15 - 1e14), rel=2e-2)
+
+
+@pytest.mark.parametrize("with_lowering", [False, True])
+def test_derivatives_with_excited_states_and_energy_lowering(with_lowering):
+    # Si:P 1s states (A. K. Ramdas, S. Rodriguez, Rep. Prog. Phys. 44, 1297 (1981), values
+    # from memory) and Pearson-Bardeen E = E_0 - alpha N^(1/3) (G. L. Pearson, J. Bardeen,
+    # Phys. Rev. 75, 865 (1949), alpha from memory): the derivatives are by E_0 and ln N of
+    # the model, against central differences of fresh solves (computed here)
+    from freezeout.physics.excited_states import get_excited_states
+    from freezeout.physics.level_energy import PearsonBardeen
+
+    states = get_excited_states("si-p")
+    lowering = PearsonBardeen() if with_lowering else None
+    material = api.load_material("Si")
+    t = np.geomspace(15.0, 500.0, 40)
+    bands = BandState.from_material(material, t)
+
+    def solve(conc, e0):
+        d = [DopantLevel("donor", conc, e0, states.ground_degeneracy,
+                         excited=states.splittings, lowering=lowering)]
+        a = [DopantLevel("acceptor", 4e14, None)]
+        return d, a, solve_levels(bands, d, a)
+
+    d, a, res = solve(3e16, 0.0456)
+    sens = sensitivities(bands, d, a, res)[0][0]
+    for what, h in (("log_conc", 1e-6), ("energy", 1e-7)):
+        up = solve(3e16 * math.exp(h), 0.0456)[2] if what == "log_conc" else solve(
+            3e16, 0.0456 + h)[2]
+        down = solve(3e16 * math.exp(-h), 0.0456)[2] if what == "log_conc" else solve(
+            3e16, 0.0456 - h)[2]
+        fd = (up.log_n - down.log_n) / (2 * h)
+        got = getattr(sens, f"d_log_n_d_{what}")
+        assert np.max(np.abs(got - fd)) <= 2e-5 * np.max(np.abs(fd)), what

@@ -179,7 +179,8 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         else:
             notes.append(f"no material given and none stated in {where}: assumed Si")
     physics = physics or level_physics()
-    check_fit_use(physics, run.carrier, joint=bool(models), posterior=posterior)
+    check_fit_use(physics, run.carrier, joint=bool(models), posterior=posterior,
+                  majority_levels=donors if run.carrier == "n" else acceptors)
     mat = physics.material(load_material(material, material_file))
     check_gap_open(mat, run.temperature, input_path)
     options = {"material": mat.name, "material_file": None if material_file is None
@@ -235,7 +236,10 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
                                base=result, fix=fix, bounds=bounds)
     if notes:
         result = replace(result, warnings=tuple(notes) + result.warnings)
-    if spectrum and carriers == "majority" and not models:
+    physics_note = physics.note(result.levels)
+    if physics_note:
+        result = replace(result, warnings=(physics_note,) + result.warnings)
+    if spectrum and carriers == "majority" and not models and not physics.active:
         # the density fit's run read without a fit: Hoffmann's level spectrum of n(T)
         from freezeout.fitting.spectroscopy import fit_spectrum
 

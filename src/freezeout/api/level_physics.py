@@ -41,10 +41,44 @@ class LevelPhysics:
     host: str | None = None
 
     def check_host(self, material) -> None:
-        """InputError when the excited-state set belongs to another host than ``material``."""
+        """InputError when the options' values belong to another host than ``material``.
+
+        The excited-state sets and the default energy-versus-density values are silicon's.
+        """
+        from freezeout.physics.level_energy import check_lowering_use
+
         if self.host is not None and material.name != self.host:
             raise InputError(f"--excited-states: the set is for {self.host}, the material is "
                              f"{material.name}")
+        check_lowering_use(self.lowering, material.name)
+
+    def note(self, levels) -> str | None:
+        """A plain statement of the options a fit used and what its energies mean, or None.
+
+        ``levels`` are the fit's level estimates (name, concentration, energy).
+        """
+        if not self.active:
+            return None
+        parts = []
+        if self.excited:
+            set_ = self.options["excited_states"]
+            parts.append(f"donor excited states of {set_.get('name', 'the set')} (g_eff(T) "
+                         "from the set's states)")
+        if self.lowering is not None:
+            moved = []
+            for lv in levels:
+                if lv.energy is None:
+                    continue
+                e0, n = lv.energy.value, lv.concentration.value
+                moved.append(f"{lv.name} at {float(self.lowering.energy(e0, n)):.4g} eV "
+                             f"(E_0 = {e0:.4g} eV)")
+            parts.append(f"energy versus density ({self.options['energy_vs_density']['model']}"
+                         "): the energies reported are E_0, the isolated-centre values, and at "
+                         "its concentration each level lies lower: " + "; ".join(moved))
+        if self.dos_mass != "constant":
+            parts.append(f"{self.dos_mass}-dependent density-of-states masses")
+        return ("level physics used: " + ", ".join(parts) + "; no level spectrum is drawn "
+                "(it assumes a constant degeneracy and energy)")
 
     @property
     def active(self) -> bool:
@@ -94,20 +128,27 @@ def level_physics(excited_states: str | None = None, energy_vs_density: str | No
 
 
 def check_fit_use(physics: LevelPhysics, carrier: str, *, joint: bool,
-                  posterior: bool) -> None:
+                  posterior: bool, majority_levels: int | str = 1) -> None:
     """Refuse the combinations not built.
 
-    Excited states of acceptors, and any option with the joint and two-carrier fits or the
-    posterior.
+    Excited states of acceptors or of more than one majority level (a set belongs to one
+    dopant), an energy-versus-density set of the other level kind, and any option with the
+    joint and two-carrier fits or the posterior.
 
     Raises
     ------
     InputError
         Naming the option and what it cannot be combined with.
     """
+    from freezeout.physics.level_energy import check_lowering_use
+
     if physics.excited and carrier == "p":
         raise InputError("--excited-states: the bundled sets are donor states; this run is "
                          "p-type")
+    if physics.excited and majority_levels != 1:
+        raise InputError("--excited-states: a set is the states of one dopant; fit one donor "
+                         f"level with it (--donors 1), not {majority_levels}")
+    check_lowering_use(physics.lowering, None, "donor" if carrier == "n" else "acceptor")
     if physics.options and (joint or posterior):
         names = ", ".join("--" + k.replace("_", "-") for k in physics.options)
         raise InputError(f"{names} work with the density-only fit; not (yet) with --mobility, "

@@ -29,13 +29,18 @@ MAX_CONCENTRATION = 1e22
 def _levels(kind: str, specs: Sequence[LevelSpec], physics: LevelPhysics):
     from freezeout.physics.neutrality import DopantLevel
 
+    # an energy-versus-density set of one level kind (Altermatt's Si:P, Si:B) applies to
+    # that kind only
+    own = getattr(physics.lowering, "kind", None)
+    lowering = physics.lowering if own in (None, kind) else None
+
     def options(energy, g) -> dict:  # the optional physics of a partially ionized level
         if energy is None:
             return {}
         if kind == "donor" and physics.excited:
-            return {"excited": physics.excited, "lowering": physics.lowering,
+            return {"excited": physics.excited, "lowering": lowering,
                     "degeneracy": physics.degeneracy(g)}
-        return {"lowering": physics.lowering}
+        return {"lowering": lowering}
 
     out = []
     for spec in specs:
@@ -147,6 +152,13 @@ def simulate(
             if lv.energy is not None and not lv.energy < gap:
                 raise InputError(f"{kind} ionization energy {lv.energy:g} eV is not below the "
                                  f"band gap ({gap:.4g} eV)")
+            lowering = getattr(lv, "lowering", None)
+            if lv.energy is not None and lowering is not None and not float(
+                    lowering.energy(lv.energy, lv.concentration)) > 0:
+                raise InputError(f"{kind} level {lv.concentration:g} cm^-3, {lv.energy:g} eV: "
+                                 "the energy-versus-density model lowers it to "
+                                 f"{float(lowering.energy(lv.energy, lv.concentration)):.3g} eV, "
+                                 "into the band; the model does not describe such a level")
     if mobility:
         from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
 

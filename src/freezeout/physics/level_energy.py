@@ -19,7 +19,8 @@ References
    for Si:B and Si:P (value from memory).
 .. [2] P. P. Altermatt, A. Schenk, B. Schmithüsen, G. Heiser, J. Appl. Phys. 100, 113714
    (2006) (Si:P: N_ref = 3e18 cm^-3, c = 2) and 113715 (2006) (Si:B: N_ref = 1.7e18 cm^-3,
-   c = 1.4).
+   c = 1.4): values as quoted in public device-simulation parameter sets, not read in the
+   papers themselves (from memory of those sets).
 """
 
 from __future__ import annotations
@@ -59,11 +60,22 @@ def pearson_bardeen_energy(energy_0k, concentration, alpha=PEARSON_BARDEEN_ALPHA
     return energy_0k - alpha * np.cbrt(concentration)  # [1]
 
 
+#: Largest alpha accepted [eV cm]: 5 times the largest published value quoted for the
+#: bundled hosts (about 4e-8 eV cm; project choice, no source): a lowering of 0.2 eV at
+#: 1e18 cm^-3.
+MAX_ALPHA = 2e-7
+
+
 @dataclass(frozen=True)
 class PearsonBardeen:
-    """E = E_0 - alpha N^(1/3) [1]; ``alpha`` in eV cm."""
+    """E = E_0 - alpha N^(1/3) [1]; ``alpha`` in eV cm.
+
+    ``host`` is the material the default alpha belongs to (Si), None for an alpha given.
+    """
 
     alpha: float = PEARSON_BARDEEN_ALPHA_SI
+    host: str | None = "Si"
+    kind: str | None = None
 
     def energy(self, energy_0k, concentration):
         """E at concentration N [cm^-3] of a centre of energy E_0 [eV]. [eV]"""
@@ -86,11 +98,17 @@ class PearsonBardeen:
 
 @dataclass(frozen=True)
 class AltermattForm:
-    """E = E_0 / (1 + (N/N_ref)^c) [2]; ``n_ref`` in cm^-3, ``exponent`` c."""
+    """E = E_0 / (1 + (N/N_ref)^c) [2]; ``n_ref`` in cm^-3, ``exponent`` c.
+
+    ``host`` and ``kind`` say which levels the set was fitted for (Si:P donors, Si:B
+    acceptors): it applies to those only.
+    """
 
     name: str
     n_ref: float
     exponent: float
+    host: str | None = None
+    kind: str | None = None
 
     def _x(self, concentration):
         return (np.asarray(concentration, dtype=float) / self.n_ref) ** self.exponent
@@ -116,8 +134,28 @@ class AltermattForm:
 
 
 #: The E(N) sets of [2]: Si:P and Si:B.
-ALTERMATT_SETS = {"altermatt-p": AltermattForm("altermatt-p", 3e18, 2.0),
-                  "altermatt-b": AltermattForm("altermatt-b", 1.7e18, 1.4)}
+ALTERMATT_SETS = {"altermatt-p": AltermattForm("altermatt-p", 3e18, 2.0, "Si", "donor"),
+                  "altermatt-b": AltermattForm("altermatt-b", 1.7e18, 1.4, "Si", "acceptor")}
+
+
+def check_lowering_use(model, material_name: str | None, kind: str | None = None) -> None:
+    """InputError when an energy-versus-density model is used off its host or level kind.
+
+    The default Pearson-Bardeen alpha and the Altermatt sets are silicon values [1, 2]; the
+    Altermatt sets also belong to one kind of level. ``kind`` is the kind of the levels it
+    is applied to; None (either) is not checked.
+    """
+    if model is None:
+        return
+    what = getattr(model, "name", "pearson-bardeen")
+    if model.host is not None and material_name is not None and material_name != model.host:
+        hint = (" (give pearson-bardeen:ALPHA with the host's own alpha)"
+                if isinstance(model, PearsonBardeen) else "")
+        raise InputError(f"--energy-vs-density {what}: its values are for {model.host}, the "
+                         f"material is {material_name}{hint}")
+    if kind is not None and model.kind is not None and kind != model.kind:
+        raise InputError(f"--energy-vs-density {what}: the set is for {model.kind} levels; "
+                         f"this run's partially ionized levels are {kind}s")
 
 
 def parse_energy_vs_density(text: str | None):
@@ -137,7 +175,8 @@ def parse_energy_vs_density(text: str | None):
     Raises
     ------
     InputError
-        Any other text, or an alpha that is not a number in [0, 1e-6] eV cm.
+        Any other text, an empty ALPHA, or an alpha that is not a number in
+        [0, :data:`MAX_ALPHA`] eV cm.
     """
     if text is None or text.strip().lower() in ("", "none"):
         return None
@@ -149,11 +188,14 @@ def parse_energy_vs_density(text: str | None):
                          "'pearson-bardeen:ALPHA' (ALPHA in eV cm), 'altermatt-p' or "
                          "'altermatt-b'")
     if not value:
+        if ":" in text:
+            raise InputError("pearson-bardeen: give the alpha after the colon (eV cm), or "
+                             "leave out the colon for the silicon value")
         return PearsonBardeen()
     try:
         alpha = float(value)
     except ValueError:
         raise InputError(f"pearson-bardeen alpha {value!r} is not a number (eV cm)") from None
-    if not (np.isfinite(alpha) and 0.0 <= alpha <= 1e-6):
-        raise InputError(f"pearson-bardeen alpha {alpha!r} is outside [0, 1e-6] eV cm")
-    return PearsonBardeen(alpha)
+    if not (np.isfinite(alpha) and 0.0 <= alpha <= MAX_ALPHA):
+        raise InputError(f"pearson-bardeen alpha {alpha!r} is outside [0, {MAX_ALPHA:g}] eV cm")
+    return PearsonBardeen(alpha, host=None)
