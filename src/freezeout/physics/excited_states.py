@@ -17,7 +17,8 @@ spin).
 References
 ----------
 .. [1] J. S. Blakemore, *Semiconductor Statistics* (Pergamon, 1962), Sec. 3.2 (impurity
-   levels with excited states; the occupancy with the internal partition function).
+   levels with excited states; the occupancy with the internal partition function; section
+   from memory).
 .. [2] A. K. Ramdas, S. Rodriguez, "Spectroscopy of the solid-state analogues of the hydrogen
    atom: donors and acceptors in semiconductors", Rep. Prog. Phys. 44, 1297 (1981), the
    1s binding energies of P, As and Sb in Si (values here from memory).
