@@ -5,21 +5,34 @@ forked helper draws some of them while this process draws the rest (about 0.45 s
 for the silicon sample's five figures, ``benchmarks/bench_command.py``). The figures are
 handed out one at a time from a pipe holding their numbers (a one-byte read from a pipe is
 atomic, so each figure is drawn once), and the helper sends its PNG (and SVG) bytes back
-through another pipe. Whatever the helper did not deliver (it failed, or was killed) is
-drawn here, so a failure shows as it would without the helper.
+through another pipe, in one message once it has drawn all it claimed. Whatever the helper
+did not deliver is drawn here, so a failure shows as it would without the helper: the helper
+raised, was killed (also halfway through sending: a message that does not decode is not
+used), exited with a code other than 0, or could not be forked (EAGAIN, ENOMEM; the pipes
+are closed again). If this process is interrupted or a drawing raises here, the helper is
+ended with SIGTERM and waited for (also when a second interrupt comes meanwhile) before the
+exception goes on; Ctrl-C itself is ignored by the helper and left to this process.
 
-The helper is used only where ``os.fork`` exists, two CPUs are available, this process runs
-no other thread (a fork copies no thread, and any lock another thread held would stay held)
-and is not itself a worker of a process pool (``qualify``'s wafers).
+:func:`can_fork` uses the helper only on Linux (elsewhere, macOS for one, system libraries
+are not safe in a forked child that does not exec), with two CPUs available, when this
+process runs no other *Python* thread (``threading.active_count() == 1``: a fork copies only
+the calling thread, and a lock another thread held would stay held) and is not itself a
+worker of a process pool (``qualify``'s wafers). Threads that native libraries start on
+their own are not counted: numpy's OpenBLAS starts a pool when it is loaded (two OS threads
+for one Python thread here), and it registers a ``pthread_atfork`` handler that stops the
+pool before a fork and restarts it on next use (measured: one thread in /proc/self/task
+after the fork, in parent and helper). Other native threads would not be seen.
 """
 
 from __future__ import annotations
 
 import os
 import pickle
+import signal
 import sys
 import threading
 from collections.abc import Callable, Iterator, Sequence
+from typing import NoReturn
 
 from freezeout.reporting.figure_output import png_bytes
 
@@ -27,17 +40,19 @@ from freezeout.reporting.figure_output import png_bytes
 #: to draw.
 Job = tuple[str, Callable[[], object]]
 
+#: Signals held back across the fork, so that neither process is interrupted before it is in
+#: the code that cleans up after the other.
+_HELD = frozenset({signal.SIGINT, signal.SIGTERM})
+
 
 def can_fork() -> bool:
-    """True where a forked helper may draw: fork, two CPUs, one thread, not a pool worker."""
-    if not hasattr(os, "fork") or threading.active_count() != 1:
+    """True where a forked helper may draw: Linux, two CPUs, one Python thread, no pool worker."""
+    if sys.platform != "linux" or threading.active_count() != 1:
         return False
     mp = sys.modules.get("multiprocessing")
     if mp is not None and mp.parent_process() is not None:
         return False
-    cpus = (len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity")
-            else os.cpu_count() or 1)
-    return cpus >= 2
+    return len(os.sched_getaffinity(0)) >= 2
 
 
 def render_figures(jobs: Sequence[Job], *, svg: bool = False, workers: int | None = None
@@ -49,8 +64,8 @@ def render_figures(jobs: Sequence[Job], *, svg: bool = False, workers: int | Non
     """
     if workers is None:
         workers = 2 if can_fork() else 1
-    if workers < 2 or len(jobs) < 2:
-        done = _render(jobs, range(len(jobs)), svg)
+    if workers < 2 or not 2 <= len(jobs) <= 255 or not hasattr(os, "fork"):
+        done = _render(jobs, range(len(jobs)), svg)  # job numbers are sent as single bytes
     else:
         done = _render_forked(jobs, svg)
     return {jobs[i][0]: done[i] for i in sorted(done) if done[i] is not None}
@@ -74,36 +89,125 @@ def _claims(fd: int) -> Iterator[int]:
 
 def _render_forked(jobs: Sequence[Job], svg: bool) -> dict[int, tuple | None]:
     """Draw the jobs here and in one forked helper, sharing them out through a pipe."""
-    if len(jobs) > 255:
+    started = _fork_helper(jobs, svg)
+    if started is None:  # no pipe or no process to be had: everything is drawn here
         return _render(jobs, range(len(jobs)), svg)
-    todo_r, todo_w = os.pipe()
-    os.write(todo_w, bytes(range(len(jobs))))
-    os.close(todo_w)
-    out_r, out_w = os.pipe()
-    pid = os.fork()
-    if pid == 0:  # the helper: draw what it claims, send the bytes, leave at once
-        data = b""
-        try:
-            os.close(out_r)
-            data = pickle.dumps(_render(jobs, _claims(todo_r), svg))
-        except BaseException:  # the parent draws what is missing
-            data = b""
-        finally:
-            try:
-                with os.fdopen(out_w, "wb") as stream:
-                    stream.write(data)
-            finally:
-                os._exit(0)
-    os.close(out_w)
+    pid, todo_r, out_r, mask = started
+    finished = False
     try:
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
         done = _render(jobs, _claims(todo_r), svg)
+        data = _read_all(out_r)
+        finished = True
     finally:
-        os.close(todo_r)
-        with os.fdopen(out_r, "rb") as stream:
-            data = stream.read()
-        os.waitpid(pid, 0)
-    if data:
-        done.update(pickle.loads(data))  # our own helper's bytes
+        code = _finish(pid, (todo_r, out_r), stop=not finished)
+    if code in (0, None):
+        done.update(_decode(data))
     missing = [i for i in range(len(jobs)) if i not in done]
     done.update(_render(jobs, missing, svg))
     return done
+
+
+def _fork_helper(jobs: Sequence[Job], svg: bool) -> tuple[int, int, int, set] | None:
+    """Fork the helper: (its pid, job pipe, result pipe, signal mask to restore), or None.
+
+    None, with no pipe left open and the signal mask as it was, when no pipe or no process
+    could be made (EMFILE, EAGAIN, ENOMEM). Otherwise SIGINT and SIGTERM are still held
+    back here; the caller restores ``mask`` inside the block that ends with waiting for the
+    helper.
+    """
+    fds: list[int] = []
+    mask = None
+    try:
+        fds += os.pipe()
+        os.write(fds[1], bytes(range(len(jobs))))  # at most 255 bytes: one atomic write
+        os.close(fds.pop())  # readers see the end once every number is claimed
+        fds += os.pipe()
+        mask = signal.pthread_sigmask(signal.SIG_BLOCK, _HELD)
+        pid = os.fork()
+    except BaseException as exc:
+        if mask is not None:
+            signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+        for fd in fds:
+            os.close(fd)
+        if isinstance(exc, OSError):
+            return None
+        raise
+    todo_r, out_r, out_w = fds
+    if pid == 0:
+        _serve(jobs, svg, todo_r, out_r, out_w, mask)
+    os.close(out_w)
+    return pid, todo_r, out_r, mask
+
+
+def _serve(jobs: Sequence[Job], svg: bool, todo_r: int, out_r: int, out_w: int,
+           mask) -> NoReturn:
+    """The helper: draw what it claims, send the bytes in one message, leave at once.
+
+    Exit code 0 once the whole message is written, 1 if anything failed (nothing is sent
+    then; the parent draws what is missing). Ctrl-C is left to the parent, which ends the
+    helper with SIGTERM.
+    """
+    code = 1
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+        os.close(out_r)
+        data = pickle.dumps(_render(jobs, _claims(todo_r), svg))
+        with os.fdopen(out_w, "wb") as stream:
+            stream.write(data)
+        code = 0
+    finally:
+        os._exit(code)
+
+
+def _read_all(fd: int) -> bytes:
+    """Everything read from ``fd`` until its end."""
+    chunks = []
+    while chunk := os.read(fd, 1 << 20):
+        chunks.append(chunk)
+    return b"".join(chunks)
+
+
+def _decode(data: bytes) -> dict:
+    """The helper's message, index -> (PNG, SVG or None) or None; {} if it does not decode."""
+    try:
+        got = pickle.loads(data)  # our own helper's bytes
+    except Exception:  # cut short (the helper was killed while sending) or empty
+        return {}
+    return got if isinstance(got, dict) else {}
+
+
+def _finish(pid: int, fds, stop: bool) -> int | None:
+    """End the helper with SIGTERM if ``stop``, close ``fds``, wait for it: its exit code.
+
+    None when the exit code is unknown (the helper was reaped elsewhere, as with SIGCHLD
+    ignored). An exception raised while waiting (a second Ctrl-C) ends the helper too and is
+    raised once it has been waited for, so that no helper is left a zombie.
+    """
+    if stop:
+        _terminate(pid)
+    for fd in fds:
+        os.close(fd)
+    pending = None
+    while True:
+        try:
+            status = os.waitpid(pid, 0)[1]
+            break
+        except ChildProcessError:
+            status = None
+            break
+        except BaseException as exc:  # e.g. KeyboardInterrupt: stop the helper, wait again
+            pending = pending or exc
+            _terminate(pid)
+    if pending is not None:
+        raise pending
+    return None if status is None else os.waitstatus_to_exitcode(status)
+
+
+def _terminate(pid: int) -> None:
+    try:
+        os.kill(pid, signal.SIGTERM)
+    except ProcessLookupError:  # already reaped elsewhere
+        pass
