@@ -31,6 +31,7 @@ import pickle
 import signal
 import sys
 import threading
+import warnings
 from collections.abc import Callable, Iterator, Sequence
 from typing import NoReturn
 
@@ -124,7 +125,12 @@ def _fork_helper(jobs: Sequence[Job], svg: bool) -> tuple[int, int, int, set] | 
         os.close(fds.pop())  # readers see the end once every number is claimed
         fds += os.pipe()
         mask = signal.pthread_sigmask(signal.SIG_BLOCK, _HELD)
-        pid = os.fork()
+        with warnings.catch_warnings():
+            # Python 3.12+ warns of a fork beside other OS threads; the only ones here are
+            # OpenBLAS's pool, which registers its own fork handler (see can_fork)
+            warnings.filterwarnings("ignore", category=DeprecationWarning,
+                                    message=".*fork.*")
+            pid = os.fork()
     except BaseException as exc:
         if mask is not None:
             signal.pthread_sigmask(signal.SIG_SETMASK, mask)
