@@ -206,12 +206,16 @@ def test_opening_a_v1_database_migrates_and_backfills(store_url):
             assert not inspect(conn).has_table("claim_records")
             # a lot record as version 1 wrote it
             result = cs.lot_qualification().to_dict()
+            created, day = dt.datetime(2026, 11, 4, tzinfo=dt.UTC), dt.date(2026, 11, 3)
+            if store_url.startswith("sqlite"):
+                # the text sqlite3's default adapters wrote (deprecated as of Python 3.12)
+                created, day = created.isoformat(" "), day.isoformat()
             conn.execute(text(
                 "INSERT INTO lot_records (created_at, supplier, lot, lot_date, verdict, "
                 "input_name, input_sha256, options_json, options_hash, tool_version, "
                 "result_json) VALUES (:t, :s, :l, :d, :v, 'lot.toml', :h, '{}', :oh, '0.0.9', "
-                ":r)"), {"t": dt.datetime(2026, 11, 4, tzinfo=dt.UTC), "s": cs.SUPPLIER,
-                         "l": "KRW-2611-07", "d": dt.date(2026, 11, 3), "v": "reject",
+                ":r)"), {"t": created, "s": cs.SUPPLIER,
+                         "l": "KRW-2611-07", "d": day, "v": "reject",
                          "h": cs.sha("v1"), "oh": options_hash({}),
                          "r": canonical_json(result)})
     finally:

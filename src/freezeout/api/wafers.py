@@ -224,13 +224,19 @@ def measure_wafers(jobs: Sequence[WaferJob], workers: int,
             done(job.wafer_id)
         return results
     import os
+    import warnings
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
     warm_imports()  # imported before the fork, so no worker imports them again
     pool = ProcessPoolExecutor(max_workers=workers, mp_context=pool_context(),
                                initializer=_start_worker, initargs=(os.getpid(),))
     try:
-        futures = {pool.submit(measure_wafer, job): job.wafer_id for job in jobs}
+        with warnings.catch_warnings():
+            # Python 3.12+ warns of a fork beside other threads (the pool's own manager,
+            # OpenBLAS's pool, which has its own fork handler); the workers only fit
+            warnings.filterwarnings("ignore", category=DeprecationWarning,
+                                    message=".*fork.*")
+            futures = {pool.submit(measure_wafer, job): job.wafer_id for job in jobs}
         for fut in as_completed(futures):
             wid = futures[fut]
             results[wid] = fut.result()
