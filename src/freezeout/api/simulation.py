@@ -31,8 +31,9 @@ def _levels(kind: str, specs: Sequence[LevelSpec], physics: LevelPhysics):
 
     # an energy-versus-density set of one level kind (Altermatt's Si:P, Si:B) applies to
     # that kind only
-    own = getattr(physics.lowering, "kind", None)
-    lowering = physics.lowering if own in (None, kind) else None
+    lowering = physics.lowering
+    if lowering is not None and lowering.kind not in (None, kind):
+        lowering = None
 
     def options(energy, g) -> dict:  # the optional physics of a partially ionized level
         if energy is None:
@@ -152,13 +153,13 @@ def simulate(
             if lv.energy is not None and not lv.energy < gap:
                 raise InputError(f"{kind} ionization energy {lv.energy:g} eV is not below the "
                                  f"band gap ({gap:.4g} eV)")
-            lowering = getattr(lv, "lowering", None)
-            if lv.energy is not None and lowering is not None and not float(
-                    lowering.energy(lv.energy, lv.concentration)) > 0:
-                raise InputError(f"{kind} level {lv.concentration:g} cm^-3, {lv.energy:g} eV: "
-                                 "the energy-versus-density model lowers it to "
-                                 f"{float(lowering.energy(lv.energy, lv.concentration)):.3g} eV, "
-                                 "into the band; the model does not describe such a level")
+            if lv.energy is not None and lv.lowering is not None:
+                lowered = float(lv.lowering.energy(lv.energy, lv.concentration))
+                if not lowered > 0:
+                    raise InputError(f"{kind} level {lv.concentration:g} cm^-3, {lv.energy:g} "
+                                     f"eV: the energy-versus-density model lowers it to "
+                                     f"{lowered:.3g} eV, into the band; the model does not "
+                                     "describe such a level")
     if mobility:
         from freezeout.physics.majority_mobility import check_lattice, check_mechanisms
 

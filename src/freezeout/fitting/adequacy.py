@@ -21,7 +21,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats
+
+from freezeout.fitting.quantiles import chi2_quantile
 
 #: Runs-test z below which the residuals count as systematic. [1]
 RUNS_Z_LIMIT = -3.0
@@ -83,7 +84,7 @@ def misfit_significant(weighted: bool, chi2: float, dof: int, rms: float) -> boo
         rms misfit. [%]
     """
     if weighted:
-        return dof > 0 and np.isfinite(chi2) and chi2 > stats.chi2.ppf(CHI2_QUANTILE, dof)
+        return dof > 0 and np.isfinite(chi2) and chi2 > chi2_quantile(CHI2_QUANTILE, dof)
     return bool(np.isfinite(rms) and rms > RUNS_GATE_RMS_PERCENT)
 
 

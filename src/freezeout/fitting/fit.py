@@ -322,7 +322,6 @@ def fit_run(
         START_EVALUATIONS if start_only else MAX_EVALUATIONS)
     not_converged = False
     if start_only:
-        profiles = False
         if stalled is not None and (best is None or stalled.chisqr < best.chisqr):
             best = stalled
     elif best is None and stalled is not None and stalled.nfree > 0:
@@ -353,6 +352,7 @@ def fit_run(
         best.chisqr, best.nfree, weighted)
     upper = None
     cname = model_used.compensation_name
+    profiles = profiles and not start_only
     if profiles and model_used.compensated and cname not in internal_fix:
         se_c = best.params[cname].stderr
         at_floor = best.params[cname].value <= best.params[cname].min + 0.05

@@ -18,7 +18,7 @@ from freezeout.fitting.parameters import lmfit_parameters
 from freezeout.fitting.problem import Problem
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
-from freezeout.physics.neutrality import BandState, solve_levels
+from freezeout.physics.neutrality import solve_levels
 
 
 def guess(temperature: np.ndarray, density: np.ndarray, material: Material) -> dict:
@@ -134,10 +134,8 @@ def batch_residuals_jacobian(problem: Problem, names: list[str], theta: np.ndarr
     model = problem.model
     batch = {k: theta[:, j][:, None] for j, k in enumerate(names)}
     batch.update(fixed)
-    t, b = model.temperature, model.bands
-    bands = BandState(t[None, :], b.kt[None, :], b.band_gap[None, :], b.log_nc[None, :],
-                      b.log_nv[None, :])
-    shape = (theta.shape[0], t.size)
+    bands = model.row_bands
+    shape = (theta.shape[0], model.temperature.size)
     try:
         with np.errstate(all="ignore"):
             donors, acceptors = model.levels(batch)

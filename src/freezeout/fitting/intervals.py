@@ -19,9 +19,9 @@ import math
 from dataclasses import replace
 
 import numpy as np
-from scipy import stats
 
 from freezeout.fitting.profile import CHI2_95_1DOF, ProfileInterval
+from freezeout.fitting.quantiles import f_quantile
 from freezeout.fitting.result import Estimate
 
 #: A correlation beyond which the covariance is not trusted for intervals (project choice,
@@ -43,7 +43,7 @@ def profile_threshold(weighted: bool, dof: int) -> float:
     """
     if weighted or dof <= 0:
         return CHI2_95_1DOF
-    return float(stats.f.ppf(0.95, 1, dof))
+    return f_quantile(0.95, 1, dof)
 
 
 def wald_unreliable(out, covar: np.ndarray | None, tq: float, has_upper: bool) -> bool:

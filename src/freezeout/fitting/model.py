@@ -92,6 +92,11 @@ class CarrierModel:
         self.excited = tuple(excited)
         self.lowering = lowering
         self.bands = BandState.from_material(material, self.temperature)
+        b = self.bands
+        #: The same band state as one row, (1, temperatures): it broadcasts over a batch of
+        #: parameter rows ((k, 1) values).
+        self.row_bands = BandState(b.temperature[None, :], b.kt[None, :], b.band_gap[None, :],
+                                   b.log_nc[None, :], b.log_nv[None, :])
         ms, mn = self.major_symbol, self.minor_symbol
         specs = []
         for i in range(1, self.n_levels + 1):
@@ -188,14 +193,11 @@ class CarrierModel:
         kept: the batch of a finite-difference Jacobian around the last solution.
         """
         donors, acceptors = self.levels(values)
-        b = self.bands
-        rows = BandState(b.temperature[None, :], b.kt[None, :], b.band_gap[None, :],
-                         b.log_nc[None, :], b.log_nv[None, :])
         init = None
         if self._warm_fermi is not None:
             k = max(int(np.shape(v)[0]) for v in values.values() if np.ndim(v) == 2)
             init = np.broadcast_to(self._warm_fermi, (k, self._warm_fermi.size))
-        return solve_levels(rows, donors, acceptors, self.statistics, init)
+        return solve_levels(self.row_bands, donors, acceptors, self.statistics, init)
 
     def log_density(self, values: dict, warm: bool = True) -> np.ndarray:
         """ln of the majority-carrier density (cm^-3) at the data temperatures."""

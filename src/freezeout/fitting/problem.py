@@ -101,11 +101,7 @@ class Problem:
         """
         names = starts[0].keys()
         batch = {k: np.array([s[k] for s in starts])[:, None] for k in names}
-        t = self.model.temperature
-        bands = self.model.bands
-        bb = BandState(t[None, :], bands.kt[None, :], bands.band_gap[None, :],
-                       bands.log_nc[None, :], bands.log_nv[None, :])
-        res = self.model.solve(batch, bands=bb, warm=False)
+        res = self.model.solve(batch, bands=self.model.row_bands, warm=False)
         r = (self.model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
         cost = np.sum(r * r, axis=1)
         return np.where(np.isfinite(cost), cost, np.inf), res.fermi_level
@@ -127,12 +123,9 @@ class Problem:
             where not finite, and the Fermi levels of the solve (rows, points). [1], [eV]
         """
         t = self.model.temperature
-        bands = self.model.bands
-        bb = BandState(t[None, :], bands.kt[None, :], bands.band_gap[None, :],
-                       bands.log_nc[None, :], bands.log_nv[None, :])
         donors, acceptors = self.model.levels(values)
         try:
-            res = solve_levels(bb, donors, acceptors, self.model.statistics, init)
+            res = solve_levels(self.model.row_bands, donors, acceptors, self.model.statistics, init)
         except (RuntimeError, ValueError, FloatingPointError):
             rows = max((np.shape(v)[0] for v in values.values() if np.ndim(v)), default=1)
             if rows == 1:

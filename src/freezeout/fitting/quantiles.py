@@ -24,3 +24,11 @@ def chi2_quantile(p: float, dof: float) -> float:
     from scipy import stats
 
     return float(stats.chi2.ppf(p, dof))
+
+
+@functools.lru_cache(maxsize=1024)
+def f_quantile(p: float, dfn: float, dfd: float) -> float:
+    """Quantile p of Fisher's F with (dfn, dfd) degrees of freedom (scipy.stats.f.ppf)."""
+    from scipy import stats
+
+    return float(stats.f.ppf(p, dfn, dfd))

@@ -11,7 +11,6 @@ import math
 from dataclasses import replace
 
 import numpy as np
-from scipy import stats
 
 from freezeout.fitting.intervals import apply_profiles, profile_threshold, wald_unreliable
 from freezeout.fitting.model import CarrierModel
@@ -19,6 +18,7 @@ from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, pow10, to_p
 from freezeout.fitting.plateau import plateau_net_doping
 from freezeout.fitting.problem import Problem
 from freezeout.fitting.profile import Profiler
+from freezeout.fitting.quantiles import t_quantile
 from freezeout.fitting.result import Estimate, FitData, FitResult, LevelEstimate
 from freezeout.fitting.warnings import fit_warnings
 from freezeout.physics.materials import Material
@@ -141,7 +141,7 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
         if covar is not None:
             covar = covar * inflation
     dof = out.nfree
-    tq = float(stats.t.ppf(0.975, dof)) if dof > 0 else math.nan
+    tq = t_quantile(0.975, dof) if dof > 0 else math.nan
     se = {n: (params[n].stderr * math.sqrt(inflation) if params[n].stderr is not None
               else math.nan) for n in params}
     for n in internal_fix:

@@ -13,8 +13,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
+from freezeout.fitting.quantiles import t_quantile
 from freezeout.fitting.result import Estimate, LevelEstimate
 
 _LN10 = math.log(10.0)
@@ -161,7 +161,7 @@ class RefitEstimates:
     @property
     def t_q(self) -> float:
         """Student's t quantile for 95 % at the refit's degrees of freedom."""
-        return float(stats.t.ppf(0.975, self.dof))
+        return t_quantile(0.975, self.dof)
 
     @property
     def idx(self) -> dict:

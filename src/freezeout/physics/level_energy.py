@@ -147,7 +147,7 @@ def check_lowering_use(model, material_name: str | None, kind: str | None = None
     """
     if model is None:
         return
-    what = getattr(model, "name", "pearson-bardeen")
+    what = model.to_dict()["model"]
     if model.host is not None and material_name is not None and material_name != model.host:
         hint = (" (give pearson-bardeen:ALPHA with the host's own alpha)"
                 if isinstance(model, PearsonBardeen) else "")

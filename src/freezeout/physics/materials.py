@@ -93,19 +93,19 @@ class Material:
         return varshni_band_gap(temperature, self.band_gap_0k, self.varshni_alpha,
                                 self.varshni_beta)
 
+    def _dos_mass(self, band: int, temperature):
+        """Density-of-states mass of the band (0 electrons, 1 holes) at ``temperature``. [m0]"""
+        if self.dos_mass_polynomials is None:
+            return (self.electron_dos_mass, self.hole_dos_mass)[band]
+        return polynomial_dos_mass(temperature, self.dos_mass_polynomials[band])
+
     def nc(self, temperature):
         """Conduction-band effective density of states at ``temperature`` [K]. [cm^-3]"""
-        if self.dos_mass_polynomials is not None:
-            mass = polynomial_dos_mass(temperature, self.dos_mass_polynomials[0])
-            return effective_density_of_states(temperature, mass)
-        return effective_density_of_states(temperature, self.electron_dos_mass)
+        return effective_density_of_states(temperature, self._dos_mass(0, temperature))
 
     def nv(self, temperature):
         """Valence-band effective density of states at ``temperature`` [K]. [cm^-3]"""
-        if self.dos_mass_polynomials is not None:
-            mass = polynomial_dos_mass(temperature, self.dos_mass_polynomials[1])
-            return effective_density_of_states(temperature, mass)
-        return effective_density_of_states(temperature, self.hole_dos_mass)
+        return effective_density_of_states(temperature, self._dos_mass(1, temperature))
 
     @property
     def dos_mass_model(self) -> str:
