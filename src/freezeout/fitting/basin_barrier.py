@@ -11,10 +11,10 @@ with N_min held halfway (in log) between the two solutions. A rise above both by
 
 from __future__ import annotations
 
-import lmfit
 import numpy as np
 
-from freezeout.fitting.parameters import lmfit_parameters
+from freezeout.fitting.batch_lm import polish
+from freezeout.fitting.parameters import fit_parameters
 from freezeout.fitting.problem import Problem
 
 #: Rise of the compensation profile between two minima, in units of chi^2 differences, that
@@ -34,7 +34,8 @@ def profile_barrier(problem: Problem, a, b, weighted: bool, unit: float,
     problem
         The fit's residual problem.
     a, b
-        Two converged lmfit results (their holds and bounds are the fit's).
+        Two converged local fits (:class:`freezeout.fitting.local_fit.LocalFit`; their
+        holds and bounds are the fit's).
     weighted
         True when stated uncertainties weight the fit.
     unit
@@ -50,11 +51,8 @@ def profile_barrier(problem: Problem, a, b, weighted: bool, unit: float,
         return False
     va, vb = a.params.valuesdict(), b.params.valuesdict()
     mid = {k: 0.5 * (va[k] + vb[k]) for k in va}
-    params = lmfit_parameters(model, mid, {**internal_fix, cname: mid[cname]}, internal_bounds)
-    model.clear_warm_start()
-    out = lmfit.minimize(problem.residual, params, method="leastsq",
-                         scale_covar=not weighted, max_nfev=max_evaluations)
-    model.clear_warm_start()
+    params = fit_parameters(model, mid, {**internal_fix, cname: mid[cname]}, internal_bounds)
+    out = polish(problem, [params], None, max_evaluations, not weighted)[0]
     if not np.isfinite(out.chisqr):
         return False
     return out.chisqr > max(a.chisqr, b.chisqr) + BARRIER * unit

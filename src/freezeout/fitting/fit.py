@@ -5,8 +5,9 @@ data-driven guess (:mod:`freezeout.fitting.guess`), spread over compensation rat
 1e-4 to 0.9 of the majority total, and brings the best few of every compensation ratio down
 their chi^2 valleys together, with Levenberg-Marquardt steps on the whole batch in one
 vectorized solve per step. The descended points are grouped into distinct basins
-(:mod:`freezeout.fitting.alternatives`); lmfit refines the best point of every basin that
-comes within reach of the best, the lowest chi^2 wins, and the other distinct solutions
+(:mod:`freezeout.fitting.alternatives`); local least squares
+(:func:`freezeout.fitting.batch_lm.polish`) refines the best point of every basin that comes
+within reach of the best, the lowest chi^2 wins, and the other distinct solutions
 within delta chi^2 = 4 are reported beside it as alternatives. The residuals are those of
 :mod:`freezeout.fitting.problem`; the result is built by :mod:`freezeout.fitting.summary`.
 """
@@ -17,7 +18,6 @@ import math
 from collections.abc import Mapping
 from dataclasses import replace
 
-import lmfit
 import numpy as np
 
 from freezeout.errors import FitError, InputError
@@ -30,12 +30,13 @@ from freezeout.fitting.alternatives import (
     signature,
 )
 from freezeout.fitting.basin_barrier import profile_barrier
+from freezeout.fitting.batch_lm import polish
 from freezeout.fitting.guess import best_per_basin, descend, guess, heavy_start, start_grid
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import (
     LOG10_CONCENTRATION_BOUNDS,
+    fit_parameters,
     internal_options,
-    lmfit_parameters,
     to_internal,
 )
 from freezeout.fitting.problem import Problem, profile_upper
@@ -46,11 +47,12 @@ from freezeout.records.run import RunData
 
 __all__ = ["LOG10_CONCENTRATION_BOUNDS", "MAX_EVALUATIONS", "fit_run", "guess", "to_internal"]
 
-#: Model evaluations allowed to one local fit before it counts as not converged.
-MAX_EVALUATIONS = 1500
-#: Evaluations of each local fit of a start-only fit (project choice, no source): the fit
-#: that starts from it refits every level, so a flat valley need not be followed to its end.
-START_EVALUATIONS = 200
+#: Model solves (each with its Jacobian: one Levenberg-Marquardt step) allowed to one local
+#: fit before it counts as not converged (project choice, no source).
+MAX_EVALUATIONS = 400
+#: Solves of each local fit of a start-only fit (project choice, no source): the fit that
+#: starts from it refits every level, so a flat valley need not be followed to its end.
+START_EVALUATIONS = 50
 
 _NOT_CONVERGED = ("the optimizer did not converge: the chi^2 surface is flat along some "
                   "directions, so those parameters are not determined by these data (see the "
@@ -88,7 +90,7 @@ def _level_counts(carrier: str, donors: int, acceptors: int) -> tuple[int, int]:
 PER_BASIN = {1: 1, 2: 3, 3: 4}
 
 #: Extra reach of the global stage, in chi^2 units of the residual variance: a basin whose
-#: descended chi^2 lies within DELTA_CHI2 + this of the best is refined with lmfit (its
+#: descended chi^2 lies within DELTA_CHI2 + this of the best is refined by a local fit (its
 #: descent may have stopped short of the bottom; project choice, no source). [1]
 REACH = 6.0
 
@@ -122,50 +124,56 @@ def _variance_unit(chi2: float, nfree: int, weighted: bool) -> float:
     return max(red, 1.0) if weighted else max(red, 1e-300)
 
 
-def _local_fits(problem: Problem, points: list[dict], costs: np.ndarray, fermi: np.ndarray,
+def _local_fits(problem: Problem, points: list[dict], fermi: np.ndarray,
                 required: list[int], spare: list[int], n_tries: int, internal_fix: dict,
-                internal_bounds: dict, weighted: bool, max_nfev: int = MAX_EVALUATIONS):
-    """Refine the descended points locally with lmfit.
+                internal_bounds: dict, weighted: bool, window: float,
+                max_nfev: int = MAX_EVALUATIONS):
+    """Refine the descended points by local least squares, each batch stepped together.
 
     Every point of ``required`` (the basins within reach of the best) is refined; the points
-    of ``spare`` only while none has converged, up to ``n_tries`` fits in all.
+    of ``spare`` only when none of those has converged, up to ``n_tries`` fits in all. A
+    start that cannot come within ``window`` (chi^2 units) of a converged one is stopped
+    early (:func:`freezeout.fitting.batch_lm.polish`).
 
-    Returns ``(best, stalled, converged, failures)``: the converged lmfit result of lowest
+    Returns ``(best, stalled, converged, failures)``: the converged local fit of lowest
     chi^2 or None, the best of those that stopped short of convergence or None, every
-    converged result, and the optimizer messages of the starts that failed.
+    converged fit, and the messages of the starts that failed.
     """
     model = problem.model
     best = None
     stalled = None  # best of the starts that stopped without converging
     converged = []
     failures = []
-    tried = 0
-    for idx in [*required, *spare]:
-        if idx not in required and (best is not None or tried >= n_tries):
+    spare = spare[:max(n_tries - len(required), 0)]
+    for group in (required, spare):
+        if not group or best is not None:
+            continue
+        params = [fit_parameters(model, points[i], internal_fix, internal_bounds)
+                  for i in group]
+        # warm starts from the global stage
+        for out in polish(problem, params, fermi[group], max_nfev, not weighted, window):
+            if problem.type_penalty(out.params.valuesdict()) > 0 or not np.isfinite(out.chisqr):
+                failures.append(out.message)
+                continue
+            if not out.success:
+                # stopped short, at its last point: kept only as a fallback when no start
+                # converges (flat directions of an under-determined model)
+                failures.append(out.message)
+                if stalled is None or out.chisqr < stalled.chisqr:
+                    stalled = out
+                continue
+            converged.append(out)
+            if best is None or out.chisqr < best.chisqr:
+                best = out
+    for out in (best, stalled):
+        if out is not None and out.fermi is not None:
+            model.warm_start(out.fermi)
             break
-        tried += 1
-        params = lmfit_parameters(model, points[idx], internal_fix, internal_bounds)
-        model.warm_start(fermi[idx])  # warm start from the global stage
-        out = lmfit.minimize(problem.residual, params, method="leastsq",
-                             scale_covar=not weighted, max_nfev=max_nfev)
-        if problem.type_penalty(out.params.valuesdict()) > 0 or not np.isfinite(out.chisqr):
-            failures.append(str(out.message))
-            continue
-        if not out.success or out.aborted:
-            # stopped short, at its last point rather than its best: kept only as a fallback
-            # when no start converges (flat directions of an under-determined model)
-            failures.append(str(out.message))
-            if stalled is None or out.chisqr < stalled.chisqr:
-                stalled = out
-            continue
-        converged.append(out)
-        if best is None or out.chisqr < best.chisqr:
-            best = out
     return best, stalled, converged, failures
 
 
 def _stderr(out, weighted: bool) -> dict:
-    """Standard errors of an lmfit result by internal name, inflated as reported."""
+    """Standard errors of a local fit by internal name, inflated as reported."""
     inflate = math.sqrt(max(out.redchi, 1.0)) if weighted and out.nfree > 0 else 1.0
     return {n: (p.stderr * inflate if p.stderr is not None else math.nan)
             for n, p in out.params.items()}
@@ -308,7 +316,7 @@ def fit_run(
     unit = _variance_unit(float(np.min(costs)), n_used - n_free, weighted)
     reach = float(np.min(costs)) + (DELTA_CHI2 + REACH) * unit
     # every basin within reach of the best, and the best point of each compensation group
-    # (light, heavy): a descent can settle slowly along a flat valley, lmfit goes on
+    # (light, heavy): a descent can settle slowly along a flat valley, the local fit goes on
     required = [i for i in heads if costs[i] <= reach]
     for group in (False, True):
         members = [int(i) for i in np.argsort(costs) if np.isfinite(costs[i])
@@ -317,8 +325,8 @@ def fit_run(
             required.append(members[0])
     spare = [i for i in heads if i not in required] + rest
     best, stalled, converged, failures = _local_fits(
-        problem, points, costs, fermi, required, spare, 4 if n_levels > 1 else 3,
-        internal_fix, internal_bounds, weighted,
+        problem, points, fermi, required, spare, 4 if n_levels > 1 else 3,
+        internal_fix, internal_bounds, weighted, DELTA_CHI2 * unit,
         START_EVALUATIONS if start_only else MAX_EVALUATIONS)
     not_converged = False
     if start_only:
@@ -336,11 +344,11 @@ def fit_run(
     if u_t is not None and not not_converged and not start_only:
         # the slope of the first pass came from a start: take it from the fit and refit once
         problem.include_temperature(best.params.valuesdict(), base_sigma, u_t)
-        again = lmfit.minimize(problem.residual, best.params.copy(), method="leastsq",
-                               scale_covar=False, max_nfev=MAX_EVALUATIONS)
-        if again.success and not again.aborted and problem.type_penalty(
-                again.params.valuesdict()) == 0:
+        again = polish(problem, [best.params.copy()], best.fermi[None, :], MAX_EVALUATIONS,
+                       False)[0]
+        if again.success and problem.type_penalty(again.params.valuesdict()) == 0:
             best = again
+            model_used.warm_start(again.fermi)
     alternatives = ([] if start_only
                     else _alternatives(problem, best, converged, weighted, low_density))
     # a lower chi^2 seen on the way (a descended start, or a local fit that stopped short)

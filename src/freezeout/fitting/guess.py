@@ -1,8 +1,8 @@
 """The global stage of a fit: starting values, the grid of starts, and their batched descent.
 
 The descent takes Levenberg-Marquardt steps on every start at once (one vectorized solve per
-step) and brings each start to the bottom of its chi^2 valley before lmfit refines the best
-of each basin.
+step) and brings each start to the bottom of its chi^2 valley before the local fit refines
+the best of each basin.
 """
 
 from __future__ import annotations
@@ -12,13 +12,12 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from freezeout.fitting.jacobian import majority_log_jacobian
+from freezeout.fitting.batch_lm import DESCENT_STOP, admissible_map, batch_solver, run_steps
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.parameters import lmfit_parameters
+from freezeout.fitting.parameters import fit_parameters
 from freezeout.fitting.problem import Problem
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
-from freezeout.physics.neutrality import solve_levels
 
 
 def guess(temperature: np.ndarray, density: np.ndarray, material: Material) -> dict:
@@ -122,44 +121,14 @@ def start_grid(model: CarrierModel, g: dict, fixed: Mapping[str, float]) -> list
 DESCENT_STEPS = 30
 
 
-def batch_residuals_jacobian(problem: Problem, names: list[str], theta: np.ndarray,
-                             fixed: dict, init) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Residuals of many parameter sets (rows of ``theta``) and their Jacobian, one solve.
-
-    ``init`` is the starting Fermi level of each row (None: cold). Returns the residuals and
-    Fermi levels, one row per set, and the Jacobian (rows, parameters, temperatures) by
-    implicit differentiation (:func:`freezeout.fitting.jacobian.majority_log_jacobian`);
-    rows that cannot be solved give infinite residuals and a zero Jacobian.
-    """
-    model = problem.model
-    batch = {k: theta[:, j][:, None] for j, k in enumerate(names)}
-    batch.update(fixed)
-    bands = model.row_bands
-    shape = (theta.shape[0], model.temperature.size)
-    try:
-        with np.errstate(all="ignore"):
-            donors, acceptors = model.levels(batch)
-            res = solve_levels(bands, donors, acceptors, model.statistics, init)
-            r = (model.majority_log(res) - problem.y[None, :]) / problem.sigma[None, :]
-            jac = majority_log_jacobian(model, bands, batch, res, names) / problem.sigma
-    except (RuntimeError, ValueError, FloatingPointError):
-        return (np.full(shape, np.inf), np.full(shape, np.nan),
-                np.zeros((shape[0], len(names), shape[1])))
-    ok = np.isfinite(r)
-    return (np.where(ok, r, np.inf), res.fermi_level,
-            np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0))
-
-
 def descend(problem: Problem, starts: list[dict], internal_fix: dict, internal_bounds: dict
              ) -> tuple[list[dict], np.ndarray, np.ndarray, np.ndarray]:
     """Bring every start down its chi^2 valley: batched Levenberg-Marquardt steps.
 
-    All starts step together: each step solves the trial points of the whole batch (warm from
-    each start's last solve) in one vectorized solve and takes their Jacobians from that
-    solve by implicit differentiation, so an accepted step already has the Jacobian of the
-    next. A start
-    stops when a step lowers its chi^2 by less than 1e-4 relative (lmfit polishes it), when no
-    step lowers it, or when it has merged with a start of lower chi^2 (from the second step on).
+    All starts step together (:func:`freezeout.fitting.batch_lm.run_steps`). A start stops
+    when a step lowers its chi^2 by less than 1e-4 relative (the local fit polishes it),
+    when no step lowers it, or when it has merged with a start of lower chi^2 (from the
+    second step on).
     The steps keep to the bounds of the local fit and keep the compensating species below
     the majority total. A parameter at a bound that the gradient pushes outward is held for
     the step. Returns the descended points, their chi^2, Fermi levels, and True for the
@@ -169,65 +138,20 @@ def descend(problem: Problem, starts: list[dict], internal_fix: dict, internal_b
     low = float(np.exp(np.min(problem.y)))
     names = [sp.internal for sp in model.specs if sp.internal not in internal_fix]
     fixed = {k: float(v) for k, v in internal_fix.items()}
-    bounded = lmfit_parameters(model, starts[0], internal_fix, internal_bounds)
+    bounded = fit_parameters(model, starts[0], internal_fix, internal_bounds)
     lo = np.array([bounded[n].min for n in names])
     hi = np.array([bounded[n].max for n in names])
-    major = [names.index(k) if k in names else None for k in model.major_concentration_names]
-    cname = model.compensation_name
-    comp = names.index(cname) if model.compensated and cname in names else None
+    admissible = admissible_map(model, names, fixed, lo, hi)
 
-    def admissible(th: np.ndarray) -> np.ndarray:
-        th = np.clip(np.where(np.isfinite(th), th, 0.5 * (lo + hi)), lo, hi)
-        if comp is not None:
-            logs = [th[:, j] if j is not None else np.full(len(th), fixed[k])
-                    for j, k in zip(major, model.major_concentration_names, strict=True)]
-            cap = np.log10(np.sum(10.0 ** np.stack(logs), axis=0)) - 2e-3
-            th[:, comp] = np.minimum(th[:, comp], cap)
-        return th
-
-    n_par = len(names)
-
-    def with_jacobian(th: np.ndarray, init):
-        # residuals at th and their Jacobian there (implicit differentiation), in one solve
-        rr, ff, jac = batch_residuals_jacobian(problem, names, th, fixed, init)
-        c = np.sum(rr ** 2, axis=1)
-        return rr, ff, np.where(np.isfinite(c), c, np.inf), jac
+    def merge(batch, step_no: int) -> None:
+        if step_no >= 1:
+            batch.active &= ~_followers(model, batch.theta, names, fixed, batch.cost,
+                                        batch.active, low)
 
     theta = admissible(np.array([[st[n] for n in names] for st in starts], dtype=float))
-    r, fermi, cost, jac = with_jacobian(theta, None)
-    lam = np.full(len(theta), 1e-3)
-    active = np.isfinite(cost)
-    for step_no in range(DESCENT_STEPS if n_par else 0):
-        idx = np.flatnonzero(active)
-        if idx.size == 0:
-            break
-        th, j = theta[idx], jac[idx]
-        grad = np.einsum("kpn,kn->kp", j, r[idx])
-        # a parameter at a bound that the gradient pushes outward is held for this step
-        # (projected steps: clipping it would bend the step of the others)
-        held = (((th <= lo + 1e-9) & (grad > 0)) | ((th >= hi - 1e-9) & (grad < 0)))
-        j = np.where(held[:, :, None], 0.0, j)
-        grad = np.where(held, 0.0, grad)
-        jtj = j @ j.transpose(0, 2, 1) + held[:, :, None] * np.eye(n_par)[None]
-        diag = np.diagonal(jtj, axis1=1, axis2=2) + 1e-12
-        damped = jtj + (lam[idx, None, None] * np.eye(n_par)[None]) * diag[:, None, :]
-        try:
-            step = -np.linalg.solve(damped, grad[..., None])[..., 0]
-        except np.linalg.LinAlgError:
-            step = -grad / diag
-        # the trial point is solved with its Jacobian: accepted, the next step needs it
-        trial = admissible(th + step)
-        rt, ft, ct, jt = with_jacobian(trial, fermi[idx])
-        better = ct < cost[idx]
-        gain = cost[idx] - ct
-        done = (better & (gain <= 1e-4 * ct + 1e-12)) | (~better & (lam[idx] > 1e5))
-        upd = idx[better]
-        theta[upd], r[upd], fermi[upd] = trial[better], rt[better], ft[better]
-        cost[upd], jac[upd] = ct[better], jt[better]
-        lam[idx] = np.where(better, np.maximum(lam[idx] / 10.0, 1e-7), lam[idx] * 10.0)
-        active[idx[done]] = False
-        if step_no >= 1:
-            active &= ~_followers(model, theta, names, fixed, cost, active, low)
+    b = run_steps(batch_solver(problem, names, fixed), theta, None, lo, hi, admissible,
+                  DESCENT_STOP, DESCENT_STEPS, merge)
+    theta, cost, fermi, active = b.theta, b.cost, b.fermi, b.active
     points = [dict(zip(names, map(float, row), strict=True)) | fixed for row in theta]
     return points, cost, fermi, active
 

@@ -52,7 +52,7 @@ def wald_unreliable(out, covar: np.ndarray | None, tq: float, has_upper: bool) -
     Parameters
     ----------
     out
-        The retained lmfit result.
+        The retained local fit (:class:`freezeout.fitting.local_fit.LocalFit`).
     covar
         Covariance of the free parameters as reported (inflated), or None.
     tq
@@ -130,7 +130,7 @@ def apply_profiles(levels: list, net: Estimate, comp: Estimate,
     ivs
         Profile intervals by internal name, ``"net"`` and ``"ratio"``.
     params
-        The lmfit parameters of the fit (values and bounds).
+        The parameters of the fit (values and bounds; :class:`freezeout.fitting.local_fit.Params`).
     band_gap
         Band gap at the lowest temperature, the ceiling of every energy. [eV]
     scale

@@ -25,7 +25,7 @@ from freezeout.physics.neutrality import (
 
 @dataclass(frozen=True)
 class ParameterSpec:
-    """One fit parameter: its public name, internal (lmfit) name, kind and level index."""
+    """One fit parameter: its public name, internal name, kind and level index."""
 
     name: str  # e.g. "N_D1", "E_D1", "N_A"
     internal: str  # e.g. "log10_N_D1"

@@ -1,4 +1,4 @@
-"""Fit parameters: public names and units to internal ones, holds, bounds, lmfit Parameters.
+"""Fit parameters: public names and units to internal ones, holds, bounds, local-fit Parameters.
 
 Public names carry concentrations in cm^-3 and energies in eV (``N_D1``, ``E_D1``, ``N_A``);
 internally concentrations are fitted as log10 (``log10_N_D1``).
@@ -9,10 +9,10 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 
-import lmfit
 import numpy as np
 
 from freezeout.errors import InputError
+from freezeout.fitting.local_fit import Param, Params
 from freezeout.fitting.model import CarrierModel
 
 #: Range of every fitted concentration, as log10 of cm^-3.
@@ -90,15 +90,15 @@ def internal_options(model: CarrierModel, fix: Mapping[str, float] | None,
     return internal_fix, internal_bounds
 
 
-def lmfit_parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float],
-                     bounds: Mapping[str, tuple[float, float]]) -> lmfit.Parameters:
-    """lmfit Parameters of the model from a start, with holds and bounds (internal names).
+def fit_parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float],
+                   bounds: Mapping[str, tuple[float, float]]) -> Params:
+    """Parameters of a local fit of the model from a start, with holds and bounds.
 
     Energies are bounded by 1e-4 eV and 0.9 of the gap at the lowest temperature, the
     concentrations by :data:`LOG10_CONCENTRATION_BOUNDS`, unless ``bounds`` says otherwise;
     the start is moved just inside its bounds.
     """
-    params = lmfit.Parameters()
+    params = Params()
     gap = float(model.material.band_gap(float(np.min(model.temperature))))
     for spec in model.specs:
         if spec.quantity == "concentration":
@@ -110,7 +110,7 @@ def lmfit_parameters(model: CarrierModel, start: dict, fixed: Mapping[str, float
         value = float(np.clip(start[spec.internal], lo + 1e-9 * abs(lo or 1),
                               hi - 1e-9 * abs(hi or 1)))
         if spec.internal in fixed:
-            params.add(spec.internal, value=float(fixed[spec.internal]), vary=False)
+            params[spec.internal] = Param(float(fixed[spec.internal]), vary=False)
         else:
-            params.add(spec.internal, value=value, min=lo, max=hi)
+            params[spec.internal] = Param(value, lo, hi)
     return params

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import math
 
-import lmfit
 import numpy as np
 
 from freezeout.fitting.model import CarrierModel
@@ -48,8 +47,11 @@ class Problem:
         excess = values[self._minor] - major + 1e-3  # keep N_min below 0.998 N_maj
         return max(excess, 0.0)
 
-    def residual(self, params: lmfit.Parameters) -> np.ndarray:
-        """Weighted residuals at lmfit parameters (1e6 where the model cannot be solved)."""
+    def residual(self, params) -> np.ndarray:
+        """Weighted residuals at a fit's parameters (1e6 where the model cannot be solved).
+
+        ``params`` is a :class:`freezeout.fitting.local_fit.Params`.
+        """
         values = params.valuesdict()
         try:
             ln_model = self.model.log_density(values)

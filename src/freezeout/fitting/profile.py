@@ -79,7 +79,7 @@ class Profiler:
     problem
         The residual problem (:class:`freezeout.fitting.problem.Problem`).
     out
-        The retained lmfit result.
+        The retained local fit (:class:`freezeout.fitting.local_fit.LocalFit`).
     covar
         Covariance of the free parameters as reported (inflated), or None.
     unit

@@ -246,7 +246,8 @@ class FitResult:
         (:class:`freezeout.fitting.alternatives.Alternative`); empty when the data single
         out one.
     raw
-        The lmfit MinimizerResult of the retained start (not serialized).
+        The local fit of the retained start (:class:`freezeout.fitting.local_fit.LocalFit`;
+        not serialized).
     mobility
         The mobility part of a joint density and mobility fit
         (:class:`freezeout.fitting.mobility_model.MobilityFit`), or None for a density-only

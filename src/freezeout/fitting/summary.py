@@ -12,6 +12,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from freezeout.fitting.adequacy import model_inadequate, rms_percent, runs_z
 from freezeout.fitting.intervals import apply_profiles, profile_threshold, wald_unreliable
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.parameters import LOG10_CONCENTRATION_BOUNDS, pow10, to_public
@@ -61,7 +62,7 @@ def information_criteria(out, weighted: bool) -> tuple[float, float]:
 
     With stated uncertainties the log-likelihood is -chi^2/2, so AIC = chi^2 + 2k and
     BIC = chi^2 + k ln N; without them the variance is estimated too and the usual
-    N ln(chi^2/N) forms apply (lmfit's). H. Akaike, IEEE Trans. Autom. Control 19, 716 (1974);
+    N ln(chi^2/N) forms apply. H. Akaike, IEEE Trans. Autom. Control 19, 716 (1974);
     G. Schwarz, Ann. Stat. 6, 461 (1978).
     """
     if not weighted:
@@ -99,7 +100,9 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
                  problem: Problem, out, used: np.ndarray, weighted: bool,
                  internal_fix: dict[str, float], provenance: dict,
                  profile_upper: float | None = None, *, profiles: bool = True) -> FitResult:
-    """The FitResult of the retained local fit ``out`` (an lmfit MinimizerResult).
+    """The FitResult of the retained local fit ``out``.
+
+    ``out`` is a :class:`freezeout.fitting.local_fit.LocalFit`.
 
     Parameters
     ----------
@@ -112,7 +115,7 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
     problem
         The residual problem (its model is on the temperatures used).
     out
-        The retained lmfit result.
+        The retained local fit (:class:`freezeout.fitting.local_fit.LocalFit`).
     used
         True for the points fitted.
     weighted
@@ -207,9 +210,12 @@ def build_result(run: RunData, material: Material, model_all: CarrierModel,
     no_freezeout = any(c * (1.0 - float(ion[cold])) < 0.1 * min(net, c)
                        for c, ion in zip(maj, model_used.majority_ionized(res_used),
                                          strict=True))
-    if no_freezeout or not (np.isfinite(net_se) and net_se < 0.1 * net):
-        # the levels are under-determined (no freeze-out): a flat plateau still pins N_net,
-        # value and interval both (fitting/plateau.py); points that rise are no plateau
+    rms = rms_percent(out.residual) if not weighted else math.nan
+    inadequate = model_inadequate(weighted, out.redchi, rms, runs_z(out.residual))
+    if no_freezeout or inadequate or not (np.isfinite(net_se) and net_se < 0.1 * net):
+        # the levels are under-determined (no freeze-out), or the model does not describe
+        # the data (its standard errors say little): a flat plateau still pins N_net, value
+        # and interval both (fitting/plateau.py); points that rise are no plateau
         plateau = plateau_net_doping(problem, res_used, weighted, scale)
         if plateau is not None and not plateau.flat:
             plateau_note = plateau.note()

@@ -72,7 +72,7 @@ def fit_warnings(model: CarrierModel, out, se: dict[str, float], corr: np.ndarra
     model
         The model on the temperatures used (its warm start, if any, is used and updated).
     out
-        The retained lmfit result.
+        The retained local fit (:class:`freezeout.fitting.local_fit.LocalFit`).
     se
         Standard error of each parameter, internal names (inflated as reported).
     corr
