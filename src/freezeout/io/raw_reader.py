@@ -24,7 +24,7 @@ import numpy as np
 
 from freezeout.errors import InputError
 from freezeout.io.run_columns import header_names_run
-from freezeout.io.table_reader import column_numbers, earliest, read_table
+from freezeout.io.table_reader import column_numbers, earliest, extra_cells, read_table
 from freezeout.numbers.cells import parse_number_cell
 from freezeout.numbers.digest import sha256_bytes
 from freezeout.numbers.units import CANONICAL, parse_unit, split_header
@@ -307,7 +307,7 @@ def read_raw(path, *, thickness=None) -> RawTable:
         role = RAW_COLUMNS[key]
         title = header[pos].strip()
         if role in _CONTACT_ROLES:
-            cells[role] = table.cells[pos].str.strip().to_numpy(dtype=str)
+            cells[role] = table.cells[pos].astype(str)
             continue
         values, problem = column_numbers(
             table, pos, lambda cell, line, title=title: _reading_value(cell, file, line, title))
@@ -378,11 +378,7 @@ def _width_error(table):
     """The first row with fewer cells than the header (or extra cells that are not empty)."""
     n = len(table.header)
     short = np.flatnonzero(table.widths < n)
-    extra = np.zeros(table.n_rows, dtype=bool)
-    if table.cells.shape[1] > n:
-        extra = table.cells.iloc[:, n:].apply(lambda c: c.str.strip() != "").any(
-            axis=1).to_numpy()
-    bad = np.flatnonzero((table.widths < n) | extra)
+    bad = np.flatnonzero((table.widths < n) | extra_cells(table, n))
     if not bad.size:
         return None
     i = int(bad[0])
@@ -395,12 +391,13 @@ def _width_error(table):
 
 def _duplicate_error(table, index):
     """A row identical to an earlier one in every column read (a copy)."""
-    sub = table.cells[list(index.values())].apply(lambda c: c.str.strip())
-    dup = sub.duplicated(keep="first").to_numpy()
-    if not dup.any():
+    seen: dict[tuple, int] = {}
+    for i, row in enumerate(zip(*(table.cells[p] for p in index.values()), strict=True)):
+        first = seen.setdefault(row, i)
+        if first != i:
+            break
+    else:
         return None
-    i = int(np.flatnonzero(dup)[0])
-    first = int(np.flatnonzero((sub == sub.iloc[i]).all(axis=1).to_numpy())[0])
     return i, InputError(f"duplicate row: identical to line {int(table.lines[first])} in "
                          "every column (repeated readings differ at least in the last "
                          "digit; remove the copy)", file=table.source,
@@ -417,7 +414,7 @@ def _range_error(table, pos, role, values):
 
     bad = np.flatnonzero(~np.isfinite(values))
     if bad.size:
-        return err(bad[0], f"{table.cells[pos].iloc[bad[0]].strip()} becomes infinite on "
+        return err(bad[0], f"{table.cells[pos][bad[0]]} becomes infinite on "
                            f"conversion to {CANONICAL[_DIMENSION[role]]}; check the unit")
     if role != "temperature":
         return None
@@ -428,7 +425,7 @@ def _range_error(table, pos, role, values):
     v = values[bad[0]]
     if v <= 0:
         return err(bad[0], f"temperature {v:g} K is not above absolute zero")
-    return err(bad[0], f"temperature {table.cells[pos].iloc[bad[0]].strip()} ({v:.4g} K) "
+    return err(bad[0], f"temperature {table.cells[pos][bad[0]]} ({v:.4g} K) "
                        f"is outside the range {lo:g} K to {hi:g} K of a measurement; check "
                        "its unit")
 

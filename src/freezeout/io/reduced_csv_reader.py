@@ -46,11 +46,12 @@ from pathlib import Path
 import numpy as np
 
 from freezeout.errors import InputError
+from freezeout.io.frame_table import table_from_frame
 from freezeout.io.raw_reader import parse_length
 from freezeout.io.reduced_csv_layout import severe_from_flags
 from freezeout.io.run_columns import header_names_run, plan_columns
 from freezeout.io.run_values import density_hall_note, read_columns
-from freezeout.io.table_reader import Table, read_table, table_from_frame
+from freezeout.io.table_reader import Table, read_table
 from freezeout.numbers.digest import sha256_bytes
 from freezeout.physics.constants import Q
 from freezeout.records.limits import check_hall_factor

@@ -10,7 +10,7 @@ import numpy as np
 
 from freezeout.errors import InputError
 from freezeout.io.run_columns import RANGES
-from freezeout.io.table_reader import Table, column_numbers, earliest
+from freezeout.io.table_reader import Table, column_numbers, earliest, extra_cells
 from freezeout.numbers.cells import is_missing, parse_number_cell
 from freezeout.numbers.units import CANONICAL
 from freezeout.physics.constants import Q
@@ -56,7 +56,7 @@ def _check(values, raw, key, table, column, cells) -> tuple[int, InputError] | N
                                   column=column)
 
     def cell(i):
-        return cells.iloc[i].strip()
+        return cells[i]
 
     if is_err:
         i = _first(given & (values < 0))
@@ -104,9 +104,8 @@ def _width_error(table: Table, flag_col: int | None) -> tuple[int, InputError] |
         return i, InputError(f"row has {widths[i]} {cells}, the header has {n} (truncated "
                              "line?)", file=table.source, line=int(table.lines[i]),
                              column=table.header[widths[i]])
-    if table.cells.shape[1] > n:
-        extra = table.cells.iloc[:, n:].apply(lambda c: c.str.strip() != "").any(axis=1)
-        i = _first(extra.to_numpy())
+    if table.n_columns > n:
+        i = _first(extra_cells(table, n))
         if i is not None:
             return i, InputError(f"row has {widths[i]} cells, the header has {n}",
                                  file=table.source, line=int(table.lines[i]))
@@ -149,7 +148,7 @@ def read_columns(table: Table, plan) -> tuple[dict, list[str]]:
         out[key] = values
     earliest(errors)
     if plan.flag_col is not None:
-        flags = table.cells[plan.flag_col].str.strip().tolist()
+        flags = list(table.cells[plan.flag_col])
     else:
         flags = [""] * table.n_rows
     return out, flags

@@ -1,12 +1,14 @@
-"""The one table reader of the run readers: a lab's CSV file to text cells, with pandas.
+"""The one table reader of the run readers: a lab's CSV file to text cells.
 
-pandas tokenises the data (separators, quotes); this module keeps what pandas cannot know:
-which row is the header (the first row whose cells name the columns the caller needs, after
-any instrument preamble of ``key: value`` or free-text lines, with or without ``#``), a
-second header row of units (``Temperature,Hall coefficient`` then ``K,m^3/C``), the decimal
-mark (a comma with ``;`` or tab separators), the file line of every row (blank and ``#``
-lines are skipped, so the rows pandas sees are mapped back to the file's lines) and the number
-of cells actually on each row (pandas pads a short row with empty cells).
+Python's csv module tokenises the data (separators, quotes); this module keeps what a
+tokeniser cannot know: which row is the header (the first row whose cells name the columns
+the caller needs, after any instrument preamble of ``key: value`` or free-text lines, with
+or without ``#``), a second header row of units (``Temperature,Hall coefficient`` then
+``K,m^3/C``), the decimal mark (a comma with ``;`` or tab separators), the file line of every
+row (blank and ``#`` lines are skipped, so the rows tokenised are mapped back to the file's
+lines) and the number of cells actually on each row (a short row is padded with empty
+cells). pandas is not needed to read a file (its import alone is about 0.1 s of a command);
+a DataFrame given in a program is read by :func:`freezeout.io.frame_table.table_from_frame`.
 
 Limits (project choice, no source): a run file has at most :data:`MAX_ROWS` lines and
 :data:`~freezeout.io.text_file.MAX_FILE_BYTES` bytes, checked before it is parsed.
@@ -26,7 +28,7 @@ from freezeout.errors import InputError
 from freezeout.io.text_file import MAX_FILE_BYTES, read_text_file
 from freezeout.numbers.units import split_header
 
-__all__ = ["MAX_ROWS", "Table", "column_numbers", "earliest", "read_table", "table_from_frame"]
+__all__ = ["MAX_ROWS", "Table", "column_numbers", "earliest", "extra_cells", "read_table"]
 
 #: Most lines a run file may have (project choice, no source): 200,000, about 12,500 set
 #: points of a van der Pauw run read 16 ways; checked on the bytes before parsing.
@@ -62,7 +64,8 @@ class Table:
     unit_lines
         Per column, the file line its unit is written on (the header's or the units row's).
     cells
-        The data cells as text (pandas DataFrame of str, columns ``0 .. len(header) - 1``).
+        The data cells as text, stripped of surrounding blanks: one object array of str per
+        column (``0 .. n_columns - 1``, at least ``len(header)``), a row each.
     lines
         File line of each data row.
     widths
@@ -84,7 +87,7 @@ class Table:
     header_line: int
     header: tuple[str, ...]
     unit_lines: tuple[int, ...]
-    cells: object
+    cells: tuple[np.ndarray, ...]
     lines: np.ndarray
     widths: np.ndarray
     metadata: tuple[tuple[str, str, int, bool], ...]
@@ -95,6 +98,11 @@ class Table:
     def n_rows(self) -> int:
         """Number of data rows."""
         return int(self.lines.size)
+
+    @property
+    def n_columns(self) -> int:
+        """Number of cell columns (the widest row's, at least the header's)."""
+        return len(self.cells)
 
 
 def _separator(line: str) -> str:
@@ -158,25 +166,29 @@ def _merge_units(header, units, header_line, file):
     return merged, unit_lines
 
 
-def _decimal_mark(frame, sep: str, lines: np.ndarray, header, file: str) -> str:
+def _matches(col: np.ndarray, regex: re.Pattern) -> np.ndarray:
+    """Indices of the cells of ``col`` that ``regex`` matches (at their start)."""
+    return np.array([i for i, c in enumerate(col) if regex.match(c)], dtype=int)
+
+
+def _decimal_mark(cells: tuple[np.ndarray, ...], sep: str, lines: np.ndarray, header,
+                  file: str) -> str:
     """``,`` when a ``;`` or tab file writes decimal commas (refusing mixed marks), else ``.``."""
     if sep == ",":
         return "."
     first_comma = first_point = None
-    for j in range(frame.shape[1]):
-        col = frame[j]
-        has_comma = col.str.contains(",", regex=False)
-        if not has_comma.any() and first_point is not None:
+    for j, col in enumerate(cells):
+        if first_point is not None and not any("," in c for c in col):
             continue
-        both = col.str.match(_BOTH_MARKS)
-        if both.any():
-            i = int(np.flatnonzero(both.to_numpy())[0])
-            raise InputError(f"cell {col.iloc[i]!r} has a decimal point and a decimal comma "
+        both = _matches(col, _BOTH_MARKS)
+        if both.size:
+            i = int(both[0])
+            raise InputError(f"cell {col[i]!r} has a decimal point and a decimal comma "
                              "(a thousands separator?); write numbers without grouping, "
                              "with one decimal mark", file=file, line=int(lines[i]),
                              column=header[j] if j < len(header) else j + 1)
         for regex, found in ((_COMMA_NUMBER, "comma"), (_POINT_NUMBER, "point")):
-            hits = np.flatnonzero(col.str.match(regex).to_numpy())
+            hits = _matches(col, regex)
             if hits.size:
                 where = (int(hits[0]), j)
                 if found == "comma" and (first_comma is None or where < first_comma):
@@ -188,8 +200,8 @@ def _decimal_mark(frame, sep: str, lines: np.ndarray, header, file: str) -> str:
     if first_point is not None:
         (ic, jc), (ip, jp) = first_comma, first_point
         raise InputError(f"mixed decimal marks: line {int(lines[ic])} writes "
-                         f"{frame[jc].iloc[ic].strip()!r} with a decimal comma and line "
-                         f"{int(lines[ip])} {frame[jp].iloc[ip].strip()!r} with a point; "
+                         f"{cells[jc][ic]!r} with a decimal comma and line "
+                         f"{int(lines[ip])} {cells[jp][ip]!r} with a point; "
                          "write one decimal mark throughout", file=file,
                          line=int(lines[max(ic, ip)]),
                          column=header[jp] if ip >= ic else header[jc])
@@ -197,7 +209,7 @@ def _decimal_mark(frame, sep: str, lines: np.ndarray, header, file: str) -> str:
 
 
 def _widths(texts: list[str], sep: str) -> np.ndarray:
-    """Cells written on each line (pandas pads short rows, so count them here)."""
+    """Cells written on each line (short rows are padded, so count them here)."""
     out = np.empty(len(texts), dtype=int)
     for i, t in enumerate(texts):
         out[i] = t.count(sep) + 1 if '"' not in t else len(_split(t, sep))
@@ -241,7 +253,6 @@ def read_table(path, *, is_header: Callable[[list[str]], bool], max_rows: int = 
     if n_lines > max_rows:
         raise InputError(f"file has {n_lines:,} lines, over the limit of {max_rows:,} for a "
                          f"{what}; split the run", file=file)
-    import pandas as pd
     lines = text.lines
     notes = [text.note] if text.note else []
     metadata, preamble = [], []
@@ -291,34 +302,65 @@ def read_table(path, *, is_header: Callable[[list[str]], bool], max_rows: int = 
     row_lines = np.asarray(data_idx, dtype=int) + 1
     widths = _widths(texts, sep)
     width = max(len(header), int(widths.max()) if widths.size else 0)
-    if texts:
-        try:
-            frame = pd.read_csv(io.StringIO("\n".join(texts)), sep=sep, header=None,
-                                names=range(width), dtype=str, keep_default_na=False,
-                                na_filter=False, skip_blank_lines=False, engine="c",
-                                quotechar='"', index_col=False)
-        except (pd.errors.ParserError, ValueError) as exc:
-            raise InputError(f"cannot split the rows into cells: {exc}", file=file,
-                             line=header_line) from None
-        if len(frame) != len(texts):
-            odd = next((k for k, t in enumerate(texts) if t.count('"') % 2), 0)
-            raise InputError("a quoted cell runs over the end of its line; close the quote "
-                             "on the same line", file=file, line=int(row_lines[odd]))
-    else:
-        frame = pd.DataFrame({j: pd.Series([], dtype=str) for j in range(width)})
-    decimal = _decimal_mark(frame, sep, row_lines, header, file) if texts else "."
+    cells = _cells(texts, sep, width, file, header_line, row_lines)
+    decimal = _decimal_mark(cells, sep, row_lines, header, file) if texts else "."
     if sep != "," or decimal != ".":
         notes.append(f"read as a {_SEPARATOR_NAMES[sep]}-separated table with decimal "
                      f"{'commas' if decimal == ',' else 'points'}")
     return Table(source=file, data=text.data, encoding=text.encoding, separator=sep,
                  decimal=decimal, header_line=header_line, header=tuple(header),
-                 unit_lines=tuple(unit_lines), cells=frame, lines=row_lines, widths=widths,
+                 unit_lines=tuple(unit_lines), cells=cells, lines=row_lines, widths=widths,
                  metadata=tuple(metadata), preamble=tuple(preamble), notes=tuple(notes))
+
+
+def _cells(texts: list[str], sep: str, width: int, file: str, header_line: int,
+           row_lines: np.ndarray) -> tuple[np.ndarray, ...]:
+    """The data rows split into ``width`` columns of stripped text (short rows padded).
+
+    A quoted cell may hold the separator; one left open runs into the next line, which
+    leaves fewer rows than lines: refused, naming the line of the odd quote.
+    """
+    try:
+        rows = list(csv.reader(io.StringIO("\n".join(texts)), delimiter=sep, quotechar='"'))
+    except csv.Error as exc:
+        raise InputError(f"cannot split the rows into cells: {exc}", file=file,
+                         line=header_line) from None
+    if len(rows) != len(texts):
+        odd = next((k for k, t in enumerate(texts) if t.count('"') % 2), 0)
+        raise InputError("a quoted cell runs over the end of its line; close the quote "
+                         "on the same line", file=file, line=int(row_lines[odd]))
+    columns = [np.full(len(rows), "", dtype=object) for _ in range(width)]
+    for i, row in enumerate(rows):
+        if len(row) > width:
+            raise InputError(f"cannot split the rows into cells: {len(row)} cells on a row "
+                             f"of at most {width}", file=file, line=int(row_lines[i]))
+        for j, c in enumerate(row):
+            columns[j][i] = c.strip()
+    return tuple(columns)
+
+
+def extra_cells(table: Table, n: int) -> np.ndarray:
+    """True for each row with a non-empty cell beyond the first ``n`` columns."""
+    extra = np.zeros(table.n_rows, dtype=bool)
+    for col in table.cells[n:]:
+        extra |= col != ""
+    return extra
+
+
+def _floats(cells: np.ndarray) -> np.ndarray:
+    """Cells read as floats by Python's float (correctly rounded), NaN where it refuses."""
+    out = np.empty(cells.size)
+    for i, c in enumerate(cells):
+        try:
+            out[i] = float(c)
+        except ValueError:
+            out[i] = np.nan
+    return out
 
 
 def column_numbers(table: Table, j: int, parse: Callable[[str, int], float]
                    ) -> tuple[np.ndarray, tuple[int, InputError] | None]:
-    """Column ``j`` as floats, converted by pandas; odd cells go through ``parse``.
+    """Column ``j`` as floats; cells that are not finite numbers go through ``parse``.
 
     Parameters
     ----------
@@ -327,7 +369,7 @@ def column_numbers(table: Table, j: int, parse: Callable[[str, int], float]
     j
         Column index.
     parse
-        Called as ``parse(cell, line)`` for each cell pandas does not read as a finite
+        Called as ``parse(cell, line)`` for each cell that does not read as a finite
         number (empty, missing, NaN, infinite, text); returns the value (NaN for a missing
         value the caller allows) or raises :class:`InputError`.
 
@@ -336,17 +378,14 @@ def column_numbers(table: Table, j: int, parse: Callable[[str, int], float]
     values, first_error
         The values, and ``(row, error)`` of the first cell ``parse`` refused, or None.
     """
-    import pandas as pd
-
-    text = table.cells[j].str.strip()
-    if table.decimal == ",":
-        text = text.str.replace(",", ".", regex=False)
-    values = np.array(pd.to_numeric(text, errors="coerce").to_numpy(dtype=float,
-                                                                  na_value=np.nan))
     original = table.cells[j]
+    text = original
+    if table.decimal == ",":
+        text = np.array([c.replace(",", ".") for c in original], dtype=object)
+    values = _floats(text)
     for i in np.flatnonzero(~np.isfinite(values)):
         try:
-            values[i] = parse(original.iloc[i].strip(), int(table.lines[i]))
+            values[i] = parse(original[i], int(table.lines[i]))
         except InputError as exc:
             return values, (int(i), exc)
     return values, None
@@ -357,65 +396,3 @@ def earliest(errors: Sequence[tuple[int, InputError] | None]) -> None:
     found = [(e[0], k, e[1]) for k, e in enumerate(errors) if e is not None]
     if found:
         raise min(found, key=lambda x: (x[0], x[1]))[2]
-
-
-def _frame_cell(value) -> str:
-    """A DataFrame cell as the text a file would hold (floats exactly, by repr)."""
-    if value is None:
-        return ""
-    if isinstance(value, str):
-        return value
-    if isinstance(value, bool | np.bool_):
-        return str(value)
-    if isinstance(value, int | float | np.integer | np.floating):
-        v = float(value)
-        return "" if np.isnan(v) else repr(v)
-    return str(value)
-
-
-def _frame_title(label) -> str:
-    if isinstance(label, tuple):
-        parts = [str(p).strip() for p in label if not str(p).startswith("Unnamed")]
-        return f"{parts[0]} [{parts[1]}]" if len(parts) == 2 else " ".join(parts)
-    return str(label).strip()
-
-
-def table_from_frame(frame, *, source: str = "DataFrame", metadata=None,
-                     max_rows: int = MAX_ROWS) -> Table:
-    """A :class:`Table` from a pandas DataFrame whose column names are a file's headers.
-
-    Parameters
-    ----------
-    frame
-        The DataFrame (a two-level column index is read as name and unit).
-    source
-        Name for messages; lines are those of ``frame.to_csv(index=False)`` (header on
-        line 1, the first row on line 2).
-    metadata
-        ``key -> value`` pairs, as a file's ``# key: value`` lines.
-    max_rows
-        Most rows accepted.
-
-    Raises
-    ------
-    InputError
-        Not a DataFrame, or too many rows.
-    """
-    import pandas as pd
-
-    if not isinstance(frame, pd.DataFrame):
-        raise InputError(f"expected a pandas DataFrame, got {type(frame).__name__}",
-                         file=source)
-    if len(frame) > max_rows:
-        raise InputError(f"{len(frame):,} rows, over the limit of {max_rows:,}", file=source)
-    header = tuple(_frame_title(c) for c in frame.columns)
-    cells = pd.DataFrame({j: pd.Series([_frame_cell(v) for v in frame.iloc[:, j].tolist()],
-                                       dtype=str)
-                          for j in range(frame.shape[1])})
-    text = pd.DataFrame({h: cells[j] for j, h in enumerate(header)}).to_csv(index=False)
-    meta = tuple((str(k), str(v), 0, True) for k, v in (metadata or {}).items())
-    return Table(source=source, data=text.encode("utf-8"), encoding="utf-8", separator=",",
-                 decimal=".", header_line=1, header=header, unit_lines=(1,) * len(header),
-                 cells=cells, lines=np.arange(2, len(frame) + 2, dtype=int),
-                 widths=np.full(len(frame), len(header), dtype=int), metadata=meta,
-                 preamble=(), notes=())
