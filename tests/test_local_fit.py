@@ -119,3 +119,17 @@ def test_a_slow_start_far_above_a_converged_one_is_stopped():
         check(b, step)
     assert list(b.active) == [False, False, True]
 
+
+def test_reading_and_fitting_a_run_imports_no_heavy_library():
+    """Project choice, no source: the fit command's 0.8 s budget has no room for pandas,
+    scipy.stats, scipy.optimize, lmfit or matplotlib (0.1 to 0.5 s of imports each), so
+    reading a run file and fitting it load none of them (checked in a new interpreter)."""
+    import subprocess
+    import sys
+
+    code = ("import sys, freezeout.api as api; api.fit_file(sys.argv[1]); "
+            "print(' '.join(m for m in ('pandas', 'scipy.stats', 'scipy.optimize', 'lmfit', "
+            "'matplotlib') if m in sys.modules))")
+    done = subprocess.run([sys.executable, "-c", code, str(SAMPLE)], capture_output=True,
+                          text=True, check=True)
+    assert done.stdout.strip() == ""

@@ -152,16 +152,6 @@ def _posterior_bar(show: bool):
     The bar is live only while a chain runs (it starts at a chain's first step and goes at
     its last, or when the command ends), so the summary prints on a clean terminal.
     """
-    from rich.console import Console
-    from rich.progress import (
-        BarColumn,
-        MofNCompleteColumn,
-        Progress,
-        TextColumn,
-        TimeElapsedColumn,
-        TimeRemainingColumn,
-    )
-
     live: list = []
     show = show and sys.stderr.isatty()
 
@@ -173,6 +163,17 @@ def _posterior_bar(show: bool):
         if not show:
             return
         if not live:
+            # imported here: rich.progress takes 30 ms, which a fit without a bar need not pay
+            from rich.console import Console
+            from rich.progress import (
+                BarColumn,
+                MofNCompleteColumn,
+                Progress,
+                TextColumn,
+                TimeElapsedColumn,
+                TimeRemainingColumn,
+            )
+
             bar = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
                            TimeElapsedColumn(), TimeRemainingColumn(),
                            console=Console(stderr=True), transient=True)
