@@ -173,14 +173,16 @@ def _series_coefficients(n_terms: int) -> tuple[np.ndarray, np.ndarray]:
     return (k - 1.0)[:, None], np.stack([sign / k**1.5, sign / k**0.5])
 
 
-def _series_sums(eta: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+def _series_sums(eta: np.ndarray, worst: float | None = None
+                 ) -> tuple[np.ndarray, np.ndarray] | None:
     """Sums S_j = e^(-eta) F_j(eta) of the series for j = 1/2 and -1/2, eta < -2.
 
     S_j = sum_k (-1)^(k+1) x^(k-1) / k^(j+1), x = e^eta, with as many terms as
     :func:`_log_series` keeps (both sums in one matrix product). None when one term is
-    enough (both sums are 1).
+    enough (both sums are 1). ``worst`` is eta's largest element if already at hand.
     """
-    worst = float(eta.max())
+    if worst is None:
+        worst = float(eta.max())
     n_terms = int(min(max(math.ceil(39.2 / max(-worst, 1e-300)), 1), 24))
     if n_terms == 1:
         return None
@@ -217,11 +219,14 @@ def log_fermi_dirac_half_ratio(eta) -> tuple[np.ndarray, np.ndarray]:
     eta = np.asarray(eta, dtype=float)
     shape = eta.shape
     flat = eta.ravel()
-    if flat.size and float(flat.max()) < _SERIES_MAX:
-        sums = _series_sums(flat)
+    worst = float(flat.max()) if flat.size else math.inf
+    if worst < _SERIES_MAX:
+        # every element on the series (the common case of a band far from E_F)
+        sums = _series_sums(flat, worst)
         if sums is None:
             return eta.copy(), np.ones(shape)
-        return (flat + np.log(sums[0])).reshape(shape), (sums[1] / sums[0]).reshape(shape)
+        lf, ratio = flat + np.log(sums[0]), sums[1] / sums[0]
+        return (lf, ratio) if eta.ndim == 1 else (lf.reshape(shape), ratio.reshape(shape))
     if np.isnan(flat).any():
         raise ValueError("Fermi-Dirac integral: eta contains NaN")
     lf = np.empty_like(flat)

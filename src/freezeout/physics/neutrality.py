@@ -32,9 +32,17 @@ import numpy as np
 from scipy.special import expit
 
 from freezeout.physics.bands import thermal_energy
-from freezeout.physics.fermi import log_fermi_dirac_half_ratio
 from freezeout.physics.materials import Material
-from freezeout.physics.neutrality_terms import fermi_bracket, level_terms, log_sum, softplus
+from freezeout.physics.neutrality_terms import (
+    fermi_bracket,
+    ionized_fractions,
+    level_terms,
+    log_band,
+    log_fixed,
+    log_sum,
+    on_shape,
+    softplus,
+)
 from freezeout.physics.safeguarded_newton import iteration_cap, solve_decreasing
 
 STATISTICS = ("fermi-dirac", "boltzmann")
@@ -227,20 +235,6 @@ def acceptor_ionized_fraction(fermi_level, acceptor_level, kt,
     return expit(-x)
 
 
-def _log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray]:
-    """ln F_1/2(eta) and d ln F_1/2 / d eta = F_-1/2/F_1/2."""
-    if not fermi_dirac or float(eta.max()) <= -39.2:
-        # Boltzmann, or so far below the band that the first term of the series is exact
-        # to 1e-17 (what log_fermi_dirac_half_ratio returns there)
-        return eta, 1.0
-    return log_fermi_dirac_half_ratio(eta)
-
-
-def _on_shape(a: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
-    """``a`` broadcast to ``shape`` (itself when it has that shape already)."""
-    return a if a.shape == shape else np.broadcast_to(a, shape)
-
-
 def iteration_bound(bands: BandState, donors: Sequence[DopantLevel],
                     acceptors: Sequence[DopantLevel], tolerance: float = TOLERANCE) -> int:
     """Most iterations :func:`solve_levels` can take for these levels on these bands.
@@ -324,15 +318,13 @@ def solve_levels(
     log_nc, log_nv = bands.log_nc, bands.log_nv  # broadcast with u in the residual
     gap_kt = bands.band_gap / kt
     # fully ionized species are constants of the sums; a side without any leaves them out
-    with np.errstate(divide="ignore"):
-        const_pos = np.log(terms.fixed_pos) if (terms.fixed_pos > 0).any() else None
-        const_neg = np.log(terms.fixed_neg) if (terms.fixed_neg > 0).any() else None
+    const_pos, const_neg = log_fixed(terms.fixed_pos), log_fixed(terms.fixed_neg)
 
     def residual(u):
         # positive side: holes, ionized donors, fixed donors; negative: electrons, ionized
         # acceptors, fixed acceptors. Each side is ln(sum of exp(term)), summed with its
         # largest term taken out; its slope is the exp(term)-weighted mean of the slopes.
-        lp, dlp = _log_band(-u, fd)
+        lp, dlp = log_band(-u, fd)
         lp = lp + log_nv
         pos = [(lp, -dlp)]
         soft_d, soft_a = [], []
@@ -345,7 +337,7 @@ def solve_levels(
             np.exp(x, out=x)
             np.negative(x, out=x)
             pos.append((ln_n - soft, x))
-        ln_, dln = _log_band(u - gap_kt, fd)
+        ln_, dln = log_band(u - gap_kt, fd)
         ln_ += log_nc
         neg = [(ln_, dln)]
         for ln_a, off in a_terms:
@@ -360,26 +352,25 @@ def solve_levels(
         # (not in place: a side of one term is that term, lp or ln_ itself)
         return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, soft_d, soft_a
 
-    lo, hi = fermi_bracket(bands, terms, gap_kt)
+    name = "charge-neutrality residual"
     if initial_fermi_level is None:
-        u = np.array(_on_shape(0.5 * gap_kt, shape))
+        lo, hi = fermi_bracket(bands, terms, gap_kt)
+        u = np.array(on_shape(0.5 * gap_kt, shape))
+        u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
+            residual, lo, hi, u, tolerance, name=name)
     else:
-        u = np.array(_on_shape(np.asarray(initial_fermi_level, dtype=float) / kt, shape))
-    u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
-        residual, lo, hi, u, tolerance, name="charge-neutrality residual")
+        # a warm start: the bracket is worked out only if the start is not a root already
+        u = np.array(on_shape(np.asarray(initial_fermi_level, dtype=float) / kt, shape))
+        u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
+            residual, None, None, u, tolerance, name=name,
+            bracket=lambda: fermi_bracket(bands, terms, gap_kt))
     # ionized fractions 1 / (1 + e^x) = exp(-ln(1 + e^x)), from the last residual
-    donor_ion = []
-    ai = iter(soft_d)
-    for lv in donors:
-        donor_ion.append(np.ones(shape) if lv.energy is None else np.exp(-next(ai)))
-    acc_ion = []
-    ai = iter(soft_a)
-    for lv in acceptors:
-        acc_ion.append(np.ones(shape) if lv.energy is None else np.exp(-next(ai)))
+    donor_ion = ionized_fractions(donors, soft_d, shape)
+    acc_ion = ionized_fractions(acceptors, soft_a, shape)
     return NeutralityResult(
-        temperature=_on_shape(bands.temperature, shape),
+        temperature=on_shape(bands.temperature, shape),
         fermi_level=u * kt,
-        band_gap=_on_shape(bands.band_gap, shape),
+        band_gap=on_shape(bands.band_gap, shape),
         log_n=ln_,
         log_p=lp,
         donor_ionized=tuple(donor_ion),

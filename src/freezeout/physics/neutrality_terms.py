@@ -1,6 +1,8 @@
 """The levels of a charge-neutrality solve in units of kT, the bracket of its root, log-sums.
 
-The log-sums (:func:`log_sum`, :func:`softplus`) are those of the residual of the solve.
+The log-sums (:func:`log_sum`, :func:`softplus`) and the band terms (:func:`log_band`) are
+those of the residual of the solve; :func:`ionized_fractions` reads the ionized fractions
+off its last evaluation.
 
 The bracket's ends are where holes (below E_v) or electrons (above E_c) alone outnumber
 every level: the band density grows at least like eta^(3/2) past its edge [1].
@@ -13,12 +15,15 @@ References
 
 from __future__ import annotations
 
+import functools
+import math
 from collections.abc import Sequence
 from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
 from freezeout.physics.excited_states import log_effective_degeneracy
+from freezeout.physics.fermi import log_fermi_dirac_half_ratio
 
 if TYPE_CHECKING:
     from freezeout.physics.neutrality import BandState, DopantLevel
@@ -36,14 +41,15 @@ class LevelTerms(NamedTuple):
     acceptors
         (ln N, ln g + E/kT) of each partially ionized acceptor. [1]
     fixed_pos, fixed_neg
-        Summed concentrations of the fully ionized donors and acceptors. [cm^-3]
+        Summed concentrations of the fully ionized donors and acceptors, numbers or arrays
+        broadcasting to ``shape``. [cm^-3]
     """
 
     shape: tuple[int, ...]
     donors: tuple[tuple[np.ndarray, np.ndarray], ...]
     acceptors: tuple[tuple[np.ndarray, np.ndarray], ...]
-    fixed_pos: np.ndarray
-    fixed_neg: np.ndarray
+    fixed_pos: float | np.ndarray
+    fixed_neg: float | np.ndarray
 
 
 def level_terms(bands: BandState, donors: Sequence[DopantLevel],
@@ -62,12 +68,12 @@ def level_terms(bands: BandState, donors: Sequence[DopantLevel],
     LevelTerms
     """
     kt = bands.kt
-    shape = np.broadcast_shapes(kt.shape, *(np.shape(lv.concentration) for lv in donors),
-                                *(np.shape(lv.concentration) for lv in acceptors),
-                                *(np.shape(lv.energy) for lv in (*donors, *acceptors)
-                                  if lv.energy is not None))
-    fixed_pos = np.zeros(shape)
-    fixed_neg = np.zeros(shape)
+    shapes = {_shape(lv.concentration) for lv in (*donors, *acceptors)}
+    shapes |= {_shape(lv.energy) for lv in (*donors, *acceptors) if lv.energy is not None}
+    shapes -= {(), kt.shape}
+    # numpy's broadcast_shapes costs microseconds; scalar levels on the grid need none
+    shape = np.broadcast_shapes(kt.shape, *shapes) if shapes else kt.shape
+    fixed_pos = fixed_neg = 0.0
     d_terms = []
     a_terms = []
     for lv in donors:
@@ -75,22 +81,33 @@ def level_terms(bands: BandState, donors: Sequence[DopantLevel],
             fixed_pos = fixed_pos + lv.concentration
         else:
             log_g, energy = _level_g_and_energy(lv, kt)
-            d_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
+            d_terms.append((_log_concentration(lv.concentration),
                             log_g - (bands.band_gap - energy) / kt))
     for lv in acceptors:
         if lv.energy is None:
             fixed_neg = fixed_neg + lv.concentration
         else:
             log_g, energy = _level_g_and_energy(lv, kt)
-            a_terms.append((np.log(np.maximum(lv.concentration, 1e-300)),
-                            log_g + energy / kt))
+            a_terms.append((_log_concentration(lv.concentration), log_g + energy / kt))
     return LevelTerms(shape, tuple(d_terms), tuple(a_terms), fixed_pos, fixed_neg)
+
+
+def _log_concentration(c):
+    """ln max(c, 1e-300) of a level's concentration (math.log for a number: no numpy call)."""
+    if isinstance(c, float | int):
+        return math.log(max(c, 1e-300))
+    return np.log(np.maximum(c, 1e-300))
+
+
+def _shape(x) -> tuple[int, ...]:
+    """np.shape of a level parameter, () for a Python number without asking numpy."""
+    return () if isinstance(x, float | int) else np.shape(x)
 
 
 def _level_g_and_energy(lv: DopantLevel, kt: np.ndarray):
     """ln g (g_eff(T) with excited states) and the energy (its E(N) model when set)."""
     if not lv.excited and lv.lowering is None:
-        return np.log(lv.degeneracy), lv.energy
+        return math.log(lv.degeneracy), lv.energy
     log_g = (log_effective_degeneracy(kt, lv.degeneracy, lv.excited) if lv.excited
              else np.log(lv.degeneracy))
     energy = (lv.energy if lv.lowering is None
@@ -174,3 +191,52 @@ def log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
     np.log(total, out=total)
     total += top
     return total, moment
+
+
+def log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray]:
+    """ln F_1/2(eta) and d ln F_1/2 / d eta = F_-1/2/F_1/2."""
+    if not fermi_dirac or float(eta.max()) <= -39.2:
+        # Boltzmann, or so far below the band that the first term of the series is exact
+        # to 1e-17 (what log_fermi_dirac_half_ratio returns there)
+        return eta, 1.0
+    return log_fermi_dirac_half_ratio(eta)
+
+
+def ionized_fractions(levels: Sequence[DopantLevel], soft: list, shape: tuple[int, ...]) -> list:
+    """Ionized fraction of each level, from the last residual's softplus.
+
+    1 / (1 + e^x) = exp(-ln(1 + e^x)); 1 for a fully ionized level (a read-only array,
+    shared between solves of one shape).
+    """
+    out = []
+    ai = iter(soft)
+    for lv in levels:
+        out.append(_ones(shape) if lv.energy is None else np.exp(-next(ai)))
+    return out
+
+
+@functools.lru_cache(maxsize=64)
+def _ones(shape: tuple[int, ...]) -> np.ndarray:
+    """A read-only array of ones, one per shape."""
+    ones = np.ones(shape)
+    ones.flags.writeable = False
+    return ones
+
+
+def log_fixed(total) -> float | np.ndarray | None:
+    """ln of a summed fully ionized concentration, None when it is 0 everywhere.
+
+    A number (every level scalar) goes through math.log: numpy's scalar calls cost
+    microseconds, which a warm solve of a few iterations notices.
+    """
+    if isinstance(total, float):
+        return math.log(total) if total > 0 else None
+    if not (total > 0).any():
+        return None
+    with np.errstate(divide="ignore"):
+        return np.log(total)
+
+
+def on_shape(a: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
+    """``a`` broadcast to ``shape`` (itself when it has that shape already)."""
+    return a if a.shape == shape else np.broadcast_to(a, shape)

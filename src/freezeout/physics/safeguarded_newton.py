@@ -72,18 +72,39 @@ def _resolution(magnitude: np.ndarray, tolerance: float):
 
     The tolerance alone (a number) when it exceeds 8 ulp of the largest magnitude.
     """
-    if magnitude.size == 0 or 8.0 * np.spacing(float(magnitude.max())) <= tolerance:
+    if magnitude.size == 0 or 8.0 * math.ulp(float(magnitude.max())) <= tolerance:
         return tolerance
     return np.maximum(tolerance, 8.0 * np.spacing(magnitude))
 
 
+def _converged(h: np.ndarray, newton: np.ndarray, u: np.ndarray, tolerance: float):
+    """Where u is a root.
+
+    The balance exact to rounding, or the Newton step below the tolerance or below the
+    floating-point resolution of u itself.
+    """
+    return (np.abs(h) <= EXACT_RESIDUAL) | (np.abs(newton) <= _resolution(np.abs(u), tolerance))
+
+
+def converged(h: np.ndarray, slope: np.ndarray, u: np.ndarray, tolerance: float):
+    """True where u is a root by the test of :func:`solve_decreasing` (f = h, f' = slope).
+
+    |h / slope| <= resolution written as |h| <= -slope * resolution, which no slope >= 0
+    (nor a NaN) meets: no division, as a warm start's check runs on every solve.
+    """
+    limit = np.fmax(-slope * _resolution(np.abs(u), tolerance), EXACT_RESIDUAL)
+    return np.abs(h) <= limit
+
+
 def solve_decreasing(
     evaluate: Callable[[np.ndarray], tuple],
-    lo: np.ndarray,
-    hi: np.ndarray,
+    lo: np.ndarray | None,
+    hi: np.ndarray | None,
     start: np.ndarray,
     tolerance: float,
     name: str = "function",
+    *,
+    bracket: Callable[[], tuple[np.ndarray, np.ndarray]] | None = None,
 ) -> tuple[np.ndarray, tuple, int]:
     """Root of f on each bracket, for f strictly decreasing and continuous.
 
@@ -93,8 +114,13 @@ def solve_decreasing(
         ``evaluate(u)`` returns ``(f(u), f'(u), *extra)``, arrays of the shape of ``u``.
     lo, hi
         Bracket ends, f(lo) >= 0 >= f(hi), lo < hi; broadcasting to the shape of ``start``.
+        Both None with ``bracket``.
     start
         First point (clipped into the bracket).
+    bracket
+        Instead of ``lo`` and ``hi``: returns them, called only when a first evaluation at
+        the unclipped ``start`` has not converged everywhere (a warm start from a nearby
+        solution usually has, and then needs no bracket).
     tolerance
         Absolute tolerance on the root: an element stops when the Newton step is below it
         (or below 8 units in the last place of the point), or, from iteration
@@ -109,24 +135,40 @@ def solve_decreasing(
     evaluation : tuple
         ``evaluate(u)`` at the returned u.
     iterations : int
-        Evaluations made, at most ``iteration_cap(hi - lo, tolerance)``.
+        Evaluations made, at most ``iteration_cap(hi - lo, tolerance)`` (one more when a
+        lazy ``bracket`` moved the start).
 
     Raises
     ------
     RuntimeError
         If f is not finite somewhere.
     """
-    u = np.clip(start, lo, hi)
+    extra = 0  # an evaluation made before the bracket was known, and not reused
+    pending = None  # that evaluation, when the loop can start from it
+    if bracket is not None:
+        u = np.array(start, dtype=float)
+        pending = evaluate(u)
+        done = converged(np.asarray(pending[0]), np.asarray(pending[1]), u, tolerance)
+        if done.all():
+            return u, pending, 1
+        lo, hi = bracket()
+        inside = np.clip(u, lo, hi)
+        if not np.array_equal(inside, u):
+            u = np.where(done, u, inside)
+            pending, extra = None, 1
+    else:
+        u = np.clip(start, lo, hi)
     # own copies of the bracket on the shape of u, narrowed in place
     lo = np.array(lo if np.shape(lo) == u.shape else np.broadcast_to(lo, u.shape), dtype=float)
     hi = np.array(hi if np.shape(hi) == u.shape else np.broadcast_to(hi, u.shape), dtype=float)
     lo0, hi0 = lo.copy(), hi.copy()  # the initial bracket, for the cap
     cap = None  # worked out only if the Newton iterations run out
     step = step_before = None  # the last two steps, kept once the step test is near
-    iterations = 0
+    iterations = extra
     while True:
         iterations += 1
-        out = evaluate(u)
+        out = evaluate(u) if pending is None else pending
+        pending = None
         h, slope = np.asarray(out[0]), np.asarray(out[1])
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             newton = -(h / slope)
@@ -134,11 +176,8 @@ def solve_decreasing(
             if flat.any():
                 # a flat residual gives an infinite step: bisection takes over below
                 newton = np.where(flat, np.inf, newton)
-        # converged: balance exact to rounding, or the Newton step below the tolerance or
-        # below the floating-point resolution of u itself
-        done = ((np.abs(h) <= EXACT_RESIDUAL)
-                | (np.abs(newton) <= _resolution(np.abs(u), tolerance)))
-        late = iterations >= STEP_TEST_FROM
+        done = _converged(h, newton, u, tolerance)
+        late = iterations - extra >= STEP_TEST_FROM
         if late:
             np.copyto(lo, u, where=h > 0)
             np.copyto(hi, u, where=h < 0)
@@ -151,10 +190,10 @@ def solve_decreasing(
         if not late:
             np.copyto(lo, u, where=h > 0)
             np.copyto(hi, u, where=h < 0)
-        if iterations >= NEWTON_ITERATIONS:
+        if iterations - extra >= NEWTON_ITERATIONS:
             if cap is None:
                 cap = iteration_cap(hi0 - lo0, tolerance)
-            if iterations >= cap:
+            if iterations - extra >= cap:
                 break
             nxt = 0.5 * (lo + hi)
         else:
@@ -164,7 +203,7 @@ def solve_decreasing(
                 take &= np.abs(newton) <= 0.5 * np.abs(step_before)
             if not take.all():
                 nxt = np.where(take, nxt, 0.5 * (lo + hi))
-            if iterations >= STEP_TEST_FROM - 2:
+            if iterations - extra >= STEP_TEST_FROM - 2:
                 step_before, step = step, nxt - u
         u = np.where(done, u, nxt)
     # unreachable: iteration_cap bounds the bisections needed (kept as a guard)
