@@ -24,12 +24,13 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import expit
+from scipy.special import expit, log_expit
 
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
@@ -41,7 +42,6 @@ from freezeout.physics.neutrality_terms import (
     log_fixed,
     log_sum,
     on_shape,
-    softplus,
 )
 from freezeout.physics.safeguarded_newton import iteration_cap, solve_decreasing
 
@@ -136,6 +136,11 @@ class BandState:
     band_gap: np.ndarray
     log_nc: np.ndarray
     log_nv: np.ndarray
+
+    @functools.cached_property
+    def gap_kt(self) -> np.ndarray:
+        """E_g/kT, worked out once for every solve on this state. [1]"""
+        return self.band_gap / self.kt
 
     @classmethod
     def from_material(cls, material: Material, temperature) -> BandState:
@@ -316,57 +321,56 @@ def solve_levels(
     shape = terms.shape
     d_terms, a_terms = terms.donors, terms.acceptors
     log_nc, log_nv = bands.log_nc, bands.log_nv  # broadcast with u in the residual
-    gap_kt = bands.band_gap / kt
+    gap_kt = bands.gap_kt
     # fully ionized species are constants of the sums; a side without any leaves them out
     const_pos, const_neg = log_fixed(terms.fixed_pos), log_fixed(terms.fixed_neg)
 
+    # ln(ionized fraction) = log_expit(-x): donors x = off + u, acceptors x = off - u
+    d_offs = [(ln_n, -off) for ln_n, off in d_terms]
+
     def residual(u):
         # positive side: holes, ionized donors, fixed donors; negative: electrons, ionized
-        # acceptors, fixed acceptors. Each side is ln(sum of exp(term)), summed with its
-        # largest term taken out; its slope is the exp(term)-weighted mean of the slopes.
+        # acceptors, fixed acceptors. Each side is ln(sum of exp(term)) (log_sum); its
+        # slope is the exp(term)-weighted mean of the slopes.
         lp, dlp = log_band(-u, fd)
         lp = lp + log_nv
         pos = [(lp, -dlp)]
-        soft_d, soft_a = [], []
-        for ln_n, off in d_terms:
-            # ln N_D+ = ln N - ln(1 + e^x), d/du = -expit(x), x = off + u
-            x = off + u
-            soft = softplus(x)
-            soft_d.append(soft)
-            x -= soft
-            np.exp(x, out=x)
-            np.negative(x, out=x)
-            pos.append((ln_n - soft, x))
+        log_d, log_a = [], []
+        for ln_n, neg_off in d_offs:
+            # ln N_D+ = ln N + log_expit(-x), d/du = -expit(x) = expm1(log_expit(-x))
+            le = log_expit(neg_off - u)
+            log_d.append(le)
+            pos.append((ln_n + le, np.expm1(le)))
         ln_, dln = log_band(u - gap_kt, fd)
         ln_ += log_nc
         neg = [(ln_, dln)]
         for ln_a, off in a_terms:
-            x = off - u
-            soft = softplus(x)
-            soft_a.append(soft)
-            x -= soft
-            np.exp(x, out=x)
-            neg.append((ln_a - soft, x))
+            # ln N_A- = ln N + log_expit(-x), d/du = expit(x) = -expm1(log_expit(-x))
+            le = log_expit(u - off)
+            log_a.append(le)
+            neg.append((ln_a + le, -np.expm1(le)))
         log_pos, slope_pos = log_sum(pos, const_pos)
         log_neg, slope_neg = log_sum(neg, const_neg)
         # (not in place: a side of one term is that term, lp or ln_ itself)
-        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, soft_d, soft_a
+        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, log_d, log_a
 
     name = "charge-neutrality residual"
     if initial_fermi_level is None:
         lo, hi = fermi_bracket(bands, terms, gap_kt)
         u = np.array(on_shape(0.5 * gap_kt, shape))
-        u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
+        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
             residual, lo, hi, u, tolerance, name=name)
     else:
         # a warm start: the bracket is worked out only if the start is not a root already
-        u = np.array(on_shape(np.asarray(initial_fermi_level, dtype=float) / kt, shape))
-        u, (_, _, lp, ln_, soft_d, soft_a), iterations = solve_decreasing(
+        u = np.asarray(initial_fermi_level, dtype=float) / kt
+        if u.shape != shape:
+            u = np.array(np.broadcast_to(u, shape))
+        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
             residual, None, None, u, tolerance, name=name,
             bracket=lambda: fermi_bracket(bands, terms, gap_kt))
     # ionized fractions 1 / (1 + e^x) = exp(-ln(1 + e^x)), from the last residual
-    donor_ion = ionized_fractions(donors, soft_d, shape)
-    acc_ion = ionized_fractions(acceptors, soft_a, shape)
+    donor_ion = ionized_fractions(donors, log_d, shape)
+    acc_ion = ionized_fractions(acceptors, log_a, shape)
     return NeutralityResult(
         temperature=on_shape(bands.temperature, shape),
         fermi_level=u * kt,

@@ -1,6 +1,6 @@
 """The levels of a charge-neutrality solve in units of kT, the bracket of its root, log-sums.
 
-The log-sums (:func:`log_sum`, :func:`softplus`) and the band terms (:func:`log_band`) are
+The log-sums (:func:`log_sum`) and the band terms (:func:`log_band`) are
 those of the residual of the solve; :func:`ionized_fractions` reads the ionized fractions
 off its last evaluation.
 
@@ -148,48 +148,35 @@ def fermi_bracket(bands: BandState, terms: LevelTerms,
     m_v, m_c = np.maximum(r_v, 1.0), np.maximum(r_c, 1.0)
     lo = -(np.log(m_v) + 2.0 * np.cbrt(m_v * m_v) + 10.0)
     if gap_kt is None:
-        gap_kt = bands.band_gap / bands.kt
+        gap_kt = bands.gap_kt
     hi = gap_kt + np.log(m_c) + 2.0 * np.cbrt(m_c * m_c) + 10.0
     return lo, hi
-
-
-def softplus(x: np.ndarray) -> np.ndarray:
-    """ln(1 + e^x), without overflow: max(x, 0) + ln(1 + e^-|x|). [1]"""
-    a = np.abs(x)
-    np.negative(a, out=a)
-    np.exp(a, out=a)
-    np.log1p(a, out=a)
-    a += np.maximum(x, 0.0)
-    return a
 
 
 def log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
     """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
 
-    ``const`` is one more term of slope 0, or None. The largest term is taken out first,
-    so nothing overflows.
+    ``const`` is one more term of slope 0, or None. The sum is built by numpy's logaddexp
+    (ln(e^a + e^b) = max + ln(1 + e^-|a - b|): nothing overflows), the slope from the
+    weights exp(t_i - total); fewer array operations than taking the largest term out by
+    hand, which a warm solve of one or two iterations notices.
     """
     if const is None and len(terms) == 1:
         return terms[0]
-    top = terms[0][0]
+    total = terms[0][0]
     for t, _ in terms[1:]:
-        top = np.maximum(top, t)
+        total = np.logaddexp(total, t)
     if const is not None:
-        top = np.maximum(top, const)
-    total = moment = None
+        total = np.logaddexp(total, const)
+    moment = None
     for t, s in terms:
-        w = np.subtract(t, top)
+        w = np.subtract(t, total)
         np.exp(w, out=w)
-        if total is None:
-            total, moment = w, w * s
+        w *= s
+        if moment is None:
+            moment = w
         else:
-            moment += w * s
-            total += w
-    if const is not None:
-        total += np.exp(const - top)
-    moment /= total
-    np.log(total, out=total)
-    total += top
+            moment += w
     return total, moment
 
 
@@ -202,16 +189,18 @@ def log_band(eta: np.ndarray, fermi_dirac: bool) -> tuple[np.ndarray, np.ndarray
     return log_fermi_dirac_half_ratio(eta)
 
 
-def ionized_fractions(levels: Sequence[DopantLevel], soft: list, shape: tuple[int, ...]) -> list:
-    """Ionized fraction of each level, from the last residual's softplus.
+def ionized_fractions(levels: Sequence[DopantLevel], log_fractions: list,
+                      shape: tuple[int, ...]) -> list:
+    """Ionized fraction of each level, from the last residual's ln(ionized fraction).
 
-    1 / (1 + e^x) = exp(-ln(1 + e^x)); 1 for a fully ionized level (a read-only array,
-    shared between solves of one shape).
+    exp(log_expit(-x)) = 1 / (1 + e^x) for a partially ionized level (``log_fractions``,
+    in level order); 1 for a fully ionized level (a read-only array, shared between solves
+    of one shape).
     """
     out = []
-    ai = iter(soft)
+    ai = iter(log_fractions)
     for lv in levels:
-        out.append(_ones(shape) if lv.energy is None else np.exp(-next(ai)))
+        out.append(_ones(shape) if lv.energy is None else np.exp(next(ai)))
     return out
 
 

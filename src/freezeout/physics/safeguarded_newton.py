@@ -146,7 +146,7 @@ def solve_decreasing(
     extra = 0  # an evaluation made before the bracket was known, and not reused
     pending = None  # that evaluation, when the loop can start from it
     if bracket is not None:
-        u = np.array(start, dtype=float)
+        u = np.asarray(start, dtype=float)  # (a root found at once is returned as is)
         pending = evaluate(u)
         done = converged(np.asarray(pending[0]), np.asarray(pending[1]), u, tolerance)
         if done.all():
