@@ -60,7 +60,7 @@ def test_charts_have_their_axes_labels(mixed):
     assert ticks == ["W01\naccept", "W02\nindeterminate", "W03\nindeterminate\n(no value)"]
     net = claim_axes(mixed.verdict, "claim[3]")
     assert net.get_yscale() == "log"  # net doping always on a log axis
-    assert net.get_ylabel() == "net doping |N$_D$ − N$_A$| [cm$^{-3}$]"
+    assert net.get_ylabel() == "net doping |N$_D$ − N$_A$| [cm⁻³]"
     assert net.get_title(loc="left") == "claim[3]: net doping"
     legend = [t.get_text() for t in net.get_legend().get_texts()]
     assert "±U (k = 2)" in legend and "±u" in legend

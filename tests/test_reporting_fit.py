@@ -89,7 +89,7 @@ def test_density_axes(result, curves):
     """Log density against 1000/T with a kelvin axis on top; data, fit, levels, markers."""
     ax = fg.density_axes(result, curves)
     assert isinstance(ax, Axes)
-    assert ax.get_xlabel() == "1000 / T [1/K]" and ax.get_ylabel() == "density [cm$^{-3}$]"
+    assert ax.get_xlabel() == "1000 / T [1/K]" and ax.get_ylabel() == "density [cm⁻³]"
     assert ax.get_yscale() == "log"
     labels = _labels(ax)
     assert "fit: electron density" in labels and "ionized N_D1+" in labels
@@ -155,7 +155,7 @@ def test_transport_figure(result):
     """Resistivity and mobility on log axes; None for a run without either."""
     fig = fg.transport_figure(result)
     assert [a.get_ylabel() for a in fig.axes] == ["resistivity [Ω cm]",
-                                                  "Hall mobility [cm$^2$/(V s)]"]
+                                                  "Hall mobility [cm²/(V s)]"]
     assert all(a.get_yscale() == "log" and a.get_xscale() == "log" for a in fig.axes)
     bare = fit_run(_run(transport=False), SI, provenance=dict(PROVENANCE))
     assert fg.transport_figure(bare) is None

@@ -91,7 +91,7 @@ def overlay_axes(results: Sequence[FitResult], ax=None):
         ax.plot(1000.0 / c.temperature, c.majority, "-", lw=1.4, color=col)
     ax.set_yscale("log")
     ax.set_xlabel("1000 / T [1/K]")
-    ax.set_ylabel("majority carrier density [cm$^{-3}$]")
+    ax.set_ylabel("majority carrier density [cm⁻³]")
     ax.set_title("measured (points) and fitted (lines)", loc="left", fontsize=10)
     ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=8)
     return ax

@@ -1,10 +1,57 @@
-"""A drawn figure as file bytes: PNG through one Agg draw, other formats through savefig."""
+"""A drawn figure as file bytes: PNG through one Agg draw, other formats through savefig.
+
+Before drawing, the labels of logarithmic axes are made plain text (``10¹⁵``, ``2×10¹⁵``
+in Unicode superscripts) instead of matplotlib's default mathtext (``$10^{15}$``): every
+figure is drawn on a new canvas, whose mathtext parser starts with an empty cache, and each
+label parsed cost about 7 ms, a third of a log-axis figure's time.
+"""
 
 from __future__ import annotations
 
 import io
+import re
 
 from matplotlib.figure import Figure
+from matplotlib.ticker import LogFormatterSciNotation
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "\u207b\u2070\u00b9\u00b2\u00b3\u2074\u2075"
+                                            "\u2076\u2077\u2078\u2079")
+_MATHDEFAULT = re.compile(r"\$\\mathdefault\{(.*)\}\$")
+_POWER = re.compile(r"\^\{(-?\d+)\}")
+
+
+def plain_power(label: str) -> str:
+    r"""A log-axis label of matplotlib's mathtext form as plain text; other labels as given.
+
+    ``$\mathdefault{10^{-3}}$`` -> ``10⁻³``; ``$\mathdefault{2\times10^{15}}$`` ->
+    ``2×10¹⁵``.
+    """
+    m = _MATHDEFAULT.fullmatch(label)
+    if m is None:
+        return label
+    body = m.group(1).replace("\\times", "\u00d7")
+    return _POWER.sub(lambda g: g.group(1).translate(_SUPERSCRIPT), body)
+
+
+class PlainLogFormatter(LogFormatterSciNotation):
+    """matplotlib's log-axis labels (which ticks, which numbers), written as plain text."""
+
+    def __call__(self, x, pos=None) -> str:
+        """The label of tick value ``x``, as the default formatter chooses it, plain."""
+        return plain_power(super().__call__(x, pos))
+
+
+def plain_log_labels(fig: Figure) -> None:
+    """Swap every default log-axis formatter of ``fig`` for :class:`PlainLogFormatter`."""
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for get, put in ((axis.get_major_formatter, axis.set_major_formatter),
+                             (axis.get_minor_formatter, axis.set_minor_formatter)):
+                old = get()
+                if type(old) is LogFormatterSciNotation:
+                    new = PlainLogFormatter()
+                    new.__dict__.update(old.__dict__)  # its base, thresholds and axis
+                    put(new)
 
 #: Resolution of every PNG figure. [dots per inch]
 DPI = 130
@@ -20,6 +67,7 @@ def png_bytes(fig_or_ax, fmt: str = "png") -> bytes:
     formats go through ``savefig``.
     """
     fig = fig_or_ax if isinstance(fig_or_ax, Figure) else fig_or_ax.figure
+    plain_log_labels(fig)
     buf = io.BytesIO()
     if fmt != "png":
         fig.savefig(buf, format=fmt, dpi=DPI)

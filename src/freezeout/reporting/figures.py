@@ -166,7 +166,7 @@ def density_axes(result: FitResult, curves: ModelCurves, ax=None):
         ax.set_ylim(lo, hi)
         ax.set_xlim(*_inverse_temperature_limits(result))
         ax.set_xlabel("1000 / T [1/K]")
-        ax.set_ylabel("density [cm$^{-3}$]")
+        ax.set_ylabel("density [cm⁻³]")
         _add_temperature_axis(ax)
         drop_unseen(ax, groups)
         legend_below(ax, ncols=2)
@@ -338,7 +338,7 @@ def transport_figure(result: FitResult):
         t, _, _, used, _, _ = _points(result)
         for ax, vals, errs, label in (
             (axes[0], rho, d.resistivity_err, "resistivity [Ω cm]"),
-            (axes[1], mu, d.mobility_err, "Hall mobility [cm$^2$/(V s)]"),
+            (axes[1], mu, d.mobility_err, "Hall mobility [cm²/(V s)]"),
         ):
             if vals is None:
                 ax.set_visible(False)

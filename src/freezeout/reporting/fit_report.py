@@ -71,6 +71,11 @@ def _rms_sentence(st: dict) -> str:
     return f" rms residual {rms:.2g} % (ln density).{note}"
 
 
+#: The figures that take longest to draw (two panels, or many curves), drawn first.
+_SLOW_FIGURES = ("fermi_level", "density", "spectroscopy", "mobility", "hall_sign",
+                 "selection", "posterior")
+
+
 def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
                  workers: int | None = None) -> dict[str, tuple[bytes, str]]:
     """PNG bytes and caption per figure; with ``svg`` (a dict), its SVG bytes go there too.
@@ -121,7 +126,10 @@ def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
          "points."),
     )
     jobs = [*core, *((stem, partial(draw, result), caption) for stem, draw, caption in optional)]
-    drawn = render_figures([(stem, draw) for stem, draw, _ in jobs], svg=svg is not None,
+    # drawn longest first, so that the two processes end together (the two-panel and the
+    # many-curve figures take about twice as long as the others; project choice, no source)
+    order = sorted(jobs, key=lambda job: job[0] not in _SLOW_FIGURES)
+    drawn = render_figures([(stem, draw) for stem, draw, _ in order], svg=svg is not None,
                            workers=workers)
     out = {}
     for stem, _, caption in jobs:

@@ -85,7 +85,7 @@ def hall_sign_figure(result: FitResult) -> Figure | None:
         lo = min(float(tc.min()), float(t.min())) / 1.05
         hi = max(float(tc.max()), float(t.max())) * 1.05
         _temperature_ticks(bottom, lo, hi)
-        top.set_ylabel("|R_H| [cm$^3$/C]")
+        top.set_ylabel("|R_H| [cm³/C]")
         bottom.set_ylabel("resistivity [Ω cm]")
         bottom.set_xlabel("temperature [K]")
         top.set_title("Hall coefficient with electrons and holes: the sign shown by marker "

@@ -32,7 +32,7 @@ _QUANTITY_LABEL = {
     "net_doping": "net doping |N$_D$ − N$_A$|",
     "resistivity": "resistivity ρ",
 }
-_UNIT_LABEL = {"cm^-3": "cm$^{-3}$", "ohm cm": "Ω cm"}
+_UNIT_LABEL = {"cm^-3": "cm⁻³", "ohm cm": "Ω cm"}
 
 #: Horizontal offset of a wafer's ±U/±u bars from its marker, in wafer slots (project
 #: choice): beside the marker, not under it. [1]

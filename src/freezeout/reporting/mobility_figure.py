@@ -70,7 +70,7 @@ def mobility_figure(result: FitResult) -> Figure | None:
     top.set_ylim(finite.min() / 2.0, finite.max() * 6.0)  # mechanisms beyond: off the axes
     top.set_xlim(tc.min() / 1.03, tc.max() * 1.03)
     _plain_temperature_ticks(bottom, tc.min() / 1.03, tc.max() * 1.03)
-    top.set_ylabel("mobility [cm$^2$/(V s)]")
+    top.set_ylabel("mobility [cm²/(V s)]")
     top.set_title("Hall mobility: measured, model, and each mechanism's own drift mobility",
                   fontsize=9, loc="left")
     top.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=8)

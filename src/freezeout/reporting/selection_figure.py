@@ -109,7 +109,7 @@ def selection_figure(result: FitResult) -> Figure | None:
         positive = d.density[np.isfinite(d.density) & (d.density > 0)]
         top.set_yscale("log")
         top.set_ylim(positive.min() / 5.0, positive.max() * 3.0)
-        top.set_ylabel("majority carrier density [cm$^{-3}$]")
+        top.set_ylabel("majority carrier density [cm⁻³]")
         top.set_title(f"Model selection by BIC: {sel.chosen} chosen", loc="left")
         top.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8,
                    labelspacing=0.9)
