@@ -22,7 +22,7 @@ import numpy as np
 from freezeout.fitting.jacobian import majority_log_jacobian
 from freezeout.fitting.local_fit import LocalFit, Params, covariance, with_errors
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.problem import Problem
+from freezeout.fitting.problem import Problem, bounded_jacobian
 from freezeout.physics.neutrality import solve_levels
 
 #: MINPACK's default tolerances on the relative reduction of chi^2 and the relative step
@@ -96,7 +96,7 @@ def batch_residuals_jacobian(problem: Problem, names: list[str], theta: np.ndarr
                 np.zeros((shape[0], len(names), shape[1])))
     ok = np.isfinite(r)
     return (np.where(ok, r, np.inf), res.fermi_level,
-            np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0))
+            bounded_jacobian(np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0)))
 
 
 def batch_solver(problem: Problem, names: list[str], fixed: dict) -> Callable:

@@ -10,9 +10,21 @@ import math
 
 import numpy as np
 
+from freezeout.fitting.jacobian import majority_log_jacobian
 from freezeout.fitting.model import CarrierModel
 from freezeout.fitting.profile import Profiler
 from freezeout.physics.neutrality import BandState, solve_levels
+
+#: Largest magnitude kept in a residual Jacobian (project choice, no source): where the
+#: neutrality residual is nearly flat in E_F (a level at the band edge, a far start) implicit
+#: differentiation gives derivatives past 1e170, which would overflow J^T J; a forward
+#: difference there gives a large finite slope, and so does this bound. [1 per unit]
+JACOBIAN_BOUND = 1e10
+
+
+def bounded_jacobian(jac: np.ndarray) -> np.ndarray:
+    """``jac`` with every entry clipped to +-:data:`JACOBIAN_BOUND`."""
+    return np.clip(jac, -JACOBIAN_BOUND, JACOBIAN_BOUND)
 
 
 class Problem:
@@ -124,28 +136,64 @@ class Problem:
             Residuals (rows, points), with the type penalty of :meth:`residual` and 1e6
             where not finite, and the Fermi levels of the solve (rows, points). [1], [eV]
         """
-        t = self.model.temperature
-        donors, acceptors = self.model.levels(values)
+        r, fermi, _ = self._batch(values, init, None)
+        return r, fermi
+
+    def batch_residuals_jacobian(self, values: dict, init, names: list[str]
+                                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """:meth:`batch_residuals` with their Jacobian by the internal ``names``.
+
+        The Jacobian (rows, names, points) comes from the same solve by implicit
+        differentiation (:func:`freezeout.fitting.jacobian.majority_log_jacobian`), with the
+        type penalty's own slope where it is active; zero where the residual is not finite.
+        """
+        return self._batch(values, init, names)
+
+    def _batch(self, values: dict, init, names: list[str] | None):
+        """Residuals, Fermi levels and (with ``names``) the Jacobian of a batch."""
+        model = self.model
+        t = model.temperature
+        donors, acceptors = model.levels(values)
         try:
-            res = solve_levels(self.model.row_bands, donors, acceptors, self.model.statistics, init)
+            res = solve_levels(model.row_bands, donors, acceptors, model.statistics, init)
         except (RuntimeError, ValueError, FloatingPointError):
             rows = max((np.shape(v)[0] for v in values.values() if np.ndim(v)), default=1)
             if rows == 1:
-                return np.full((1, t.size), 1e6), np.zeros((1, t.size))
+                jac = None if names is None else np.zeros((1, len(names), t.size))
+                return np.full((1, t.size), 1e6), np.zeros((1, t.size)), jac
             # one set the solver cannot take must not spoil the others: one at a time
-            parts = [self.batch_residuals(
+            parts = [self._batch(
                 {k: (v[i:i + 1] if np.ndim(v) else v) for k, v in values.items()},
-                None if init is None else np.asarray(init)[i:i + 1]) for i in range(rows)]
+                None if init is None else np.asarray(init)[i:i + 1], names)
+                for i in range(rows)]
             return (np.concatenate([p[0] for p in parts]),
-                    np.concatenate([p[1] for p in parts]))
+                    np.concatenate([p[1] for p in parts]),
+                    None if names is None else np.concatenate([p[2] for p in parts]))
+        jac = None
         with np.errstate(invalid="ignore", over="ignore"):
-            r = (self.model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
+            r = (model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
+            if names is not None:
+                jac = majority_log_jacobian(model, model.row_bands, values, res, names)
+                jac = jac / self.sigma
             if self._minor is not None:
-                major = np.log10(sum(10.0 ** np.asarray(values[k], dtype=float)
-                                     for k in self._major))
-                excess = np.maximum(np.asarray(values[self._minor]) - major + 1e-3, 0.0)
-                r = r + 1e3 * excess * np.sign(r + 1e-300)
-        return np.where(np.isfinite(r), r, 1e6), res.fermi_level
+                conc = {k: 10.0 ** np.asarray(values[k], dtype=float) for k in self._major}
+                total = sum(conc.values())
+                excess = np.asarray(values[self._minor]) - np.log10(total) + 1e-3
+                sign = np.sign(r + 1e-300)
+                if jac is not None and np.any(excess > 0):
+                    # the penalty's slope: d excess / d log10 N_min = 1, / d log10 N_k =
+                    # -N_k / sum N_maj, on every residual with its sign
+                    active = np.broadcast_to(excess > 0, (r.shape[0], 1))
+                    d_excess = {self._minor: 1.0} | {k: -c / total for k, c in conc.items()}
+                    for j, k in enumerate(names):
+                        if k in d_excess:
+                            slope = np.broadcast_to(d_excess[k], (r.shape[0], 1))
+                            jac[:, j, :] += np.where(active, 1e3 * slope * sign, 0.0)
+                r = r + 1e3 * np.maximum(excess, 0.0) * sign
+        ok = np.isfinite(r)
+        if jac is not None:
+            jac = bounded_jacobian(np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0))
+        return np.where(ok, r, 1e6), res.fermi_level, jac
 
 
 def profile_upper(problem: Problem, best, name: str, weighted: bool) -> float:

@@ -15,8 +15,9 @@ the compensating concentration, N_min = K sum(N_maj) (below the floor of N_min i
 floor: the model cannot tell those apart). Both are profiled in log10.
 
 Every end of every quantity is searched at once (:meth:`Profiler.intervals`): each
-vectorized neutrality solve carries one Levenberg-Marquardt step (forward differences in the
-same batch) of the refit under way at every end, or the candidate starts of a new one; an
+vectorized neutrality solve carries one Levenberg-Marquardt step (the Jacobian from the same
+solve by implicit differentiation, :mod:`freezeout.fitting.profile_rows`) of the refit under
+way at every end, or the candidate starts of a new one; an
 end whose refit has converged moves on to its next trial value
 (:class:`freezeout.fitting.profile_search.EndSearch`), warm-started from its nearest solved
 point moved along the valley, with that point's Fermi levels. Within the refits a free
@@ -31,6 +32,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from freezeout.fitting.profile_rows import complete_rows
 from freezeout.fitting.profile_search import EndSearch
 
 #: 95 % quantile of chi^2 with one degree of freedom (computed here with scipy.stats).
@@ -206,76 +208,31 @@ class Profiler:
         scale = np.where(self.linear, math.log(10.0), 1.0)
         return np.delete(t.slope * scale, t.dep)
 
-    def complete(self, t: _Target, z: np.ndarray, x: np.ndarray
-                 ) -> tuple[np.ndarray, np.ndarray]:
-        """Parameter rows from reduced rows ``z`` (free minus ``t.dep``) and held values ``x``.
-
-        Returns the rows and the violation of the dependent's bounds (0 when feasible). [dex]
-        """
-        theta = np.empty((z.shape[0], z.shape[1] + 1))  # z with a column at t.dep
-        theta[:, :t.dep] = z[:, :t.dep]
-        theta[:, t.dep + 1:] = z[:, t.dep:]
-        theta[:, t.dep] = 0.0
-        lin = self.linear
-        theta[:, lin] = self.theta[lin] + np.log10(np.maximum(theta[:, lin], 1e-300))
-        if t.key in self.free:
-            theta[:, t.dep] = x
-            return theta, np.zeros(len(x))
-        name = self.free[t.dep]
-        others = sum(self._conc(theta, n) for n in self.major if n != name)
-        n_min = (self._conc(theta, self.minor) if self.minor and self.minor != name
-                 else np.zeros(len(x)))
-        if name == self.minor:
-            need = others - 10.0**x if t.key == "net" else 10.0**x * others
-        else:
-            need = 10.0**x + n_min - others if t.key == "net" else n_min / 10.0**x - others
-        lo, hi = self.lower[t.dep], self.upper[t.dep]
-        tiny = 10.0 ** (lo - 3.0)
-        raw = np.log10(np.maximum(need, tiny))
-        # below the floor in dex, and linear in the shortfall beyond 3 dex (a slope for the
-        # descent to climb back even where the need is negative)
-        viol = (np.maximum(lo - raw, 0.0) + np.maximum(raw - hi, 0.0)
-                + np.maximum(tiny - need, 0.0) / tiny)
-        if t.key == "ratio":
-            # a compensation held below the floor of its concentration is the floor: the
-            # model cannot tell them apart, so that is no infeasibility
-            viol = np.maximum(raw - hi, 0.0)
-        theta[:, t.dep] = np.clip(raw, lo, hi)
-        return theta, viol
-
-    # ---- batched refits ----------------------------------------------------------------
-    def _rows(self, job: _Job, z: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Parameter rows of reduced rows z and of their forward differences, and steps."""
-        n_r = z.shape[1]
-        h = 1e-6 * np.maximum(np.abs(z), 1e-2)
-        h = np.where(z + h > job.hi, -h, h)
-        zz = np.repeat(z, n_r + 1, axis=0)
-        for k in range(n_r):
-            zz[k + 1::n_r + 1, k] += h[:, k]
-        theta, viol = self.complete(job.end.target, zz, np.full(len(zz), job.x))
-        return theta, viol, h
-
     def _evaluate(self, work: list[tuple[_Job, np.ndarray]]) -> list[tuple]:
-        """One vectorized solve for the reduced rows of every job, with forward differences.
+        """One vectorized solve for the reduced rows of every job, with their Jacobians.
 
+        The Jacobian d r/d z is the residuals' own (implicit differentiation, from the same
+        solve) through the chain rule of :func:`freezeout.fitting.profile_rows.complete_rows`.
         Returns per job the residuals (rows, points), Jacobians (rows, points, n_r), Fermi
         levels (rows, points) and bound violations (rows) of its rows.
         """
-        n_r = len(self.free) - 1
-        parts = [self._rows(job, z) for job, z in work]
-        init = np.concatenate([np.repeat(job.fermi[None, :], len(th), axis=0)
-                               for (job, _), (th, _, _) in zip(work, parts, strict=True)])
-        r, fermi = self.residuals(np.concatenate([th for th, _, _ in parts]), init)
-        viol = np.concatenate([v for _, v, _ in parts])
+        parts = [complete_rows(self, job.end.target, z, job.x) for job, z in work]
+        init = np.concatenate([np.repeat(job.fermi[None, :], len(z), axis=0)
+                               for job, z in work])
+        theta = np.concatenate([p.theta for p in parts])
+        r, fermi, jac = self.problem.batch_residuals_jacobian(self._values(theta), init,
+                                                              self.free)
+        viol = np.concatenate([p.violation for p in parts])
+        d_theta = np.concatenate([p.d_theta for p in parts])
+        d_viol = np.concatenate([p.d_violation for p in parts])
         # a dependent pushed past its bounds counts like the type penalty of Problem
-        r = r + 1e3 * viol[:, None] * np.sign(r + 1e-300)
+        sign = np.sign(r + 1e-300)
+        r = r + 1e3 * viol[:, None] * sign
+        jz = np.einsum("rnp,rnk->rpk", jac, d_theta) + 1e3 * sign[:, :, None] * d_viol[:, None, :]
         out, at = [], 0
-        for (_, z), (_, _, h) in zip(work, parts, strict=True):
-            m = len(z) * (n_r + 1)
-            rr = r[at:at + m].reshape(len(z), n_r + 1, -1)
-            jac = np.transpose((rr[:, 1:, :] - rr[:, :1, :]) / h[:, :, None], (0, 2, 1))
-            out.append((rr[:, 0, :], jac, fermi[at:at + m:n_r + 1],
-                        viol[at:at + m:n_r + 1]))
+        for _, z in work:
+            m = len(z)
+            out.append((r[at:at + m], jz[at:at + m], fermi[at:at + m], viol[at:at + m]))
             at += m
         return out
 

@@ -11,6 +11,8 @@ from __future__ import annotations
 import numpy as np
 
 _TOL_ROOT = 0.03  # |root - sqrt(q)| accepted at an end, relative to sqrt(q) [1]
+#: Farthest step past the last point below the threshold, once bracketed. [dex]
+MAX_DECADE_STEP = 1.0
 
 
 class EndSearch:
@@ -58,6 +60,13 @@ class EndSearch:
                 elif r_in < r_out < 3.0 * self.tau:  # (far above: bisect)
                     d = d_in + (self.tau - r_in) * w / (r_out - r_in)
                     d = min(max(d, d_in + 0.02 * w), d_out - 0.02 * w)
+            if self.target.key.startswith("log10_") or self.target.key in ("net", "ratio"):
+                # in a bracket decades wide, never more than one decade past the farthest
+                # point below the threshold: a trial far out can land in another valley
+                # below it (a second basin of the profile) and take the barrier between
+                # into the interval, which is then the hull of two, not the connected set
+                # around the best fit (project choice, no source)
+                d = min(d, d_in + MAX_DECADE_STEP)
         elif len(self.inner) == 1:
             se = self.target.se
             if np.isfinite(se) and se > 0:

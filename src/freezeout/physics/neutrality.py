@@ -35,6 +35,7 @@ from scipy.special import expit, log_expit
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
 from freezeout.physics.neutrality_terms import (
+    extrinsic_start,
     fermi_bracket,
     ionized_fractions,
     level_terms,
@@ -357,7 +358,7 @@ def solve_levels(
     name = "charge-neutrality residual"
     if initial_fermi_level is None:
         lo, hi = fermi_bracket(bands, terms, gap_kt)
-        u = np.array(on_shape(0.5 * gap_kt, shape))
+        u = np.array(on_shape(extrinsic_start(bands, terms), shape))
         u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
             residual, lo, hi, u, tolerance, name=name)
     else:

@@ -153,6 +153,25 @@ def fermi_bracket(bands: BandState, terms: LevelTerms,
     return lo, hi
 
 
+def extrinsic_start(bands: BandState, terms: LevelTerms) -> np.ndarray:
+    """A cold start of the solve: (E_F - E_v)/kT where the majority density is |N_D - N_A|.
+
+    Every level ionized, Boltzmann statistics: n = N_D - N_A (n-type) or p = N_A - N_D;
+    mid-gap where the two balance. From mid-gap the residual is flat wherever the levels
+    are all ionized and the bands empty (each side a constant), so the solve would bisect
+    for several iterations before Newton takes hold; from here it starts where the
+    saturation range is right and freeze-out and intrinsic conduction are a few Newton
+    steps away (the bracket still bounds every step). [1]
+    """
+    n_d = terms.fixed_pos + sum(np.exp(t[0]) for t in terms.donors)
+    n_a = terms.fixed_neg + sum(np.exp(t[0]) for t in terms.acceptors)
+    net = n_d - n_a
+    with np.errstate(divide="ignore", invalid="ignore"):
+        n_type = bands.gap_kt + np.log(net) - bands.log_nc
+        p_type = bands.log_nv - np.log(-net)
+    return np.where(net > 0, n_type, np.where(net < 0, p_type, 0.5 * bands.gap_kt))
+
+
 def log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
     """ln sum_i exp(t_i) and sum_i exp(t_i) s_i / sum_i exp(t_i) of (t_i, s_i) pairs.
 
