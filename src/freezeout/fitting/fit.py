@@ -51,8 +51,9 @@ __all__ = ["LOG10_CONCENTRATION_BOUNDS", "MAX_EVALUATIONS", "fit_run", "guess", 
 #: fit before it counts as not converged (project choice, no source).
 MAX_EVALUATIONS = 400
 #: Solves of each local fit of a start-only fit (project choice, no source): the fit that
-#: starts from it refits every level, so a flat valley need not be followed to its end.
-START_EVALUATIONS = 50
+#: starts from it refits every level, so a flat valley need not be followed to its end
+#: (30 steps; lmfit's former 200 evaluations were about 50 steps of 4 solves each).
+START_EVALUATIONS = 30
 
 _NOT_CONVERGED = ("the optimizer did not converge: the chi^2 surface is flat along some "
                   "directions, so those parameters are not determined by these data (see the "
@@ -145,7 +146,10 @@ def _local_fits(problem: Problem, points: list[dict], fermi: np.ndarray,
     converged = []
     failures = []
     spare = spare[:max(n_tries - len(required), 0)]
-    for group in (required, spare):
+    # a start-only fit (a few solves each) steps the spare starts beside the required ones:
+    # one batch of solves instead of two in turn
+    groups = (required + spare, []) if max_nfev <= START_EVALUATIONS else (required, spare)
+    for group in groups:
         if not group or best is not None:
             continue
         params = [fit_parameters(model, points[i], internal_fix, internal_bounds)
