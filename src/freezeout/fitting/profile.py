@@ -236,27 +236,43 @@ class Profiler:
             at += m
         return out
 
-    def _step(self, job: _Job) -> tuple[np.ndarray, float]:
-        """Levenberg-Marquardt trial point of a job and its Gauss-Newton decrement.
+    @staticmethod
+    def _steps(jobs: list[_Job]) -> tuple[np.ndarray, np.ndarray]:
+        """Levenberg-Marquardt trial points of jobs and their Gauss-Newton decrements.
 
-        A parameter on a bound that the descent pushes against is held there. The decrement
-        g^T A^-1 g is the chi^2 still to gain near a minimum.
+        One batch of linear solves for every job (all have the same number of reduced
+        coordinates). A parameter on a bound that the descent pushes against is held there.
+        The decrement g^T A^-1 g is the chi^2 still to gain near a minimum; a job whose
+        system is singular gets its own point back and a decrement of 0.
         """
-        n_r = job.z.size
-        if n_r == 0:
-            return job.z, 0.0
-        a = job.jac.T @ job.jac
-        g = job.jac.T @ job.res
-        held = ((job.z <= job.lo) & (g > 0)) | ((job.z >= job.hi) & (g < 0))
+        z = np.stack([job.z for job in jobs])
+        if z.shape[1] == 0:
+            return z, np.zeros(len(jobs))
+        jac = np.stack([job.jac for job in jobs])  # (jobs, points, n_r)
+        res = np.stack([job.res for job in jobs])
+        lo = np.stack([job.lo for job in jobs])
+        hi = np.stack([job.hi for job in jobs])
+        lam = np.array([job.lam for job in jobs])
+        a = np.einsum("jpk,jpl->jkl", jac, jac)
+        g = np.einsum("jpk,jp->jk", jac, res)
+        held = ((z <= lo) & (g > 0)) | ((z >= hi) & (g < 0))
         g = np.where(held, 0.0, g)
-        a = np.where(held[:, None] | held[None, :], 0.0, a) + np.diag(held.astype(float))
+        eye = np.eye(z.shape[1])
+        a = np.where(held[:, :, None] | held[:, None, :], 0.0, a) + held[:, :, None] * eye
+        diag = np.maximum(np.diagonal(a, axis1=1, axis2=2), 1e-300)
+        damped = a + lam[:, None, None] * eye * diag[:, None, :]
+        trial, gn = z.copy(), np.zeros(len(jobs))
         try:
-            gn = float(g @ np.linalg.solve(a, g))
-            diag = np.diag(np.maximum(np.diag(a), 1e-300))
-            step = -np.linalg.solve(a + job.lam * diag, g)
-        except np.linalg.LinAlgError:
-            return job.z, 0.0
-        return np.clip(job.z + step, job.lo, job.hi), gn
+            gn = np.einsum("jk,jk->j", g, np.linalg.solve(a, g[..., None])[..., 0])
+            trial = np.clip(z - np.linalg.solve(damped, g[..., None])[..., 0], lo, hi)
+        except np.linalg.LinAlgError:  # one singular system: each on its own
+            for i in range(len(jobs)):
+                try:
+                    gn[i] = float(g[i] @ np.linalg.solve(a[i], g[i]))
+                    trial[i] = np.clip(z[i] - np.linalg.solve(damped[i], g[i]), lo[i], hi[i])
+                except np.linalg.LinAlgError:
+                    trial[i], gn[i] = z[i], 0.0
+        return trial, gn
 
     # ---- the search for the ends -------------------------------------------------------
     def intervals(self, keys: list[str], q: float, sides: tuple[float, ...] = (-1.0, 1.0)
@@ -292,9 +308,12 @@ class Profiler:
         jobs = [self._job(e) for e in ends if not e.finished]
         for _ in range(_SOLVES):
             work = []
+            stepping = [job for job in jobs if job.z is not None]
+            trials, gns = self._steps(stepping) if stepping else ((), ())
+            steps = {id(job): (trials[i], gns[i]) for i, job in enumerate(stepping)}
             for job in jobs:
                 if job.z is not None:
-                    trial, gn = self._step(job)
+                    trial, gn = steps[id(job)]
                     if not gn > 1e-3 * self.unit or job.lam > 1e8 or job.steps >= _STEPS:
                         # converged, stuck, or out of steps (resumed if above threshold)
                         job = self._close(job, converged=job.steps < _STEPS)
