@@ -241,3 +241,24 @@ def test_iteration_bound_over_the_documented_range():
         assert iteration_bound(bands, donors, acceptors) <= MAX_ITERATIONS_DOCUMENTED
         res = solve_levels(bands, donors, acceptors)
         assert np.all(_relative_residual(res, donors, acceptors) < 1e-10)
+
+
+@pytest.mark.parametrize("n_d, n_a", [(1e15, 1e13), (1e13, 4e15), (2e14, 2e14)])
+def test_cold_start_is_the_saturation_fermi_level(n_d, n_a):
+    """With every level fully ionized and the bands far from degenerate, the cold start
+    (n = N_D - N_A, or p = N_A - N_D, Boltzmann) is the root itself, to the Boltzmann
+    approximation's error in (E_F - E_v)/kT, about (n/N_c) / 2^(3/2) (the second term of the
+    Fermi-Dirac series; 1e-4 for 4e15 holes in Si at 250 K); mid-gap when N_D = N_A
+    (identities, computed here)."""
+    from freezeout.physics.neutrality_terms import extrinsic_start, level_terms
+
+    t = np.array([250.0, 300.0, 350.0])
+    bands = BandState.from_material(SI, t)
+    donors = [DopantLevel("donor", n_d, None)]
+    acceptors = [DopantLevel("acceptor", n_a, None)]
+    start = extrinsic_start(bands, level_terms(bands, donors, acceptors))
+    res = solve_levels(bands, donors, acceptors)
+    if n_d == n_a:
+        np.testing.assert_allclose(start, 0.5 * bands.band_gap / bands.kt)
+    else:
+        np.testing.assert_allclose(start, res.fermi_level / bands.kt, rtol=0, atol=1e-3)

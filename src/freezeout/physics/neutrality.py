@@ -308,9 +308,12 @@ def solve_levels(
     cap. Over the documented range (2 K to 1500 K, a total level concentration up to
     1e22 cm^-3, density-of-states masses of at least 0.05 m0, gaps up to 3.6 eV) W is below
     7e5 (6.7e5 at 2 K with the lightest masses), so with tol = 1e-11 N_max <= 40 + 56 + 2 =
-    98 (:data:`MAX_ITERATIONS_DOCUMENTED`). In practice a solve from mid-gap or a far start
-    takes 10 to 20 iterations (33 at most over 190,000 random level sets), one from a nearby
-    previous solution 2 or 3.
+    98 (:data:`MAX_ITERATIONS_DOCUMENTED`). A warm start is first evaluated where it
+    stands, and is a root already when it comes from a nearby solution: no bracket is then
+    worked out; when it lies outside the bracket that evaluation is one more than N_max
+    counts. A cold start is where the majority density is |N_D - N_A| (every level ionized,
+    Boltzmann; :func:`freezeout.physics.neutrality_terms.extrinsic_start`). In practice a
+    cold or far start takes 5 to 20 iterations, one from a nearby previous solution 1 to 3.
     """
     if statistics not in STATISTICS:
         raise ValueError(f"unknown statistics {statistics!r}; valid: {', '.join(STATISTICS)}")
