@@ -262,3 +262,23 @@ def test_cold_start_is_the_saturation_fermi_level(n_d, n_a):
         np.testing.assert_allclose(start, 0.5 * bands.band_gap / bands.kt)
     else:
         np.testing.assert_allclose(start, res.fermi_level / bands.kt, rtol=0, atol=1e-3)
+
+
+def test_cold_start_in_freeze_out():
+    """One compensated donor level (Boltzmann): the start solves n (n + N_A) = n_1 (N_D -
+    N_A - n), n_1 = N_c exp(-E_D/kT)/g, the exact neutrality of that case (J. S. Blakemore,
+    Semiconductor Statistics (1962), Ch. 3; from memory), so it is the root to the
+    Boltzmann approximation's error. Two levels with the compensation above the shallow
+    one's concentration: the start pins at the deeper level, within 1.5 kT of the root
+    (project choice, no source: the single-level forms leave out the other level)."""
+    from freezeout.physics.neutrality_terms import extrinsic_start, level_terms
+
+    t = np.array([20.0, 30.0, 45.0, 60.0, 90.0])
+    bands = BandState.from_material(SI, t)
+    cases = [([DopantLevel("donor", 1e16, 0.045)], [DopantLevel("acceptor", 1e14, None)], 1e-3),
+             ([DopantLevel("donor", 1e15, 0.045), DopantLevel("donor", 5e15, 0.15)],
+              [DopantLevel("acceptor", 2e15, None)], 1.5)]
+    for donors, acceptors, tol in cases:
+        start = extrinsic_start(bands, level_terms(bands, donors, acceptors))
+        res = solve_levels(bands, donors, acceptors, "boltzmann")
+        np.testing.assert_allclose(start, res.fermi_level / bands.kt, rtol=0, atol=tol)

@@ -154,22 +154,58 @@ def fermi_bracket(bands: BandState, terms: LevelTerms,
 
 
 def extrinsic_start(bands: BandState, terms: LevelTerms) -> np.ndarray:
-    """A cold start of the solve: (E_F - E_v)/kT where the majority density is |N_D - N_A|.
+    """A cold start of the solve, (E_F - E_v)/kT, from the majority carriers' freeze-out.
 
-    Every level ionized, Boltzmann statistics: n = N_D - N_A (n-type) or p = N_A - N_D;
-    mid-gap where the two balance. From mid-gap the residual is flat wherever the levels
-    are all ionized and the bands empty (each side a constant), so the solve would bisect
-    for several iterations before Newton takes hold; from here it starts where the
-    saturation range is right and freeze-out and intrinsic conduction are a few Newton
-    steps away (the bracket still bounds every step). [1]
+    Boltzmann statistics and no minority carriers. For an n-type set (N_D > N_A) each
+    partially ionized donor level i alone, with the compensation C_i that its shallower
+    levels leave over (every acceptor ionized), gives n (n + C_i) = n_1i (N_i - C_i - n),
+    n_1i = N_c exp(-E_i/kT) / g_i [1]; the start is the largest of these n (or
+    N_D,fixed - N_A, or N_D - N_A when no level exceeds its C_i): the shallowest
+    uncompensated level sets n in freeze-out. A p-type set mirrors it with holes and
+    acceptors; mid-gap where N_D = N_A. From mid-gap the residual is flat wherever the
+    levels are all ionized and the bands empty, so the solve would bisect for several
+    iterations before Newton takes hold; the bracket still bounds every step.
+
+    References
+    ----------
+    .. [1] J. S. Blakemore, *Semiconductor Statistics* (Pergamon, 1962), Ch. 3 (the
+       compensated single-level neutrality equation; from memory).
     """
     n_d = terms.fixed_pos + sum(np.exp(t[0]) for t in terms.donors)
     n_a = terms.fixed_neg + sum(np.exp(t[0]) for t in terms.acceptors)
     net = n_d - n_a
-    with np.errstate(divide="ignore", invalid="ignore"):
-        n_type = bands.gap_kt + np.log(net) - bands.log_nc
-        p_type = bands.log_nv - np.log(-net)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # ln n_1 of a donor: ln N_c - off - E_g/kT; of an acceptor (for holes): ln N_v - off
+        n = _frozen_majority(terms.donors, terms.fixed_pos, n_a, net,
+                             [bands.log_nc - off - bands.gap_kt for _, off in terms.donors])
+        p = _frozen_majority(terms.acceptors, terms.fixed_neg, n_d, -net,
+                             [bands.log_nv - off for _, off in terms.acceptors])
+        n_type = bands.gap_kt + np.log(n) - bands.log_nc
+        p_type = bands.log_nv - np.log(p)
     return np.where(net > 0, n_type, np.where(net < 0, p_type, 0.5 * bands.gap_kt))
+
+
+def _frozen_majority(levels, fixed, compensation, net, log_n1) -> np.ndarray:
+    """Largest single-level freeze-out density of the majority levels (see above). [cm^-3]
+
+    The compensation a level sees is what its shallower levels (larger n_1, element by
+    element) have not taken up: electrons leave the shallowest donors for the acceptors
+    first, so a level deeper than those that hold the whole compensation sees none.
+    """
+    best = np.maximum(fixed - compensation, 0.0)
+    conc = [np.exp(ln_n) for ln_n, _ in levels]
+    for i, ln1 in enumerate(log_n1):
+        n1 = np.exp(ln1)
+        shallower = sum((c * (lj > ln1) for j, (c, lj) in enumerate(zip(conc, log_n1, strict=True))
+                         if j != i), 0.0)
+        seen = np.maximum(compensation - shallower, 0.0)
+        excess = conc[i] - seen
+        b = seen + n1
+        c = n1 * excess
+        # the positive root 2c / (b + sqrt(b^2 + 4c)), without cancellation
+        root = np.where(excess > 0, 2.0 * c / (b + np.sqrt(b * b + 4.0 * c)), 0.0)
+        best = np.maximum(best, root)
+    return np.where(best > 0, best, np.maximum(net, 1e-300))
 
 
 def log_sum(terms: list, const) -> tuple[np.ndarray, np.ndarray]:
