@@ -175,3 +175,23 @@ def test_cli_names_file_line_and_column_and_writes_nothing(tmp_path, monkeypatch
     assert code == 2
     assert "tiny.csv, line 3, column 'T [K]'" in err
     assert not (tmp_path / "reports").exists()
+
+
+@pytest.mark.parametrize(("text", "line"), [
+    ('T [K],n [cm^-3]\n10,1e15\n20,"2e15\n', 3),  # open on the last line
+    ('T [K],n [cm^-3]\n10,"1e15\n20,2e15\n', 2),  # open on an earlier line
+])
+def test_a_quote_left_open_is_refused_with_its_line(tmp_path, text, line):
+    """A quoted cell must close on its own line (project choice, no source), the last line
+    included: Python's csv module, which tokenises the rows, would take a quote left open
+    at the end of the data as closed there."""
+    with pytest.raises(InputError, match="quoted cell runs over the end of its line") as info:
+        read_reduced_csv(_write(tmp_path, text))
+    assert info.value.line == line
+
+
+def test_a_quoted_cell_with_the_separator_is_one_cell(tmp_path):
+    """A quoted cell may hold the separator and doubled quotes (RFC 4180, 2)."""
+    p = _write(tmp_path, 'T [K],n [cm^-3],flags\n10,1e15,"a, b"\n20,"2e15","say ""x"""\n')
+    run = read_reduced_csv(p)
+    assert list(run.density) == [1e15, 2e15]

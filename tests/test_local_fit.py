@@ -133,3 +133,28 @@ def test_reading_and_fitting_a_run_imports_no_heavy_library():
     done = subprocess.run([sys.executable, "-c", code, str(SAMPLE)], capture_output=True,
                           text=True, check=True)
     assert done.stdout.strip() == ""
+
+
+def test_unweighted_covariance_is_scaled_by_the_reduced_chi2():
+    """Without stated errors the covariance is (J J^T)^-1 times chi^2/nu, as MINPACK's
+    through lmfit with scale_covar (computed here with lmfit; errors to 1e-3)."""
+    lmfit = pytest.importorskip("lmfit")
+    run = read_reduced_csv(SAMPLE)
+    model = CarrierModel(get_material("Si"), run.temperature, "n", 1, True)
+    problem = Problem(model, np.log(run.density), np.ones(run.density.size))
+    start = {"log10_N_D1": 15.2, "E_D1": 0.04, "log10_N_A": 13.4}
+    ours = polish(problem, [fit_parameters(model, start, {}, {})], None, 400, True)[0]
+    ref_params = lmfit.Parameters()
+    for name, p in fit_parameters(model, start, {}, {}).items():
+        ref_params.add(name, value=p.value, min=p.min, max=p.max)
+    model.clear_warm_start()
+    ref = lmfit.minimize(problem.residual, ref_params, method="leastsq", scale_covar=True)
+    assert ours.success and ref.success
+    # diagonal to 2e-3, correlations to 1e-3 absolute (an off-diagonal near zero has no
+    # relative precision to speak of)
+    assert np.diag(ours.covar) == pytest.approx(np.diag(ref.covar), rel=2e-3)
+    sd, sd_ref = np.sqrt(np.diag(ours.covar)), np.sqrt(np.diag(ref.covar))
+    assert ours.covar / np.outer(sd, sd) == pytest.approx(ref.covar / np.outer(sd_ref, sd_ref),
+                                                         abs=1e-3)
+    for name in ours.var_names:
+        assert ours.params[name].stderr == pytest.approx(ref.params[name].stderr, rel=1e-3)

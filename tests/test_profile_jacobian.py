@@ -32,25 +32,44 @@ def _problem(run, material):
     return Problem(model, np.log(run.density), run.density_err / run.density)
 
 
-@pytest.fixture(scope="module")
-def profiler():
+def _profiler(held: dict):
     run = replicate_run(3)
     problem = _problem(run, get_material("GaN"))
     start = fit_parameters(problem.model, {"log10_N_D1": 17.0, "E_D1": 0.015,
-                                           "log10_N_A": 16.4}, {}, {})
+                                           "log10_N_A": 16.4}, held, {})
     out = polish(problem, [start], None, 400, False)[0]
     problem.model.warm_start(out.fermi)
     return Profiler(problem, out, out.covar, 1.0)
 
 
-@pytest.mark.parametrize("key", ["log10_N_D1", "E_D1", "net", "ratio"])
-def test_completed_rows_have_the_derivatives_of_their_differences(profiler, key):
+@pytest.fixture(scope="module")
+def profiler():
+    return _profiler({})
+
+
+# (parameters held, quantity profiled, its parameter set by the held value, offset of the
+# held value from the best fit [its unit]); the last: a held net doping beyond the range
+# (N_D1 would pass 1e22 cm^-3), so the violation and its slope are active
+CASES = [({}, "log10_N_D1", "log10_N_D1", 0.05), ({}, "E_D1", "E_D1", 0.002),
+         ({}, "net", "log10_N_D1", 0.05), ({}, "ratio", "log10_N_A", 0.05),
+         ({"log10_N_D1": 17.0}, "net", "log10_N_A", 0.05),
+         ({"log10_N_A": 16.4}, "ratio", "log10_N_D1", 0.05),
+         ({}, "net", "log10_N_D1", 5.5)]
+
+
+@pytest.mark.parametrize(("held", "key", "dep", "dx"), CASES)
+def test_completed_rows_have_the_derivatives_of_their_differences(held, key, dep, dx):
     """d theta/dz and d violation/dz of the chain rule against central differences
-    (step 1e-7 relative; agreement 1e-5 relative, the differences' own error)."""
+    (step 1e-7 relative; agreement 1e-5 relative, the differences' own error), for every
+    way a held value sets its parameter (itself, or a majority or the compensating
+    concentration through a held net doping or ratio) and with a bound violated."""
+    profiler = _profiler(held)
     t = profiler.target(key)
+    assert profiler.free[t.dep] == dep
     z0 = profiler.to_z(profiler.theta, t.dep)
-    x = t.centre + 0.05
+    x = t.centre + dx
     rows = complete_rows(profiler, t, z0[None, :], x)
+    assert (rows.violation[0] > 0) == (dx > 5)
     for j in range(z0.size):
         h = 1e-7 * max(abs(z0[j]), 1e-3)
         up, dn = z0.copy(), z0.copy()

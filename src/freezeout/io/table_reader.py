@@ -325,8 +325,9 @@ def _cells(texts: list[str], sep: str, width: int, file: str, header_line: int,
     except csv.Error as exc:
         raise InputError(f"cannot split the rows into cells: {exc}", file=file,
                          line=header_line) from None
-    if len(rows) != len(texts):
-        odd = next((k for k, t in enumerate(texts) if t.count('"') % 2), 0)
+    if len(rows) != len(texts) or (texts and not _closed(texts[-1], sep)):
+        # (the csv module takes a quote left open on the last line as closed at the end)
+        odd = next((k for k, t in enumerate(texts) if t.count('"') % 2), len(texts) - 1)
         raise InputError("a quoted cell runs over the end of its line; close the quote "
                          "on the same line", file=file, line=int(row_lines[odd]))
     columns = [np.full(len(rows), "", dtype=object) for _ in range(width)]
@@ -337,6 +338,17 @@ def _cells(texts: list[str], sep: str, width: int, file: str, header_line: int,
         for j, c in enumerate(row):
             columns[j][i] = c.strip()
     return tuple(columns)
+
+
+def _closed(line: str, sep: str) -> bool:
+    """Whether every quoted cell of ``line`` closes on it (csv's strict reading)."""
+    if '"' not in line:
+        return True
+    try:
+        list(csv.reader([line], delimiter=sep, quotechar='"', strict=True))
+    except csv.Error:
+        return False
+    return True
 
 
 def extra_cells(table: Table, n: int) -> np.ndarray:

@@ -52,7 +52,7 @@ STATISTICS = ("fermi-dirac", "boltzmann")
 TOLERANCE = 1e-11
 
 #: Iteration cap over the documented range (see :func:`solve_levels`, Notes).
-MAX_ITERATIONS_DOCUMENTED = 98
+MAX_ITERATIONS_DOCUMENTED = 99
 
 #: Ground-state degeneracy defaults (common practice, no source): spin for donors, spin and
 #: the two degenerate valence bands at the zone centre for acceptors.
@@ -246,7 +246,8 @@ def iteration_bound(bands: BandState, donors: Sequence[DopantLevel],
     """Most iterations :func:`solve_levels` can take for these levels on these bands.
 
     N_max = NEWTON_ITERATIONS + ceil(log2(W / tol)) + 2 for the widest initial bracket W
-    in (E_F - E_v)/kT (:func:`freezeout.physics.safeguarded_newton.iteration_cap`).
+    in (E_F - E_v)/kT (:func:`freezeout.physics.safeguarded_newton.iteration_cap`), plus
+    one: a warm start is first evaluated where it stands, which may be outside the bracket.
 
     Parameters
     ----------
@@ -263,7 +264,7 @@ def iteration_bound(bands: BandState, donors: Sequence[DopantLevel],
         The iteration cap of that solve.
     """
     lo, hi = fermi_bracket(bands, level_terms(bands, donors, acceptors))
-    return iteration_cap(hi - lo, tolerance)
+    return iteration_cap(hi - lo, tolerance) + 1
 
 
 def solve_levels(
@@ -304,16 +305,17 @@ def solve_levels(
     stay inside the bracket (from iteration 20 on only those at most half the step before
     last) and bisects otherwise; after 40 iterations it only bisects, and bisection halves
     the bracket at every step. So it ends on every well-posed point within
-    N_max = 40 + ceil(log2(W / tol)) + 2 iterations (:func:`iteration_bound`), the loop's
-    cap. Over the documented range (2 K to 1500 K, a total level concentration up to
-    1e22 cm^-3, density-of-states masses of at least 0.05 m0, gaps up to 3.6 eV) W is below
-    7e5 (6.7e5 at 2 K with the lightest masses), so with tol = 1e-11 N_max <= 40 + 56 + 2 =
-    98 (:data:`MAX_ITERATIONS_DOCUMENTED`). A warm start is first evaluated where it
-    stands, and is a root already when it comes from a nearby solution: no bracket is then
-    worked out; when it lies outside the bracket that evaluation is one more than N_max
-    counts. A cold start is where the majority density is |N_D - N_A| (every level ionized,
-    Boltzmann; :func:`freezeout.physics.neutrality_terms.extrinsic_start`). In practice a
-    cold or far start takes 5 to 20 iterations, one from a nearby previous solution 1 to 3.
+    N_max = 40 + ceil(log2(W / tol)) + 2 iterations, the loop's cap, and one more for a
+    warm start: that is first evaluated where it stands (a root already when it comes from
+    a nearby solution: no bracket is then worked out), which may lie outside the bracket
+    (:func:`iteration_bound`). Over the documented range (2 K to 1500 K, a total level
+    concentration up to 1e22 cm^-3, density-of-states masses of at least 0.05 m0, gaps up
+    to 3.6 eV) W is below 7e5 (6.7e5 at 2 K with the lightest masses), so with tol = 1e-11
+    N_max + 1 <= 40 + 56 + 2 + 1 = 99 (:data:`MAX_ITERATIONS_DOCUMENTED`). A non-finite
+    warm start is clipped into the bracket first. A cold start is the majority density's
+    compensated single-level freeze-out estimate (Boltzmann;
+    :func:`freezeout.physics.neutrality_terms.extrinsic_start`). In practice a cold or far
+    start takes 5 to 20 iterations, one from a nearby previous solution 1 to 3.
     """
     if statistics not in STATISTICS:
         raise ValueError(f"unknown statistics {statistics!r}; valid: {', '.join(STATISTICS)}")

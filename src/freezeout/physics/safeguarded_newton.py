@@ -77,6 +77,11 @@ def _resolution(magnitude: np.ndarray, tolerance: float):
     return np.maximum(tolerance, 8.0 * np.spacing(magnitude))
 
 
+#: |start| beyond which a lazily bracketed start is clipped before it is evaluated: f
+#: there would overflow (project choice, no source; the neutrality brackets span under 7e5).
+FAR_START = 1e6
+
+
 def _converged(h: np.ndarray, newton: np.ndarray, u: np.ndarray, tolerance: float):
     """Where u is a root.
 
@@ -145,6 +150,9 @@ def solve_decreasing(
     """
     extra = 0  # an evaluation made before the bracket was known, and not reused
     pending = None  # that evaluation, when the loop can start from it
+    if bracket is not None and not (np.abs(start) < FAR_START).all():
+        lo, hi = bracket()  # an absurd start (inf, 1e300) is clipped into the bracket first
+        bracket = None
     if bracket is not None:
         u = np.asarray(start, dtype=float)  # (a root found at once is returned as is)
         pending = evaluate(u)
