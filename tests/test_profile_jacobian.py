@@ -133,3 +133,19 @@ def test_profile_end_stays_before_the_barrier():
     # the end: where the rise reaches chi^2(1) at 95 % (3.841), its root within the search's
     # tolerance of 3 % (profile_search._TOL_ROOT) and the refits' own 1 %
     assert math.sqrt(rise(math.log10(upper))) == pytest.approx(math.sqrt(3.841), rel=0.04)
+
+
+@pytest.mark.parametrize(("key", "expected"), [("log10_N_A", 4.0), ("E_D1", 14.0)])
+def test_a_flat_profile_is_followed_in_steps_of_decades(key, expected):
+    """Project choice, no source: where a profile in decades levels off below the
+    threshold, the next trial is at most 3 decades further (a jump to the end of the range
+    could land in another valley beyond a barrier); an energy profile still tries the end
+    of its range."""
+    from types import SimpleNamespace
+
+    from freezeout.fitting.profile_search import EndSearch
+
+    target = SimpleNamespace(key=key, se=math.nan, centre=10.0)
+    end = EndSearch(target, 1.0, 14.0, np.zeros(2), np.zeros(3), 1.96, np.zeros(2))
+    end.record(1.0, 0.05, np.zeros(2), np.zeros(3), False)  # nearly flat: far below 1.96
+    assert end.next_distance() == pytest.approx(expected)

@@ -13,6 +13,8 @@ import numpy as np
 _TOL_ROOT = 0.03  # |root - sqrt(q)| accepted at an end, relative to sqrt(q) [1]
 #: Farthest step past the last point below the threshold, once bracketed. [dex]
 MAX_DECADE_STEP = 1.0
+#: Farthest step past it where the profile is flat, before any bracket. [dex]
+FLAT_DECADE_STEP = 3.0
 
 
 class EndSearch:
@@ -60,7 +62,7 @@ class EndSearch:
                 elif r_in < r_out < 3.0 * self.tau:  # (far above: bisect)
                     d = d_in + (self.tau - r_in) * w / (r_out - r_in)
                     d = min(max(d, d_in + 0.02 * w), d_out - 0.02 * w)
-            if self.target.key.startswith("log10_") or self.target.key in ("net", "ratio"):
+            if self._decades():
                 # in a bracket decades wide, never more than one decade past the farthest
                 # point below the threshold: a trial far out can land in another valley
                 # below it (a second basin of the profile) and take the barrier between
@@ -79,11 +81,19 @@ class EndSearch:
                 d = 0.1
         elif secant is None or secant > 10.0 * d_in:
             # flat: the profile levels off below the threshold, try the end of the range
+            # (in decades at most FLAT_DECADE_STEP further: a jump across a barrier into
+            # another valley below the threshold would take the barrier in)
             d = self.limit
+            if self._decades():
+                d = min(d, d_in + FLAT_DECADE_STEP)
         else:
             d = min(max(secant, 1.3 * d_in), 3.0 * d_in)
         self.trial = min(d, self.limit)
         return self.trial
+
+    def _decades(self) -> bool:
+        """True when the quantity profiled is a log10 (a concentration, net doping, ratio)."""
+        return self.target.key.startswith("log10_") or self.target.key in ("net", "ratio")
 
     def job(self):
         """Held value, candidate starts and Fermi level of the next refit.
