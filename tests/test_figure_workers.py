@@ -155,6 +155,13 @@ def _serial_pngs(jobs) -> dict[str, bytes]:
             figure_workers.render_figures(jobs, workers=1).items()}
 
 
+def _assert_forked_draws_fall_back_here(d: Drawings, jobs):
+    """Rendered with the helper, every figure still comes, drawn here; the helper reaped."""
+    forked = figure_workers.render_figures(jobs, workers=2)
+    _assert_all_drawn_here(d, jobs, forked)
+    _assert_reaped(d.helper_pids())
+
+
 def _assert_all_drawn_here(d: Drawings, jobs, forked):
     """Every figure is delivered, drawn by this process, and is the serial PNG."""
     here = sorted(d.here)
@@ -269,9 +276,7 @@ def test_a_killed_helper_leaves_the_figures_to_this_process(tmp_path, when):
     jobs = [d.job(f"noise{i}", _noise(i)) for i in range(4)]
     if when == "drawing":
         jobs.append(d.job("fatal", in_helper=die))
-    forked = figure_workers.render_figures(jobs, workers=2)
-    _assert_all_drawn_here(d, jobs, forked)
-    _assert_reaped(d.helper_pids())
+    _assert_forked_draws_fall_back_here(d, jobs)
 
 
 @needs_fork
@@ -283,9 +288,7 @@ def test_a_cut_or_garbled_message_leaves_the_figures_to_this_process(tmp_path, m
     monkeypatch.setattr(figure_workers.pickle, "dumps", lambda obj: cut(real(obj)))
     d = Drawings(tmp_path, first=Drawings.wait_for_helper)
     jobs = d.lines()
-    forked = figure_workers.render_figures(jobs, workers=2)
-    _assert_all_drawn_here(d, jobs, forked)
-    _assert_reaped(d.helper_pids())
+    _assert_forked_draws_fall_back_here(d, jobs)
 
 
 @needs_fork
@@ -295,9 +298,7 @@ def test_a_helper_that_exits_with_an_error_is_not_trusted(tmp_path, monkeypatch)
     monkeypatch.setattr(figure_workers.os, "_exit", lambda code: real_exit(3))
     d = Drawings(tmp_path, first=Drawings.wait_for_helper)
     jobs = d.lines()
-    forked = figure_workers.render_figures(jobs, workers=2)
-    _assert_all_drawn_here(d, jobs, forked)
-    _assert_reaped(d.helper_pids())
+    _assert_forked_draws_fall_back_here(d, jobs)
 
 
 @needs_fork

@@ -2,14 +2,15 @@
 
 Every set of the batch steps at once: a step solves the trial points of the whole batch
 (warm from each set's last solve) and takes their Jacobians from that same solve by implicit
-differentiation (:func:`freezeout.fitting.guess.batch_residuals_jacobian`), so an accepted
-step already has the Jacobian of the next. The steps are those of K. Levenberg, Q. Appl.
-Math. 2, 164 (1944) and D. W. Marquardt, J. SIAM 11, 431 (1963) (damping scaled by the
-diagonal of J^T J), projected onto the bounds: a parameter at a bound that the gradient
-pushes outward is held for that step. The global stage's descent (:func:`descend_batch`
-with a loose stop) and the local fits (:func:`polish`, with the tests of MINPACK's lmdif:
-relative reduction of chi^2 or relative step below 1.49e-8, J. J. More et al., "User guide
-for MINPACK-1", ANL-80-74 (1980)) share this loop.
+differentiation (:meth:`freezeout.fitting.problem.Problem.batch_residuals_jacobian`), so an
+accepted step already has the Jacobian of the next. The steps are those of K. Levenberg,
+Q. Appl. Math. 2, 164 (1944) and D. W. Marquardt, J. SIAM 11, 431 (1963) (damping scaled
+by the diagonal of J^T J), projected onto the bounds: a parameter at a bound that the
+gradient pushes outward is held for that step. The global stage's descent
+(:func:`freezeout.fitting.guess.descend`, with a loose stop) and the local fits
+(:func:`polish`, with the tests of MINPACK's lmdif: relative reduction of chi^2 or relative
+step below 1.49e-8, J. J. More et al., "User guide for MINPACK-1", ANL-80-74 (1980)) share
+this loop.
 """
 
 from __future__ import annotations
@@ -19,11 +20,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from freezeout.fitting.jacobian import majority_log_jacobian
 from freezeout.fitting.local_fit import LocalFit, Params, covariance, with_errors
 from freezeout.fitting.model import CarrierModel
-from freezeout.fitting.problem import Problem, bounded_jacobian
-from freezeout.physics.neutrality import solve_levels
+from freezeout.fitting.problem import Problem
 
 #: MINPACK's default tolerances on the relative reduction of chi^2 and the relative step
 #: (sqrt of the double-precision epsilon; ANL-80-74, and scipy.optimize.leastsq's defaults).
@@ -71,39 +70,17 @@ DESCENT_STOP = Stop(gain=1e-4, floor=1e-12, xtol=0.0, lam_cap=1e5)
 POLISH_STOP = Stop(gain=FTOL, floor=0.0, xtol=XTOL, lam_cap=1e10)
 
 
-def batch_residuals_jacobian(problem: Problem, names: list[str], theta: np.ndarray,
-                             fixed: dict, init) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Residuals of many parameter sets (rows of ``theta``) and their Jacobian, one solve.
-
-    ``init`` is the starting Fermi level of each row (None: cold). Returns the residuals and
-    Fermi levels, one row per set, and the Jacobian (rows, parameters, temperatures) by
-    implicit differentiation (:func:`freezeout.fitting.jacobian.majority_log_jacobian`);
-    rows that cannot be solved give infinite residuals and a zero Jacobian.
-    """
-    model = problem.model
-    batch = {k: theta[:, j][:, None] for j, k in enumerate(names)}
-    batch.update(fixed)
-    bands = model.row_bands
-    shape = (theta.shape[0], model.temperature.size)
-    try:
-        with np.errstate(all="ignore"):
-            donors, acceptors = model.levels(batch)
-            res = solve_levels(bands, donors, acceptors, model.statistics, init)
-            r = (model.majority_log(res) - problem.y[None, :]) / problem.sigma[None, :]
-            jac = majority_log_jacobian(model, bands, batch, res, names) / problem.sigma
-    except (RuntimeError, ValueError, FloatingPointError):
-        return (np.full(shape, np.inf), np.full(shape, np.nan),
-                np.zeros((shape[0], len(names), shape[1])))
-    ok = np.isfinite(r)
-    return (np.where(ok, r, np.inf), res.fermi_level,
-            bounded_jacobian(np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0)))
-
-
 def batch_solver(problem: Problem, names: list[str], fixed: dict) -> Callable:
-    """``solve(theta, init)`` of :func:`run_steps` for the free ``names`` of ``problem``."""
+    """``solve(theta, init)`` of :func:`run_steps` for the free ``names`` of ``problem``.
+
+    Residuals and Jacobian of the rows of ``theta`` from one solve
+    (:meth:`freezeout.fitting.problem.Problem.batch_residuals_jacobian`); a row the model
+    cannot be solved for gets an infinite chi^2, so that no step takes it.
+    """
 
     def solve(th: np.ndarray, init):
-        rr, ff, jac = batch_residuals_jacobian(problem, names, th, fixed, init)
+        values = {k: th[:, j][:, None] for j, k in enumerate(names)} | fixed
+        rr, ff, jac = problem.batch_residuals_jacobian(values, init, names, unsolved=np.inf)
         c = np.sum(rr**2, axis=1)
         return rr, ff, np.where(np.isfinite(c), c, np.inf), jac
 
@@ -243,16 +220,13 @@ def polish(problem: Problem, starts: list[Params], fermi: np.ndarray | None, max
             out.append(LocalFit(params, np.full(problem.y.shape, 1e6), int(b.nfev[i]), False,
                                 "the model could not be solved at the start", None))
             continue
+        r = b.r[i].copy()
         covar = covariance(b.jac[i])
-        fit = LocalFit(params, b.r[i].copy(), int(b.nfev[i]), bool(b.converged[i]),
-                       "converged: relative reduction of chi^2 or relative step below "
-                       f"{FTOL:.3g}" if b.converged[i]
-                       else f"not converged after {int(b.nfev[i])} model solves", None,
-                       fermi=b.fermi[i].copy())
-        if covar is not None and scale_covar and fit.nfree > 0:
-            covar = covar * fit.redchi
-        fit.covar = covar
-        fit.params = with_errors(params, covar)
-        fit.var_names = fit.params.free
-        out.append(fit)
+        nfree = r.size - len(names)
+        if covar is not None and scale_covar and nfree > 0:
+            covar = covar * (float(np.sum(r**2)) / nfree)  # times the reduced chi^2
+        message = (f"converged: relative reduction of chi^2 or relative step below {FTOL:.3g}"
+                   if b.converged[i] else f"not converged after {int(b.nfev[i])} model solves")
+        out.append(LocalFit(with_errors(params, covar), r, int(b.nfev[i]),
+                            bool(b.converged[i]), message, covar, fermi=b.fermi[i].copy()))
     return out

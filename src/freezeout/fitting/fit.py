@@ -128,13 +128,15 @@ def _variance_unit(chi2: float, nfree: int, weighted: bool) -> float:
 def _local_fits(problem: Problem, points: list[dict], fermi: np.ndarray,
                 required: list[int], spare: list[int], n_tries: int, internal_fix: dict,
                 internal_bounds: dict, weighted: bool, window: float,
-                max_nfev: int = MAX_EVALUATIONS):
+                max_nfev: int = MAX_EVALUATIONS, together: bool = False):
     """Refine the descended points by local least squares, each batch stepped together.
 
     Every point of ``required`` (the basins within reach of the best) is refined; the points
     of ``spare`` only when none of those has converged, up to ``n_tries`` fits in all. A
     start that cannot come within ``window`` (chi^2 units) of a converged one is stopped
-    early (:func:`freezeout.fitting.batch_lm.polish`).
+    early (:func:`freezeout.fitting.batch_lm.polish`). With ``together`` (a start-only fit,
+    a few solves each) the spare points step beside the required ones, one batch of solves
+    instead of two in turn.
 
     Returns ``(best, stalled, converged, failures)``: the converged local fit of lowest
     chi^2 or None, the best of those that stopped short of convergence or None, every
@@ -146,9 +148,7 @@ def _local_fits(problem: Problem, points: list[dict], fermi: np.ndarray,
     converged = []
     failures = []
     spare = spare[:max(n_tries - len(required), 0)]
-    # a start-only fit (a few solves each) steps the spare starts beside the required ones:
-    # one batch of solves instead of two in turn
-    groups = (required + spare, []) if max_nfev <= START_EVALUATIONS else (required, spare)
+    groups = (required + spare, []) if together else (required, spare)
     for group in groups:
         if not group or best is not None:
             continue
@@ -331,7 +331,7 @@ def fit_run(
     best, stalled, converged, failures = _local_fits(
         problem, points, fermi, required, spare, 4 if n_levels > 1 else 3,
         internal_fix, internal_bounds, weighted, DELTA_CHI2 * unit,
-        START_EVALUATIONS if start_only else MAX_EVALUATIONS)
+        START_EVALUATIONS if start_only else MAX_EVALUATIONS, together=start_only)
     not_converged = False
     if start_only:
         if stalled is not None and (best is None or stalled.chisqr < best.chisqr):

@@ -10,7 +10,7 @@ aic, bic), so that the summary, the profiles and the warnings read one kind of r
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -75,8 +75,6 @@ class LocalFit:
     covar
         Covariance of the free parameters (in ``var_names`` order), scaled by the reduced
         chi^2 when the fit is unweighted; None when the Jacobian is rank-deficient.
-    aborted
-        Always False (kept for readers that test it: nothing interrupts a local fit).
     fermi
         The Fermi levels E_F - E_v of the last solve at the end (a warm start), or None. [eV]
     """
@@ -87,12 +85,12 @@ class LocalFit:
     success: bool
     message: str
     covar: np.ndarray | None
-    aborted: bool = False
     fermi: np.ndarray | None = None
-    var_names: list[str] = field(init=False)
 
-    def __post_init__(self) -> None:
-        self.var_names = self.params.free
+    @property
+    def var_names(self) -> list[str]:
+        """The free parameters, in the order of the covariance."""
+        return self.params.free
 
     @property
     def chisqr(self) -> float:

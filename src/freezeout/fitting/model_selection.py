@@ -235,7 +235,7 @@ def converged(result: FitResult) -> bool:
     raw = result.raw
     if raw is None:
         return True
-    return bool(getattr(raw, "success", True)) and not bool(getattr(raw, "aborted", False))
+    return bool(getattr(raw, "success", True))
 
 
 def refusal(result: FitResult) -> str | None:

@@ -139,32 +139,36 @@ class Problem:
         r, fermi, _ = self._batch(values, init, None)
         return r, fermi
 
-    def batch_residuals_jacobian(self, values: dict, init, names: list[str]
+    def batch_residuals_jacobian(self, values: dict, init, names: list[str], *,
+                                 unsolved: float = 1e6
                                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """:meth:`batch_residuals` with their Jacobian by the internal ``names``.
 
         The Jacobian (rows, names, points) comes from the same solve by implicit
         differentiation (:func:`freezeout.fitting.jacobian.majority_log_jacobian`), with the
         type penalty's own slope where it is active; zero where the residual is not finite.
+        ``unsolved`` is the residual given where the model cannot be solved (inf for a
+        Levenberg-Marquardt step to refuse that point outright).
         """
-        return self._batch(values, init, names)
+        return self._batch(values, init, names, unsolved)
 
-    def _batch(self, values: dict, init, names: list[str] | None):
+    def _batch(self, values: dict, init, names: list[str] | None, unsolved: float = 1e6):
         """Residuals, Fermi levels and (with ``names``) the Jacobian of a batch."""
         model = self.model
         t = model.temperature
-        donors, acceptors = model.levels(values)
         try:
-            res = solve_levels(model.row_bands, donors, acceptors, model.statistics, init)
+            with np.errstate(all="ignore"):
+                donors, acceptors = model.levels(values)
+                res = solve_levels(model.row_bands, donors, acceptors, model.statistics, init)
         except (RuntimeError, ValueError, FloatingPointError):
             rows = max((np.shape(v)[0] for v in values.values() if np.ndim(v)), default=1)
             if rows == 1:
                 jac = None if names is None else np.zeros((1, len(names), t.size))
-                return np.full((1, t.size), 1e6), np.zeros((1, t.size)), jac
+                return np.full((1, t.size), unsolved), np.zeros((1, t.size)), jac
             # one set the solver cannot take must not spoil the others: one at a time
             parts = [self._batch(
                 {k: (v[i:i + 1] if np.ndim(v) else v) for k, v in values.items()},
-                None if init is None else np.asarray(init)[i:i + 1], names)
+                None if init is None else np.asarray(init)[i:i + 1], names, unsolved)
                 for i in range(rows)]
             return (np.concatenate([p[0] for p in parts]),
                     np.concatenate([p[1] for p in parts]),
@@ -193,7 +197,7 @@ class Problem:
         ok = np.isfinite(r)
         if jac is not None:
             jac = bounded_jacobian(np.where(ok[:, None, :] & np.isfinite(jac), jac, 0.0))
-        return np.where(ok, r, 1e6), res.fermi_level, jac
+        return np.where(ok, r, unsolved), res.fermi_level, jac
 
 
 def profile_upper(problem: Problem, best, name: str, weighted: bool) -> float:

@@ -82,20 +82,12 @@ def _resolution(magnitude: np.ndarray, tolerance: float):
 FAR_START = 1e6
 
 
-def _converged(h: np.ndarray, newton: np.ndarray, u: np.ndarray, tolerance: float):
-    """Where u is a root.
-
-    The balance exact to rounding, or the Newton step below the tolerance or below the
-    floating-point resolution of u itself.
-    """
-    return (np.abs(h) <= EXACT_RESIDUAL) | (np.abs(newton) <= _resolution(np.abs(u), tolerance))
-
-
 def converged(h: np.ndarray, slope: np.ndarray, u: np.ndarray, tolerance: float):
-    """True where u is a root by the test of :func:`solve_decreasing` (f = h, f' = slope).
+    """True where u is a root (f = h, f' = slope), the test of :func:`solve_decreasing`.
 
-    |h / slope| <= resolution written as |h| <= -slope * resolution, which no slope >= 0
-    (nor a NaN) meets: no division, as a warm start's check runs on every solve.
+    The balance exact to rounding (|h| <= :data:`EXACT_RESIDUAL`), or the Newton step
+    |h / slope| below the tolerance or below the floating-point resolution of u itself,
+    written |h| <= -slope * resolution, which no slope >= 0 (nor a NaN) meets.
     """
     limit = np.fmax(-slope * _resolution(np.abs(u), tolerance), EXACT_RESIDUAL)
     return np.abs(h) <= limit
@@ -184,7 +176,7 @@ def solve_decreasing(
             if flat.any():
                 # a flat residual gives an infinite step: bisection takes over below
                 newton = np.where(flat, np.inf, newton)
-        done = _converged(h, newton, u, tolerance)
+        done = converged(h, slope, u, tolerance)
         late = iterations - extra >= STEP_TEST_FROM
         if late:
             np.copyto(lo, u, where=h > 0)
