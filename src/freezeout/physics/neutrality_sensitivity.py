@@ -87,7 +87,7 @@ def sensitivities(bands: BandState, donors: Sequence[DopantLevel],
     u = result.fermi_level / kt
     if statistics == "fermi-dirac":
         _, r_p = log_fermi_dirac_half_ratio(-u)
-        _, r_n = log_fermi_dirac_half_ratio(u - bands.band_gap / kt)
+        _, r_n = log_fermi_dirac_half_ratio(u - bands.gap_kt)
     else:
         r_p = r_n = np.ones_like(u)
     p, n = np.exp(result.log_p), np.exp(result.log_n)
