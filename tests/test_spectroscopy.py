@@ -122,6 +122,25 @@ def test_undefined_where_the_fermi_level_turns():
     assert len(spec.peaks) == 1
 
 
+def test_undefined_inside_a_gap_of_the_run():
+    """A run with no points from 120 K to 300 K (1.0 in ln T, wider than MAX_GAP x 0.1):
+    the spectrum is NaN inside the gap, with a note, and the deep level's bell that lies in
+    it (0.12 eV empties near 150-250 K) gives no peak; the shallow one is still read.
+    Project choice, no source (the gap rule)."""
+    sim = simulate("Si", donors=[SHALLOW, DEEP], acceptors=[COMPENSATION],
+                   temperatures=(30.0, 400.0, 120))
+    keep = (sim.temperature < 120.0) | (sim.temperature > 300.0)
+    spec = level_spectrum(sim.temperature[keep], sim.n[keep], "n", sim.material)
+    inside = (spec.temperature > 125.0) & (spec.temperature < 295.0)
+    assert inside.any() and np.isnan(spec.signal[inside]).all()
+    assert any("gap" in note for note in spec.notes)
+    assert len(spec.peaks) == 1
+    _check(spec.peaks[0], SHALLOW)
+    # the complete run has no such note, and both peaks
+    full = level_spectrum(sim.temperature, sim.n, "n", sim.material)
+    assert not any("gap" in note for note in full.notes) and len(full.peaks) == 2
+
+
 def test_too_few_points_gives_a_note():
     spec = level_spectrum([50.0, 60.0, 70.0], [1e14, 2e14, 4e14], "n", simulate(
         "Si", donors=[SHALLOW], temperatures=(50, 70, 3)).material)

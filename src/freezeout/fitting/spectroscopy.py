@@ -45,15 +45,18 @@ N_comp); the carriers released across it are N_i minus what the compensation too
 Derivatives and validity
 ------------------------
 ln n is smoothed by a local quadratic in 1/T over the points within 0.1 of its centre in ln
-T, at least 5 of them (unweighted; project choice), evaluated on a grid even in 1/T. A fixed
+T, at least 5 of them (tricube-weighted; project choice), evaluated on a grid even in 1/T. A fixed
 width in ln T is a fixed width in u_F: u_F moves by D per unit of ln T, and D is 5-10 kT in
 freezeout, so the window spans about +-0.5-1 kT of a bell 3.5 kT wide. E_a and D' come from
 the quadratic's slope and curvature. Where D < 2 kT the Fermi level barely moves (it turns
 round at low T in a compensated sample, where D passes through 0 and S through a pole): the
-spectrum is left undefined there (NaN; project choice, no source). A peak is an interior
+spectrum is left undefined there (NaN; project choice, no source). A gap of the run wider
+than 0.4 in ln T (:data:`MAX_GAP`) splits it into stretches: each local fit takes points of
+its own stretch only, and the spectrum is undefined inside the gap (and on a stretch of
+fewer than 5 temperatures), which a fit across would only bridge. A peak is an interior
 maximum of a defined stretch whose prominence is at least 10 % of the largest defined signal
-(project choice). Intrinsic conduction at the hot end raises n without a level: a rise at
-the end of the spectrum there is not a level.
+(project choice). Intrinsic conduction at the hot end raises n without a level: a rise at the
+end of the spectrum there is not a level.
 
 References
 ----------
@@ -91,6 +94,11 @@ MIN_POINTS = 5
 GRID_POINTS = 300
 #: The spectrum is defined where T du_F/dT >= this many kT (project choice, no source).
 MIN_SWEEP_KT = 2.0
+#: The spectrum is undefined inside a gap of the run wider than this many half-widths in
+#: ln T: a level's bell spans about 0.35-0.7 in ln T (3.5 kT of u_F at 5-10 kT per unit of
+#: ln T), so a gap that wide can hide one, and the local fits only bridge it (project
+#: choice, no source).
+MAX_GAP = 4.0
 #: A peak's prominence, as a fraction of the largest defined signal (project choice).
 MIN_PROMINENCE = 0.1
 
@@ -185,7 +193,7 @@ class LevelSpectrum:
 
 
 def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: float,
-                     min_points: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                     min_points: int) -> tuple[np.ndarray, ...]:
     """Value, slope and half the curvature at each x0 of quadratics in x over its neighbours.
 
     The neighbours of x0 are the points within ``half_width`` of it in ln x, or the nearest
@@ -351,8 +359,24 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
     x = 1.0 / t
     grid_x = np.linspace(x.max(), x.min(), int(grid_points))
     grid_t = 1.0 / grid_x
-    ln_n, slope, half_curv = _local_quadratic(x, np.log(n), grid_x, half_width,
-                                               min_points)
+    # the local fits take their points from one stretch of the run: a gap wider than
+    # MAX_GAP half-widths in ln T ends a stretch, and the spectrum is undefined inside it
+    gap = MAX_GAP * half_width
+    cuts = np.flatnonzero(np.diff(np.log(t)) > gap) + 1
+    notes = [f"spectrum undefined from {t[i - 1]:.4g} K to {t[i]:.4g} K: no points there, "
+             f"a gap wider than {gap:g} in ln T" for i in cuts]
+    ln_n, slope, half_curv = np.full((3, grid_t.size), np.nan)
+    for seg in np.split(np.arange(t.size), cuts):
+        lo_t, hi_t = t[seg[0]], t[seg[-1]]
+        if np.unique(t[seg]).size < min_points:
+            where = (f"at {lo_t:.4g} K" if lo_t == hi_t
+                     else f"from {lo_t:.4g} K to {hi_t:.4g} K")
+            notes.append(f"spectrum undefined {where}: fewer than {min_points} temperatures "
+                         "between gaps")
+            continue
+        on = (grid_t >= lo_t) & (grid_t <= hi_t)
+        ln_n[on], slope[on], half_curv[on] = _local_quadratic(
+            x[seg], np.log(n[seg]), grid_x[on], half_width, min_points)
     kt = thermal_energy(grid_t)
     s_dos = _log_slope(band_dos, grid_t)
     u_f = kt * (np.log(band_dos(grid_t)) - ln_n)          # Eq. (1)
@@ -362,7 +386,6 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
         signal = np.exp(ln_n) * e_a / d                   # Eq. (3)
         d_prime = 1 + (s_dos * kt - 2 * K_B_EV * half_curv * grid_x) / d
     signal = np.where(d >= MIN_SWEEP_KT * kt, signal, np.nan)
-    notes = []
     if not np.isfinite(signal).any():
         notes.append("the Fermi level does not sweep (T dE_F/dT < 2 kT everywhere): "
                      "no spectrum")

@@ -9,6 +9,8 @@ degeneracy g sits about kT ln g beyond the level itself (the grey tick at each p
 
 from __future__ import annotations
 
+import math
+
 import matplotlib
 
 matplotlib.use("Agg")
@@ -18,6 +20,7 @@ import numpy as np  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 
 from freezeout.fitting.result import FitResult  # noqa: E402
+from freezeout.reporting.figure_output import power_of_ten  # noqa: E402
 from freezeout.reporting.figures import INK, LEVEL_COLOURS, MUTED, STYLE  # noqa: E402
 
 CAPTION = ("Level spectrum without a fit (Hoffmann's differential evaluation of n(1/T)): "
@@ -43,7 +46,6 @@ def spectroscopy_figure(result: FitResult) -> Figure | None:
     with plt.rc_context(STYLE):
         fig = Figure(figsize=(8.6, 4.8), layout="constrained")
         ax = fig.subplots()
-        ax.plot(u, s, "-", lw=2.0, color=INK, label="S = kT dn/du_F")
         # where intrinsic generation matters (minority carriers above 1 % of the majority,
         # p = n_i^2 / n with n from u_F), the rise of S is not a level: shaded, and the axis
         # scaled to the extrinsic part (project choice, no source)
@@ -55,15 +57,21 @@ def spectroscopy_figure(result: FitResult) -> Figure | None:
             intrinsic = (result.material.intrinsic_density(spec.temperature) / majority) ** 2 > 0.01
         extrinsic = ok & ~intrinsic
         top = float(np.nanmax(s[extrinsic])) if extrinsic.any() else float(np.nanmax(s))
+        # S in a unit of a power of ten, named on the axis (no offset text over the axis)
+        power = math.floor(math.log10(top)) if np.isfinite(top) and top > 0 else 0
+        unit = 10.0 ** power
+        s, top = s / unit, top / unit
+        ax.plot(u, s, "-", lw=2.0, color=INK, label="S = kT dn/du_F")
         if (intrinsic & ok).any():
             ax.axvspan(float(np.nanmin(u[intrinsic & ok])), float(np.nanmax(u[ok])) * 1.05,
                        color=MUTED, alpha=0.15, lw=0,
                        label="intrinsic generation (minority > 1 % of majority): not a level")
         for i, pk in enumerate(spec.peaks):
-            ax.plot([pk.energy], [pk.height], "v", ms=9, color=LEVEL_COLOURS[i % 6],
+            height = pk.height / unit
+            ax.plot([pk.energy], [height], "v", ms=9, color=LEVEL_COLOURS[i % 6],
                     zorder=5, label=f"peak {i + 1}: {pk.energy:.4f} eV, "
                     f"{pk.concentration:.2e} cm⁻³ (at {pk.temperature:.0f} K)")
-            ax.plot([pk.fermi_level, pk.fermi_level], [0.93 * pk.height, pk.height],
+            ax.plot([pk.fermi_level, pk.fermi_level], [0.93 * height, height],
                     "-", color=MUTED, lw=1.2)
         fitted = [lv for lv in result.levels if lv.energy is not None
                   and np.isfinite(lv.energy.value)]
@@ -84,7 +92,7 @@ def spectroscopy_figure(result: FitResult) -> Figure | None:
         ax.set_ylim(bottom, 1.25 * top)
         ax.axhline(0.0, color=MUTED, lw=0.8)
         ax.set_xlabel(f"Fermi-level depth u_F = {_edge_word(spec.carrier)} (eV)")
-        ax.set_ylabel("S = kT dn/du_F (cm⁻³)")
+        ax.set_ylabel(f"S = kT dn/du_F ({power_of_ten(power)} cm⁻³)")
         ax.set_title(f"Level spectrum (g = {spec.degeneracy:g}); fitted levels dashed")
         ax.legend(loc="upper right", fontsize=8.5, frameon=False)
     return fig
