@@ -331,3 +331,37 @@ def test_log_axis_labels_are_plain_text():
     png_bytes(fig)
     labels = [t.get_text() for t in ax.get_yticklabels() + ax.yaxis.get_minorticklabels()]
     assert "10\u00b9\u2076" in labels and not any("$" in s for s in labels)
+
+
+def _titled(offset: bool, top_ticks: bool = False):
+    """A figure with a centred and a left title; y values that need an offset text or not."""
+    fig = Figure(figsize=(4.0, 3.0), layout="constrained")
+    ax = fig.add_subplot()
+    ax.plot([0.0, 1.0], [1e15 + 1.0, 1e15 + 5.0] if offset else [1.0, 5.0])
+    ax.set_title("a long centred title over the axes")
+    ax.set_title("left", loc="left")
+    if top_ticks:
+        ax.xaxis.tick_top()
+    return fig, ax
+
+
+@pytest.mark.parametrize("offset,top_ticks", [(False, False), (True, False), (False, True)])
+def test_pinned_titles_draw_as_matplotlib_places_them(offset, top_ticks):
+    """Project choice, no source: a title is pinned to the top of axes with nothing above
+    them (no search of matplotlib's for decorations in its way), the image is the same as
+    matplotlib's own placement; with an offset text or top ticks it is left to matplotlib."""
+    import io
+
+    from matplotlib.image import imread
+
+    from freezeout.reporting.figure_output import png_bytes
+
+    pinned, ax = _titled(offset, top_ticks)
+    png = png_bytes(pinned)
+    assert ax._autotitlepos is (offset or top_ticks)
+    auto, _ = _titled(offset, top_ticks)
+    buf = io.BytesIO()
+    auto.savefig(buf, format="png", dpi=130)
+    a, b = imread(io.BytesIO(png)), imread(io.BytesIO(buf.getvalue()))
+    assert a.shape == b.shape
+    assert np.abs(a[..., :3] - b[..., :3]).max() == 0.0
