@@ -45,9 +45,9 @@ N_comp); the carriers released across it are N_i minus what the compensation too
 Derivatives and validity
 ------------------------
 ln n is smoothed by a local quadratic in 1/T over the points within 0.1 of its centre in ln
-T, at least 5 of them (tricube-weighted; project choice), evaluated on a grid even in 1/T. A fixed
-width in ln T is a fixed width in u_F: u_F moves by D per unit of ln T, and D is 5-10 kT in
-freezeout, so the window spans about +-0.5-1 kT of a bell 3.5 kT wide. E_a and D' come from
+T, at least 5 of them (tricube-weighted; project choice), evaluated on a grid even in 1/T. A
+fixed width in ln T is a fixed width in u_F: u_F moves by D per unit of ln T, and D is 5-10
+kT in freezeout, so the window spans about +-0.5-1 kT of a bell 3.5 kT wide. E_a and D' come from
 the quadratic's slope and curvature. Where D < 2 kT the Fermi level barely moves (it turns
 round at low T in a compensated sample, where D passes through 0 and S through a pole): the
 spectrum is left undefined there (NaN; project choice, no source). A gap of the run wider
@@ -193,7 +193,7 @@ class LevelSpectrum:
 
 
 def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: float,
-                     min_points: int) -> tuple[np.ndarray, ...]:
+                     min_points: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Value, slope and half the curvature at each x0 of quadratics in x over its neighbours.
 
     The neighbours of x0 are the points within ``half_width`` of it in ln x, or the nearest

@@ -61,6 +61,7 @@ def plain_log_labels(fig: Figure) -> None:
                     new.__dict__.update(old.__dict__)  # its base, thresholds and axis
                     put(new)
 
+
 def _nothing_above(ax) -> bool:
     """True when no tick, label, child axes or y offset text of ``ax`` sits above the axes."""
     if ax.child_axes or ax.xaxis.get_ticks_position() != "bottom" \
@@ -81,9 +82,10 @@ def pinned_titles(fig: Figure) -> None:
     same, ``tests/test_figures_layout.py``); it only skips the search.
     """
     for ax in fig.axes:
-        if any(t.get_text() for t in (ax.title, ax._left_title, ax._right_title)) \
-                and ax._autotitlepos is not False and _nothing_above(ax):
-            for t in (ax.title, ax._left_title, ax._right_title):
+        titles = (ax.title, ax._left_title, ax._right_title)
+        if any(t.get_text() for t in titles) and ax._autotitlepos is not False \
+                and _nothing_above(ax):
+            for t in titles:
                 t.set_y(1.0)
             ax._autotitlepos = False
 
