@@ -41,7 +41,12 @@ _N_ASYMPTOTIC = 12
 
 
 @cache
-def _tables() -> dict:
+def chebyshev_tables() -> dict:
+    """The stored Chebyshev rows of ln F_1/2 and ln F_-1/2, with the grid's start and width.
+
+    Keys ``"1/2"`` and ``"-1/2"``: arrays (order, interval) of the first 16 coefficients on
+    each unit interval of [-2, 26); ``"lower"`` and ``"width"``: the grid. [1]
+    """
     text = resources.files("freezeout.data").joinpath("fermi_dirac_chebyshev.json").read_text()
     raw = json.loads(text)
     lower, upper, width = raw["lower"], raw["upper"], raw["width"]
@@ -55,7 +60,8 @@ def _tables() -> dict:
 
 
 @cache
-def _asymptotic_coefficients(j: float) -> np.ndarray:
+def asymptotic_coefficients(j: float) -> np.ndarray:
+    """The 12 Sommerfeld coefficients of F_j, those of eta^-2k in the bracket above. [1]"""
     k = np.arange(1, _N_ASYMPTOTIC + 1)
     # Gamma(j+2)/Gamma(j+2-2k) as a running product, sign included
     falling = np.empty(k.size)
@@ -91,7 +97,7 @@ def _log_series(eta: np.ndarray, *orders: float) -> list[np.ndarray]:
 
 
 def _log_chebyshev(name: str, eta: np.ndarray) -> np.ndarray:
-    tables = _tables()
+    tables = chebyshev_tables()
     coefs = tables[name]
     pos = (eta - tables["lower"]) / tables["width"]
     idx = np.minimum(pos.astype(np.intp), coefs.shape[1] - 1)
@@ -106,7 +112,7 @@ def _log_chebyshev(name: str, eta: np.ndarray) -> np.ndarray:
 
 
 def _log_asymptotic(j: float, eta: np.ndarray) -> np.ndarray:
-    a = _asymptotic_coefficients(j)
+    a = asymptotic_coefficients(j)
     inv2 = 1.0 / (eta * eta)
     total = np.zeros_like(eta)
     for coef in a[::-1]:
@@ -161,7 +167,7 @@ def log_fermi_dirac_pair(eta) -> tuple[np.ndarray, np.ndarray]:
 @cache
 def _paired_tables() -> np.ndarray:
     """The Chebyshev rows of F_1/2 then of F_-1/2 side by side: one Clenshaw for both."""
-    tables = _tables()
+    tables = chebyshev_tables()
     return np.ascontiguousarray(np.concatenate([tables["1/2"], tables["-1/2"]], axis=1))
 
 
@@ -243,7 +249,7 @@ def log_fermi_dirac_half_ratio(eta) -> tuple[np.ndarray, np.ndarray]:
             lf[low], ratio[low] = e + np.log(sums[0]), sums[1] / sums[0]
     if mid.any():
         e = flat[mid]
-        tables = _tables()
+        tables = chebyshev_tables()
         coefs = _paired_tables()
         n_int = tables["1/2"].shape[1]
         pos = (e - tables["lower"]) / tables["width"]

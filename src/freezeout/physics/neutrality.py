@@ -34,7 +34,9 @@ from scipy.special import expit, log_expit
 
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.materials import Material
+from freezeout.physics.neutrality_kernel import active_kernel, compiled_solution
 from freezeout.physics.neutrality_terms import (
+    LevelTerms,
     extrinsic_start,
     fermi_bracket,
     ionized_fractions,
@@ -321,59 +323,12 @@ def solve_levels(
         raise ValueError(f"unknown statistics {statistics!r}; valid: {', '.join(STATISTICS)}")
     fd = statistics == "fermi-dirac"
     kt = bands.kt
-    # Per-level terms in reduced units: donors ln N + log_expit(-(ln g + u - a)),
-    # acceptors ln N + log_expit(-(ln g + b - u)), u = (E_F - E_v)/kT.
     terms = level_terms(bands, donors, acceptors)
     shape = terms.shape
-    d_terms, a_terms = terms.donors, terms.acceptors
-    log_nc, log_nv = bands.log_nc, bands.log_nv  # broadcast with u in the residual
-    gap_kt = bands.gap_kt
-    # fully ionized species are constants of the sums; a side without any leaves them out
-    const_pos, const_neg = log_fixed(terms.fixed_pos), log_fixed(terms.fixed_neg)
-
-    # ln(ionized fraction) = log_expit(-x): donors x = off + u, acceptors x = off - u
-    d_offs = [(ln_n, -off) for ln_n, off in d_terms]
-
-    def residual(u):
-        # positive side: holes, ionized donors, fixed donors; negative: electrons, ionized
-        # acceptors, fixed acceptors. Each side is ln(sum of exp(term)) (log_sum); its
-        # slope is the exp(term)-weighted mean of the slopes.
-        lp, dlp = log_band(-u, fd)
-        lp = lp + log_nv
-        pos = [(lp, -dlp)]
-        log_d, log_a = [], []
-        for ln_n, neg_off in d_offs:
-            # ln N_D+ = ln N + log_expit(-x), d/du = -expit(x) = expm1(log_expit(-x))
-            le = log_expit(neg_off - u)
-            log_d.append(le)
-            pos.append((ln_n + le, np.expm1(le)))
-        ln_, dln = log_band(u - gap_kt, fd)
-        ln_ += log_nc
-        neg = [(ln_, dln)]
-        for ln_a, off in a_terms:
-            # ln N_A- = ln N + log_expit(-x), d/du = expit(x) = -expm1(log_expit(-x))
-            le = log_expit(u - off)
-            log_a.append(le)
-            neg.append((ln_a + le, -np.expm1(le)))
-        log_pos, slope_pos = log_sum(pos, const_pos)
-        log_neg, slope_neg = log_sum(neg, const_neg)
-        # (not in place: a side of one term is that term, lp or ln_ itself)
-        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, log_d, log_a
-
-    name = "charge-neutrality residual"
-    if initial_fermi_level is None:
-        lo, hi = fermi_bracket(bands, terms, gap_kt)
-        u = np.array(on_shape(extrinsic_start(bands, terms), shape))
-        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
-            residual, lo, hi, u, tolerance, name=name)
-    else:
-        # a warm start: the bracket is worked out only if the start is not a root already
-        u = np.asarray(initial_fermi_level, dtype=float) / kt
-        if u.shape != shape:
-            u = np.array(np.broadcast_to(u, shape))
-        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
-            residual, None, None, u, tolerance, name=name,
-            bracket=lambda: fermi_bracket(bands, terms, gap_kt))
+    start = (None if initial_fermi_level is None
+             else np.asarray(initial_fermi_level, dtype=float) / kt)
+    solve = compiled_solution if active_kernel() == "compiled" else _numpy_solution
+    u, lp, ln_, log_d, log_a, iterations = solve(bands, terms, fd, start, tolerance)
     # ionized fractions 1 / (1 + e^x) = exp(-ln(1 + e^x)), from the last residual
     donor_ion = ionized_fractions(donors, log_d, shape)
     acc_ion = ionized_fractions(acceptors, log_a, shape)
@@ -429,3 +384,63 @@ def solve_charge_neutrality(
             raise ValueError("a level in 'acceptors' is not an acceptor")
     bands = BandState.from_material(material, temperature)
     return solve_levels(bands, donors, acceptors, statistics, initial_fermi_level)
+
+
+def _numpy_solution(bands: BandState, terms: LevelTerms, fd: bool, start, tolerance: float):
+    """The solve in numpy, vectorized: (u, ln p, ln n, ln ionized fractions, iterations).
+
+    ``start`` is a warm start u = (E_F - E_v)/kT, or None for a cold one.
+    """
+    shape = terms.shape
+    # Per-level terms in reduced units: donors ln N + log_expit(-(ln g + u - a)),
+    # acceptors ln N + log_expit(-(ln g + b - u)), u = (E_F - E_v)/kT.
+    d_terms, a_terms = terms.donors, terms.acceptors
+    log_nc, log_nv = bands.log_nc, bands.log_nv  # broadcast with u in the residual
+    gap_kt = bands.gap_kt
+    # fully ionized species are constants of the sums; a side without any leaves them out
+    const_pos, const_neg = log_fixed(terms.fixed_pos), log_fixed(terms.fixed_neg)
+
+    # ln(ionized fraction) = log_expit(-x): donors x = off + u, acceptors x = off - u
+    d_offs = [(ln_n, -off) for ln_n, off in d_terms]
+
+    def residual(u):
+        # positive side: holes, ionized donors, fixed donors; negative: electrons, ionized
+        # acceptors, fixed acceptors. Each side is ln(sum of exp(term)) (log_sum); its
+        # slope is the exp(term)-weighted mean of the slopes.
+        lp, dlp = log_band(-u, fd)
+        lp = lp + log_nv
+        pos = [(lp, -dlp)]
+        log_d, log_a = [], []
+        for ln_n, neg_off in d_offs:
+            # ln N_D+ = ln N + log_expit(-x), d/du = -expit(x) = expm1(log_expit(-x))
+            le = log_expit(neg_off - u)
+            log_d.append(le)
+            pos.append((ln_n + le, np.expm1(le)))
+        ln_, dln = log_band(u - gap_kt, fd)
+        ln_ += log_nc
+        neg = [(ln_, dln)]
+        for ln_a, off in a_terms:
+            # ln N_A- = ln N + log_expit(-x), d/du = expit(x) = -expm1(log_expit(-x))
+            le = log_expit(u - off)
+            log_a.append(le)
+            neg.append((ln_a + le, -np.expm1(le)))
+        log_pos, slope_pos = log_sum(pos, const_pos)
+        log_neg, slope_neg = log_sum(neg, const_neg)
+        # (not in place: a side of one term is that term, lp or ln_ itself)
+        return log_pos - log_neg, slope_pos - slope_neg, lp, ln_, log_d, log_a
+
+    name = "charge-neutrality residual"
+    if start is None:
+        lo, hi = fermi_bracket(bands, terms, gap_kt)
+        u = np.array(on_shape(extrinsic_start(bands, terms), shape))
+        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
+            residual, lo, hi, u, tolerance, name=name)
+    else:
+        # a warm start: the bracket is worked out only if the start is not a root already
+        u = start
+        if u.shape != shape:
+            u = np.array(np.broadcast_to(u, shape))
+        u, (_, _, lp, ln_, log_d, log_a), iterations = solve_decreasing(
+            residual, None, None, u, tolerance, name=name,
+            bracket=lambda: fermi_bracket(bands, terms, gap_kt))
+    return u, lp, ln_, log_d, log_a, iterations
