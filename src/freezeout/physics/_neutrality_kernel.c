@@ -100,25 +100,6 @@ static void log_band(double eta, int fermi_dirac, double *lf, double *ratio)
     }
 }
 
-/* ln(1 / (1 + e^-x)), as scipy.special.log_expit */
-static double log_expit(double x)
-{
-    return x < 0.0 ? x - log1p(exp(x)) : -log1p(exp(-x));
-}
-
-/* ln(e^a + e^b), as numpy.logaddexp */
-static double logaddexp(double a, double b)
-{
-    if (a == b)
-        return a + M_LN2;
-    double d = a - b;
-    if (d > 0.0)
-        return a + log1p(exp(-d));
-    if (d <= 0.0)
-        return b + log1p(exp(d));
-    return d; /* NaN */
-}
-
 typedef struct {
     Py_ssize_t n, i;
     int nd, na, fd;
@@ -129,42 +110,67 @@ typedef struct {
 #define ROW(s, r) ((s)->rows[(Py_ssize_t)(r) * (s)->n + (s)->i])
 #define OUT(s, r) ((s)->out[(Py_ssize_t)(r) * (s)->n + (s)->i])
 
-/* The residual and its slope at u; writes ln p, ln n and the ionized fractions to out. */
-static void residual(const Solve *s, double u, double *h, double *slope)
+/* One side of the balance: ln(band + sum_k N_k f_k + fixed) and its slope in u.
+ *
+ * f_k = 1 / (1 + e^x_k) is a level's ionized fraction, x_k = offset + sign u. The sum is
+ * taken relative to m, within ln 2 of its largest term (ln N_k f_k lies between
+ * ln N_k - max(x_k, 0) - ln 2 and ln N_k - max(x_k, 0)), so no term overflows and the sum
+ * does not underflow; the numpy path builds the same sum with logaddexp. A level's slope
+ * d(N f)/du is -N f (1 - f) for a donor (x rises with u), +N f (1 - f) for an acceptor. */
+static void side(const Solve *s, double u, double band, double band_slope, double fixed,
+                 int first, int count, double sign, double *total, double *slope)
 {
-    double lp, dlp, ln, dln;
-    log_band(-u, s->fd, &lp, &dlp);
-    lp += ROW(s, 1);
-    log_band(u - ROW(s, 2), s->fd, &ln, &dln);
-    ln += ROW(s, 0);
+    const int offsets = first + count;
+    double m = band > fixed ? band : fixed;
+    for (int k = 0; k < count; k++) {
+        double x = ROW(s, offsets + k) + sign * u;
+        double t = ROW(s, first + k) - (x > 0.0 ? x : 0.0);
+        if (t > m)
+            m = t;
+    }
+    double wb = exp(band - m), sum = wb + exp(fixed - m), moment = band_slope * wb;
+    for (int k = 0; k < count; k++) {
+        double x = ROW(s, offsets + k) + sign * u;
+        double ex = exp(-fabs(x)), inv = 1.0 / (1.0 + ex);
+        double w = exp(ROW(s, first + k) - (x > 0.0 ? x : 0.0) - m) * inv; /* N f / e^m */
+        double neutral = x > 0.0 ? inv : ex * inv;                            /* 1 - f */
+        sum += w;
+        moment -= sign * w * neutral;
+    }
+    *total = m + log(sum);
+    *slope = moment / sum;
+}
+
+/* The residual and its slope at u, and ln p, ln n there. */
+static void residual(const Solve *s, double u, double *h, double *slope, double *lp, double *ln)
+{
+    double dlp, dln, pos, neg, s_pos, s_neg;
+    log_band(-u, s->fd, lp, &dlp);
+    *lp += ROW(s, 1);
+    log_band(u - ROW(s, 2), s->fd, ln, &dln);
+    *ln += ROW(s, 0);
+    side(s, u, *lp, -dlp, ROW(s, 3), 6, s->nd, 1.0, &pos, &s_pos);
+    side(s, u, *ln, dln, ROW(s, 4), 6 + 2 * s->nd, s->na, -1.0, &neg, &s_neg);
+    *h = pos - neg;
+    *slope = s_pos - s_neg;
+}
+
+/* ln(1 / (1 + e^x)) of a level, as scipy.special.log_expit(-x) */
+static double log_ionized(double x)
+{
+    return x > 0.0 ? -x - log1p(exp(-x)) : -log1p(exp(x));
+}
+
+/* Writes the solution at u (ln p, ln n from its last evaluation) to out. */
+static void write_out(const Solve *s, double u, double lp, double ln)
+{
     OUT(s, 0) = u;
     OUT(s, 1) = lp;
     OUT(s, 2) = ln;
-    /* each side ln(sum of exp(term)) built by logaddexp, its slope the weighted mean */
-    double pos = lp, neg = ln;
-    for (int k = 0; k < s->nd; k++) {
-        double le = log_expit(-ROW(s, 6 + s->nd + k) - u);
-        OUT(s, 3 + k) = le;
-        pos = logaddexp(pos, ROW(s, 6 + k) + le);
-    }
-    for (int k = 0; k < s->na; k++) {
-        double le = log_expit(u - ROW(s, 6 + 2 * s->nd + s->na + k));
-        OUT(s, 3 + s->nd + k) = le;
-        neg = logaddexp(neg, ROW(s, 6 + 2 * s->nd + k) + le);
-    }
-    pos = logaddexp(pos, ROW(s, 3));
-    neg = logaddexp(neg, ROW(s, 4));
-    double m_pos = -exp(lp - pos) * dlp, m_neg = exp(ln - neg) * dln;
-    for (int k = 0; k < s->nd; k++) {
-        double le = OUT(s, 3 + k);
-        m_pos += exp(ROW(s, 6 + k) + le - pos) * expm1(le);
-    }
-    for (int k = 0; k < s->na; k++) {
-        double le = OUT(s, 3 + s->nd + k);
-        m_neg += exp(ROW(s, 6 + 2 * s->nd + k) + le - neg) * -expm1(le);
-    }
-    *h = pos - neg;
-    *slope = m_pos - m_neg;
+    for (int k = 0; k < s->nd; k++)
+        OUT(s, 3 + k) = log_ionized(ROW(s, 6 + s->nd + k) + u);
+    for (int k = 0; k < s->na; k++)
+        OUT(s, 3 + s->nd + k) = log_ionized(ROW(s, 6 + 2 * s->nd + s->na + k) - u);
 }
 
 /* (lo, hi) where the residual changes sign, as neutrality_terms.fermi_bracket */
@@ -201,12 +207,14 @@ static double clip(double u, double lo, double hi)
 /* One element, as safeguarded_newton.solve_decreasing; its iterations, or -1 (not finite). */
 static int solve_one(const Solve *s, double tolerance, int warm)
 {
-    double u = ROW(s, 5), h = 0.0, slope = 0.0, lo, hi;
+    double u = ROW(s, 5), h = 0.0, slope = 0.0, lp = 0.0, ln = 0.0, lo, hi;
     int extra = 0, pending = 0;
     if (warm && fabs(u) < FAR_START) {
-        residual(s, u, &h, &slope);
-        if (converged(h, slope, u, tolerance))
+        residual(s, u, &h, &slope, &lp, &ln);
+        if (converged(h, slope, u, tolerance)) {
+            write_out(s, u, lp, ln);
             return 1;
+        }
         bracket(s, &lo, &hi);
         double inside = clip(u, lo, hi);
         if (inside != u) {
@@ -224,7 +232,7 @@ static int solve_one(const Solve *s, double tolerance, int warm)
     for (;;) {
         iterations++;
         if (!pending)
-            residual(s, u, &h, &slope);
+            residual(s, u, &h, &slope, &lp, &ln);
         pending = 0;
         double newton = slope < 0.0 ? -(h / slope) : INFINITY;
         int done = converged(h, slope, u, tolerance);
@@ -236,8 +244,10 @@ static int solve_one(const Solve *s, double tolerance, int warm)
                 hi = u;
             done |= hi - lo <= resolution(fmax(fabs(lo), fabs(hi)), tolerance);
         }
-        if (done)
+        if (done) {
+            write_out(s, u, lp, ln);
             return iterations;
+        }
         if (!isfinite(h))
             return -1;
         if (!late) {
