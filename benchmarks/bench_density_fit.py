@@ -11,9 +11,12 @@
   from a cold start and from a warm start (the previous solution, a parameter moved by 1e-7).
 
 Each figure is the median and the minimum over repeats in this process (the first call, which
-loads tables and warms caches, is not counted).
+loads tables and warms caches, is not counted). The neutrality solve runs on the compiled
+kernel where it was built (the default); ``--kernel numpy`` times the numpy path instead,
+``--kernel both`` one after the other.
 
-Run: python benchmarks/bench_density_fit.py [--repeat N]   (about half a minute)
+Run: python benchmarks/bench_density_fit.py [--repeat N] [--kernel compiled|numpy|both]
+(about half a minute a kernel)
 """
 
 from __future__ import annotations
@@ -30,6 +33,7 @@ from freezeout.fitting.fit import fit_run
 from freezeout.fitting.model import CarrierModel
 from freezeout.io.reduced_csv_reader import read_reduced_csv
 from freezeout.physics.materials import get_material
+from freezeout.physics.neutrality_kernel import active_kernel, use_kernel
 from freezeout.records.run import RunData
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -63,8 +67,18 @@ def timings(fn, repeat: int) -> tuple[float, float]:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeat", type=int, default=20, help="repeats of each fit")
+    parser.add_argument("--kernel", choices=("compiled", "numpy", "both"), default=None,
+                        help="the neutrality solve's path (default: the installed default)")
     args = parser.parse_args()
-    rep = max(args.repeat, 1)
+    kernels = (("compiled", "numpy") if args.kernel == "both"
+               else (args.kernel or active_kernel(),))
+    for kernel in kernels:
+        with use_kernel(kernel):
+            measure(max(args.repeat, 1), kernel)
+
+
+def measure(rep: int, kernel: str) -> None:
+    """Time the fits and evaluations with the named kernel and print the figures."""
 
     si_run = read_reduced_csv(SI_RUN)
     si_material = get_material("Si")
@@ -87,7 +101,7 @@ def main() -> None:
     warm_med, warm_min = timings(lambda: model.log_density(nudged, warm=True), 50 * rep)
 
     lv = si.levels
-    print("freezeout density-only fit benchmark")
+    print(f"freezeout density-only fit benchmark (neutrality kernel: {kernel})")
     print(f"  bundled silicon fit (fit_run, 45 points, 1 donor + N_A):"
           f"   median {si_med * 1e3:7.2f} ms   min {si_min * 1e3:7.2f} ms")
     print(f"  the same through freezeout.api.fit_file:"
