@@ -147,3 +147,36 @@ def test_bundled_fit_alike_on_both_kernels():
                 continue
             assert abs(ea.value - eb.value) < 1e-3 * ea.stderr
             assert np.allclose(ea.ci95, eb.ci95, rtol=0, atol=1e-3 * ea.stderr)
+
+
+def test_threads_solve_alike():
+    """The kernel runs without the GIL: solves from several threads at once give what one
+    thread gives (its tables are set once and only read)."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    bands = BandState.from_material(SIC, np.geomspace(30.0, 800.0, 200))
+    sets = [[DopantLevel("donor", 10.0 ** (15 + 0.1 * k), 0.05 + 0.01 * k)] for k in range(16)]
+    acceptors = [DopantLevel("acceptor", 1e14)]
+    with use_kernel("compiled"):
+        serial = [solve_levels(bands, d, acceptors).log_n for d in sets]
+        with ThreadPoolExecutor(4) as pool:
+            threaded = list(pool.map(lambda d: solve_levels(bands, d, acceptors).log_n, sets))
+    for a, b in zip(serial, threaded, strict=True):
+        np.testing.assert_array_equal(a, b)
+
+
+def test_environment_and_an_install_without_the_extension(monkeypatch):
+    """FREEZEOUT_KERNEL picks the path; without the built extension numpy is the only one."""
+    monkeypatch.setenv("FREEZEOUT_KERNEL", "numpy")
+    assert neutrality_kernel._from_environment() == "numpy"
+    monkeypatch.setenv("FREEZEOUT_KERNEL", "")
+    assert neutrality_kernel._from_environment() == "compiled"
+    monkeypatch.setattr(neutrality_kernel, "_compiled", None)
+    assert neutrality_kernel._from_environment() == "numpy"
+    assert active_kernel() == "numpy"
+    with pytest.raises(ValueError, match="not built"):
+        with use_kernel("compiled"):
+            pass
+    bands = BandState.from_material(SI, np.array([50.0, 300.0]))
+    res = solve_levels(bands, [DopantLevel("donor", 1e15, 0.045)], [])
+    assert np.isfinite(res.log_n).all()

@@ -341,6 +341,12 @@ static PyObject *set_tables(PyObject *self, PyObject *args)
         return NULL;
     PyObject *result = NULL;
     Py_ssize_t count = half.len / (Py_ssize_t)sizeof(double);
+    if (cheb_half != NULL) {
+        /* set once: the tables are constants, and a solve in another thread (which runs
+         * without the GIL) may be reading them */
+        result = Py_NewRef(Py_None);
+        goto done;
+    }
     if (count == 0 || count % N_CHEB || !contiguous_doubles(&half, count, "half")
         || !contiguous_doubles(&minus, count, "minus")
         || !contiguous_doubles(&a_half, N_ASYMPTOTIC, "asymptotic half")
@@ -355,8 +361,6 @@ static PyObject *set_tables(PyObject *self, PyObject *args)
     }
     memcpy(h, half.buf, count * sizeof(double));
     memcpy(m, minus.buf, count * sizeof(double));
-    free(cheb_half);
-    free(cheb_minus);
     cheb_half = h;
     cheb_minus = m;
     n_intervals = count / N_CHEB;
@@ -383,7 +387,8 @@ done:
 
 static PyMethodDef methods[] = {
     {"solve", solve, METH_VARARGS, "Solve charge neutrality element by element (see the module)."},
-    {"set_tables", set_tables, METH_VARARGS, "Hand over the Fermi-Dirac expansion tables."},
+    {"set_tables", set_tables, METH_VARARGS,
+     "Hand over the Fermi-Dirac expansion tables (once; later calls change nothing)."},
     {NULL, NULL, 0, NULL},
 };
 
