@@ -21,7 +21,8 @@ _LN10 = math.log(10.0)
 
 
 def majority_log_jacobian(model: CarrierModel, bands: BandState, values: dict,
-                          result: NeutralityResult, names: list[str]) -> np.ndarray:
+                          result: NeutralityResult, names: list[str],
+                          levels: tuple | None = None) -> np.ndarray:
     """d ln(majority density) / d theta for the internal ``names``, stacked on axis -2.
 
     Parameters
@@ -36,13 +37,15 @@ def majority_log_jacobian(model: CarrierModel, bands: BandState, values: dict,
         The solution.
     names
         Internal names to differentiate by (free parameters, in order).
+    levels
+        ``model.levels(values)`` when the caller has them already (the solve's own).
 
     Returns
     -------
     numpy.ndarray
         Shape ``result.log_n.shape[:-1] + (len(names), n_temperatures)``.
     """
-    donors, acceptors = model.levels(values)
+    donors, acceptors = model.levels(values) if levels is None else levels
     sens_d, sens_a = sensitivities(bands, donors, acceptors, result, model.statistics)
     major, minor = (sens_d, sens_a) if model.carrier == "n" else (sens_a, sens_d)
     n_type = model.carrier == "n"

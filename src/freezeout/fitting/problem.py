@@ -177,7 +177,8 @@ class Problem:
         with np.errstate(invalid="ignore", over="ignore"):
             r = (model.majority_log(res) - self.y[None, :]) / self.sigma[None, :]
             if names is not None:
-                jac = majority_log_jacobian(model, model.row_bands, values, res, names)
+                jac = majority_log_jacobian(model, model.row_bands, values, res, names,
+                                            (donors, acceptors))
                 jac = jac / self.sigma
             if self._minor is not None:
                 conc = {k: 10.0 ** np.asarray(values[k], dtype=float) for k in self._major}
