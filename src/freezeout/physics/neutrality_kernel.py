@@ -62,6 +62,8 @@ def active_kernel() -> str:
 def use_kernel(name: str) -> Iterator[None]:
     """Solve with the named kernel inside the block (``"compiled"`` or ``"numpy"``).
 
+    The choice is process-wide (not per thread), as ``FREEZEOUT_KERNEL`` is.
+
     Raises
     ------
     ValueError
