@@ -149,6 +149,19 @@ def test_bundled_fit_alike_on_both_kernels():
             assert np.allclose(ea.ci95, eb.ci95, rtol=0, atol=1e-3 * ea.stderr)
 
 
+def test_a_fit_names_the_kernel_that_solved_it():
+    """The fit's provenance, and the report's, say which path solved neutrality."""
+    import freezeout.api as api
+    from freezeout.reporting.fit_report import render_html
+
+    for name in ("numpy", "compiled"):
+        with use_kernel(name):
+            result = api.fit_file(ROOT / "sample_data" / "harrowgate_si_n_run.csv",
+                                  material="Si")
+        assert result.provenance["neutrality_kernel"] == name
+        assert f"solved by the {name} kernel" in render_html(result, {})
+
+
 def test_threads_solve_alike():
     """The kernel runs without the GIL: solves from several threads at once give what one
     thread gives (its tables are set once and only read)."""

@@ -154,6 +154,7 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
 
     from freezeout.fitting.fit import fit_run
     from freezeout.fitting.model_selection import AUTO, level_count, select_model
+    from freezeout.physics.neutrality_kernel import active_kernel
 
     statistics = check_statistics(statistics)
     carriers = check_carriers(carriers)
@@ -206,6 +207,7 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         "metadata": dict(run.metadata),
         "tool": "freezeout",
         "tool_version": __version__,
+        "neutrality_kernel": active_kernel(),  # the path that solved neutrality (same results)
         "date": _dt.datetime.now(_dt.UTC).date().isoformat(),
         "options": options,
         "hall_factor": run.hall_factor,

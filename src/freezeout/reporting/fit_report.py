@@ -226,6 +226,8 @@ def render_html(result: FitResult, figures: dict[str, tuple[bytes, str]]) -> str
     meta = "".join(f"<tr><th>{esc(str(k))}</th><td>{esc(str(v))}</td></tr>"
                    for k, v in prov.get("metadata", {}).items())
     opts = esc(json.dumps(prov.get("options", {}), sort_keys=True))
+    kernel = (f" (charge neutrality solved by the {esc(prov['neutrality_kernel'])} kernel)"
+              if prov.get("neutrality_kernel") else "")
     mat = d["material"]
     mat_rows = "".join(
         f"<tr><th>{esc(k)}</th><td class=num>{_fmt(mat.get(k))}</td>"
@@ -265,7 +267,7 @@ BIC = {_fmt(st['bic'])}; residuals in ln(density), {weighting}.{inflated}{_rms_s
 <h2>Provenance</h2>
 <table><tr><th>input file</th><td>{esc(prov['input'])}</td></tr>
 <tr><th>sha256</th><td><code>{esc(prov['sha256'])}</code></td></tr>
-<tr><th>tool</th><td>freezeout {esc(prov['tool_version'])}</td></tr>
+<tr><th>tool</th><td>freezeout {esc(prov['tool_version'])}{kernel}</td></tr>
 <tr><th>date (UTC)</th><td>{esc(prov['date'])}</td></tr>
 <tr><th>options</th><td><code>{opts}</code></td></tr>{meta}</table>
 <h2>Material: {esc(mat['name'])}</h2>
