@@ -193,3 +193,76 @@ def test_environment_and_an_install_without_the_extension(monkeypatch):
     bands = BandState.from_material(SI, np.array([50.0, 300.0]))
     res = solve_levels(bands, [DopantLevel("donor", 1e15, 0.045)], [])
     assert np.isfinite(res.log_n).all()
+
+
+def _bad_solve_inputs():
+    """Calls of the extension's solve that must raise (each named)."""
+    rows = np.zeros((6, 4))
+    rows[:3] = 40.0
+    rows[3:5] = -np.inf
+    unaligned = np.frombuffer(bytearray(rows.nbytes + 1), dtype=np.float64, offset=1,
+                              count=rows.size)
+    return {
+        "negative count": (rows, np.empty((2, 4)), -1, 0, 1e-11),
+        "counts summing to no rows": (rows, np.empty((3, 4)), -1, -2, 1e-11),
+        "counts that overflow": (np.zeros((2, 4)), np.empty((1, 4)), 2**31 - 1, 2**31 - 1,
+                                 1e-11),
+        "int64 rows": (np.zeros((6, 4), dtype=np.int64), np.empty((3, 4)), 0, 0, 1e-11),
+        "big-endian rows": (rows.astype(">f8"), np.empty((3, 4)), 0, 0, 1e-11),
+        "unaligned rows": (unaligned, np.empty((3, 4)), 0, 0, 1e-11),
+        "read-only out": (rows, np.zeros((3, 4)), 0, 0, 1e-11),
+        "short rows": (rows[:5].copy(), np.empty((3, 4)), 0, 0, 1e-11),
+        "zero tolerance": (rows, np.empty((3, 4)), 0, 0, 0.0),
+        "NaN tolerance": (rows, np.empty((3, 4)), 0, 0, float("nan")),
+    }
+
+
+@pytest.mark.parametrize("case", list(_bad_solve_inputs()))
+def test_bad_arguments_raise_instead_of_crashing(case):
+    """Bad buffers and counts handed straight to the extension raise ValueError, BufferError
+    or TypeError; none reads or writes out of bounds (project choice, no source)."""
+    neutrality_kernel._hand_over_tables()
+    rows, out, nd, na, tol = _bad_solve_inputs()[case]
+    if case == "read-only out":
+        out.flags.writeable = False
+    with pytest.raises((ValueError, BufferError, TypeError)):
+        neutrality_kernel._compiled.solve(rows, out, nd, na, True, tol, False)
+
+
+def test_tables_are_checked_before_they_are_set():
+    """In a new process: a solve before the tables raises, tables of a wrong length or grid are
+    refused (and not kept), and the right ones then solve."""
+    import subprocess
+    import sys
+
+    code = """
+import numpy as np
+from scipy import special
+from freezeout.physics import _neutrality_kernel as k, fermi
+t = fermi.chebyshev_tables()
+half, minus = np.ascontiguousarray(t["1/2"].T), np.ascontiguousarray(t["-1/2"].T)
+a = (np.ascontiguousarray(fermi.asymptotic_coefficients(0.5)),
+     np.ascontiguousarray(fermi.asymptotic_coefficients(-0.5)))
+g = (float(special.gammaln(2.5)), float(special.gammaln(1.5)))
+rows = np.array([[40.0], [40.0], [1.0], [-np.inf], [-np.inf], [1.0]])
+out = np.empty((3, 1))
+def refused(f, *args):
+    try:
+        f(*args)
+    except (ValueError, RuntimeError):
+        return True
+    return False
+assert refused(k.solve, rows, out, 0, 0, True, 1e-11, False)
+assert refused(k.set_tables, np.zeros(15), np.zeros(15), -2.0, 1.0, *a, *g)
+assert refused(k.set_tables, np.zeros(0), np.zeros(0), -2.0, 1.0, *a, *g)
+assert refused(k.set_tables, half, minus, 0.0, 1.0, *a, *g)
+assert refused(k.set_tables, half.astype(np.int64), minus, -2.0, 1.0, *a, *g)
+k.set_tables(half, minus, t["lower"], t["width"], *a, *g)
+k.solve(rows, out, 0, 0, True, 1e-11, False)
+assert abs(out[0, 0] - 0.5) < 1e-9  # equal bands, no dopants: mid-gap, E_g/2kT
+print("ok")
+"""
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=60)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "ok"

@@ -21,11 +21,12 @@
  *         u, ln p, ln n, ln(ionized fraction) of each donor, then of each acceptor.
  *   warm: 1 = the start is a previous solution, first evaluated where it stands;
  *         0 = a cold start, clipped into the bracket first.
- * Raises RuntimeError when the residual is not finite at some element.
- */
+ * Raises RuntimeError when the residual is not finite at some element; ValueError on buffers
+ * that are not native aligned float64 of those lengths. */
 #define PY_SSIZE_T_CLEAN
 #include <Python.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -39,6 +40,7 @@
 #define STEP_TEST_FROM 20
 #define EXACT_RESIDUAL 1e-13
 #define FAR_START 1e6
+#define MAX_LEVELS 4096 /* of each kind: far above any model, and no index overflows */
 
 static double *cheb_half = NULL, *cheb_minus = NULL; /* [interval][order] */
 static Py_ssize_t n_intervals = 0;
@@ -89,6 +91,8 @@ static void log_band(double eta, int fermi_dirac, double *lf, double *ratio)
         Py_ssize_t idx = (Py_ssize_t)pos;
         if (idx > n_intervals - 1)
             idx = n_intervals - 1;
+        if (idx < 0)
+            idx = 0;
         double x = 2.0 * (pos - (double)idx) - 1.0;
         double lh = clenshaw(cheb_half + idx * N_CHEB, x);
         *lf = lh;
@@ -278,12 +282,28 @@ static int solve_one(const Solve *s, double tolerance, int warm)
     }
 }
 
-static int contiguous_doubles(Py_buffer *b, Py_ssize_t count, const char *what)
+/* The buffer of obj, when it is native, aligned, C-contiguous float64 (writable if asked). */
+static int get_doubles(PyObject *obj, Py_buffer *b, int writable, const char *what)
 {
-    if (b->itemsize != (Py_ssize_t)sizeof(double) || b->len != count * (Py_ssize_t)sizeof(double)
-        || !PyBuffer_IsContiguous(b, 'C')) {
-        PyErr_Format(PyExc_ValueError, "%s: expected %zd contiguous float64 values", what,
-                     count);
+    if (PyObject_GetBuffer(obj, b, PyBUF_C_CONTIGUOUS | PyBUF_FORMAT
+                           | (writable ? PyBUF_WRITABLE : 0)) < 0)
+        return 0;
+    const char *f = b->format ? b->format : "B";
+    if (*f == '@' || *f == '=' || (*f == '<' && PY_LITTLE_ENDIAN) || (*f == '>' && PY_BIG_ENDIAN))
+        f++;
+    if (strcmp(f, "d") != 0 || b->itemsize != (Py_ssize_t)sizeof(double)
+        || (uintptr_t)b->buf % _Alignof(double) != 0) {
+        PyErr_Format(PyExc_ValueError, "%s: expected native, aligned float64 values", what);
+        PyBuffer_Release(b);
+        return 0;
+    }
+    return 1;
+}
+
+static int has_length(Py_buffer *b, Py_ssize_t count, const char *what)
+{
+    if (b->len != count * (Py_ssize_t)sizeof(double)) {
+        PyErr_Format(PyExc_ValueError, "%s: expected %zd float64 values", what, count);
         return 0;
     }
     return 1;
@@ -292,19 +312,29 @@ static int contiguous_doubles(Py_buffer *b, Py_ssize_t count, const char *what)
 static PyObject *solve(PyObject *self, PyObject *args)
 {
     Py_buffer rows, out;
+    PyObject *rows_obj, *out_obj;
     int nd, na, fd, warm;
     double tolerance;
-    if (!PyArg_ParseTuple(args, "y*w*iipdp", &rows, &out, &nd, &na, &fd, &tolerance, &warm))
+    if (!PyArg_ParseTuple(args, "OOiipdp", &rows_obj, &out_obj, &nd, &na, &fd, &tolerance,
+                          &warm))
         return NULL;
-    PyObject *result = NULL;
-    if (cheb_half == NULL) {
-        PyErr_SetString(PyExc_RuntimeError, "set_tables was not called");
-        goto done;
+    if (nd < 0 || na < 0 || nd > MAX_LEVELS || na > MAX_LEVELS) {
+        PyErr_Format(PyExc_ValueError, "level counts must lie in 0..%d", MAX_LEVELS);
+        return NULL;
     }
-    Py_ssize_t n_out = 3 + nd + na;
+    if (!(tolerance > 0.0 && isfinite(tolerance)))
+        return PyErr_SetString(PyExc_ValueError, "tolerance must be positive and finite"), NULL;
+    if (cheb_half == NULL)
+        return PyErr_SetString(PyExc_RuntimeError, "set_tables was not called"), NULL;
+    if (!get_doubles(rows_obj, &rows, 0, "rows"))
+        return NULL;
+    if (!get_doubles(out_obj, &out, 1, "out"))
+        return PyBuffer_Release(&rows), NULL;
+    PyObject *result = NULL;
+    Py_ssize_t n_out = 3 + (Py_ssize_t)nd + na;
     Py_ssize_t n = out.len / (Py_ssize_t)sizeof(double) / n_out;
-    if (nd < 0 || na < 0 || !contiguous_doubles(&out, n_out * n, "out")
-        || !contiguous_doubles(&rows, (6 + 2 * (Py_ssize_t)(nd + na)) * n, "rows"))
+    if (!has_length(&out, n_out * n, "out")
+        || !has_length(&rows, (6 + 2 * ((Py_ssize_t)nd + na)) * n, "rows"))
         goto done;
     Solve s = {n, 0, nd, na, fd, (const double *)rows.buf, (double *)out.buf};
     int most = 0, failed = 0;
@@ -335,23 +365,38 @@ done:
 static PyObject *set_tables(PyObject *self, PyObject *args)
 {
     Py_buffer half, minus, a_half, a_minus;
+    PyObject *objs[4];
     double lower, width, gl_half, gl_minus;
-    if (!PyArg_ParseTuple(args, "y*y*ddy*y*dd", &half, &minus, &lower, &width, &a_half,
-                          &a_minus, &gl_half, &gl_minus))
+    if (!PyArg_ParseTuple(args, "OOddOOdd", &objs[0], &objs[1], &lower, &width, &objs[2],
+                          &objs[3], &gl_half, &gl_minus))
         return NULL;
+    if (cheb_half != NULL) /* set once: the tables are constants, and a solve in another */
+        return Py_NewRef(Py_None); /* thread (which runs without the GIL) may read them */
+    Py_buffer *bufs[4] = {&half, &minus, &a_half, &a_minus};
+    const char *names[4] = {"half", "minus", "asymptotic half", "asymptotic minus"};
+    for (int k = 0; k < 4; k++) {
+        if (!get_doubles(objs[k], bufs[k], 0, names[k])) {
+            while (k-- > 0)
+                PyBuffer_Release(bufs[k]);
+            return NULL;
+        }
+    }
     PyObject *result = NULL;
     Py_ssize_t count = half.len / (Py_ssize_t)sizeof(double);
-    if (cheb_half != NULL) {
-        /* set once: the tables are constants, and a solve in another thread (which runs
-         * without the GIL) may be reading them */
-        result = Py_NewRef(Py_None);
+    if (count == 0 || count % N_CHEB || !has_length(&minus, count, "minus")
+        || !has_length(&a_half, N_ASYMPTOTIC, "asymptotic half")
+        || !has_length(&a_minus, N_ASYMPTOTIC, "asymptotic minus")) {
+        if (!PyErr_Occurred())
+            PyErr_Format(PyExc_ValueError, "half: expected a positive multiple of %d values",
+                         N_CHEB);
         goto done;
     }
-    if (count == 0 || count % N_CHEB || !contiguous_doubles(&half, count, "half")
-        || !contiguous_doubles(&minus, count, "minus")
-        || !contiguous_doubles(&a_half, N_ASYMPTOTIC, "asymptotic half")
-        || !contiguous_doubles(&a_minus, N_ASYMPTOTIC, "asymptotic minus"))
+    /* the tables must cover the span between the series and the asymptotic expansion */
+    if (!(lower == SERIES_MAX && width > 0.0 && isfinite(width)
+          && lower + (double)(count / N_CHEB) * width >= ASYMPTOTIC_MIN)) {
+        PyErr_SetString(PyExc_ValueError, "the Chebyshev tables do not cover [-2, 26]");
         goto done;
+    }
     double *h = malloc(count * sizeof(double)), *m = malloc(count * sizeof(double));
     if (h == NULL || m == NULL) {
         free(h);
