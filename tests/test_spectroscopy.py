@@ -31,7 +31,7 @@ from freezeout.api import fit_file, simulate, simulation_csv, write_fit_report
 from freezeout.fitting.spectroscopy import level_spectrum
 from freezeout.physics.constants import K_B_EV
 
-#: Si donors as in the task: a shallow (P-like) and a deeper level, light compensation.
+#: Si donors: a shallow (P-like) and a deeper level, light compensation (project choice).
 SHALLOW = (1e16, 0.045, 2.0)
 DEEP = (5e15, 0.12, 2.0)
 COMPENSATION = (2e14, None)
@@ -188,3 +188,40 @@ def test_peak_rule_matches_scipy_find_peaks():
              np.cumsum(rng.normal(size=n)))[trial % 3]
         floor = 0.0 if trial % 5 == 0 else float(rng.uniform(0.0, 2.0))
         assert _prominent_maxima(x, floor) == list(find_peaks(x, prominence=floor)[0])
+
+
+def _lstsq_quadratics(x, y, x0, half_width, min_points):
+    """The local quadratics one centre at a time with numpy.linalg.lstsq (the reference)."""
+    out = np.empty((3, x0.size))
+    for j, c in enumerate(x0):
+        dist = np.abs(np.log(x) - np.log(c))
+        near = np.argsort(dist, kind="stable")
+        near = near[:max(min_points, int(np.sum(dist <= half_width)))]
+        w = np.sqrt((1 - (dist[near] / (1.2 * dist[near].max())) ** 3) ** 3)
+        dx = x[near] - c
+        a = np.column_stack([np.ones_like(dx), dx, dx * dx]) * w[:, None]
+        out[:, j] = np.linalg.lstsq(a, y[near] * w, rcond=None)[0]
+    return out
+
+
+@pytest.mark.parametrize("repeats", [1, 3])
+def test_local_quadratics_are_lstsq_fits(repeats):
+    """All centres fitted at once give numpy.linalg.lstsq's fit at each centre, also where
+    a window holds fewer than three distinct temperatures (each repeated 3 times) and lstsq
+    gives its minimum-norm solution.
+
+    Reference: numpy.linalg.lstsq (a general-purpose library), one centre at a time.
+    """
+    from freezeout.fitting.spectroscopy import _local_quadratic
+
+    rng = np.random.default_rng(11)
+    t = np.repeat(np.sort(rng.uniform(20.0, 380.0, 30)), repeats)
+    x = 1.0 / t
+    y = np.log(1e15) - 0.045 / (K_B_EV * t) + rng.normal(0.0, 0.02, t.size)
+    x0 = np.linspace(x.max(), x.min(), 200)
+    for half_width, min_points in ((0.1, 5), (0.01, 5), (0.3, 8)):
+        got = np.array(_local_quadratic(x, y, x0, half_width, min_points))
+        want = _lstsq_quadratics(x, y, x0, half_width, min_points)
+        # rounding of two SVD routes: the curvature's columns span 1e-4 of the constant's
+        np.testing.assert_allclose(got, want, rtol=1e-8, atol=0)
+

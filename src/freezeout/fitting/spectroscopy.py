@@ -198,20 +198,27 @@ def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: f
 
     The neighbours of x0 are the points within ``half_width`` of it in ln x, or the nearest
     ``min_points`` in ln x where fewer are that close, tricube-weighted in their distance.
+    Every x0 is fitted at once: the other points get weight 0, and each weighted least
+    squares is solved by its singular value decomposition with the cut-off of
+    ``numpy.linalg.lstsq`` (rcond None), so the fits are lstsq's, rank-deficient ones included.
     """
-    out = np.empty((3, x0.size))
-    lx = np.log(x)
-    for j, c in enumerate(x0):
-        dist = np.abs(lx - np.log(c))
-        near = np.argsort(dist, kind="stable")
-        near = near[:max(min_points, int(np.sum(dist <= half_width)))]
-        dx = x[near] - c
-        # tricube weights out to 1.2 times the farthest neighbour: the fit moves smoothly
-        # as points enter and leave the window
-        w = np.sqrt((1 - (dist[near] / (1.2 * dist[near].max() + 1e-300)) ** 3) ** 3)
-        a = np.column_stack([np.ones_like(dx), dx, dx * dx]) * w[:, None]
-        out[:, j] = np.linalg.lstsq(a, y[near] * w, rcond=None)[0]
-    return out[0], out[1], out[2]
+    dist = np.abs(np.log(x)[None, :] - np.log(x0)[:, None])  # (x0, points)
+    count = np.maximum(min_points, np.sum(dist <= half_width, axis=1))
+    rank = np.empty(dist.shape, dtype=np.intp)  # of each point by distance (ties: in order)
+    np.put_along_axis(rank, np.argsort(dist, axis=1, kind="stable"),
+                      np.broadcast_to(np.arange(x.size), dist.shape), axis=1)
+    near = rank < count[:, None]
+    # tricube weights out to 1.2 times the farthest neighbour: the fit moves smoothly
+    # as points enter and leave the window
+    reach = 1.2 * np.max(np.where(near, dist, 0.0), axis=1) + 1e-300
+    w = np.where(near, np.sqrt(np.clip(1 - (dist / reach[:, None]) ** 3, 0.0, None) ** 3),
+                 0.0)
+    dx = x[None, :] - x0[:, None]
+    a = np.stack([np.ones_like(dx), dx, dx * dx], axis=-1) * w[..., None]
+    u, sv, vt = np.linalg.svd(a, full_matrices=False)
+    kept = sv > np.finfo(float).eps * count[:, None] * sv[:, :1]
+    ub = np.einsum("jnk,jn->jk", u, y[None, :] * w) / np.where(kept, sv, 1.0) * kept
+    return tuple(np.einsum("jkl,jk->lj", vt, ub))
 
 
 def _log_slope(func, t: np.ndarray, h: float = 1e-4) -> np.ndarray:
