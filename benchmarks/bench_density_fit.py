@@ -3,7 +3,7 @@
 * bundled silicon fit: ``fit_run`` of ``sample_data/harrowgate_si_n_run.csv`` (one donor
   level plus compensation, Fermi-Dirac statistics, 45 points, weighted): guess, global stage,
   local fits, intervals, warnings; and the whole in-process ``freezeout.api.fit_file`` call
-  (reading the file and what the API adds to the fit);
+  (reading the file and what the API adds to the fit), and the level spectrum it adds;
 * 3-level fit: ``fit_run`` of a synthetic n-type 4H-SiC run from ``freezeout.api.simulate``
   (three donor levels and a compensating acceptor, 50 points from 30 K to 800 K, 2 %
   log-normal noise, seeded; fictional Harrowgate sample), ``donors=3``;
@@ -31,6 +31,7 @@ import numpy as np
 import freezeout.api as api
 from freezeout.fitting.fit import fit_run
 from freezeout.fitting.model import CarrierModel
+from freezeout.fitting.spectroscopy import fit_spectrum
 from freezeout.io.reduced_csv_reader import read_reduced_csv
 from freezeout.physics.materials import get_material
 from freezeout.physics.neutrality_kernel import active_kernel, use_kernel
@@ -85,6 +86,7 @@ def measure(rep: int, kernel: str) -> None:
     si = fit_run(si_run, si_material)
     si_med, si_min = timings(lambda: fit_run(si_run, si_material), rep)
     file_med, file_min = timings(lambda: api.fit_file(SI_RUN), rep)
+    spec_med, spec_min = timings(lambda: fit_spectrum(si), rep)
 
     run3 = three_level_run()
     sic = get_material("4H-SiC")
@@ -106,6 +108,8 @@ def measure(rep: int, kernel: str) -> None:
           f"   median {si_med * 1e3:7.2f} ms   min {si_min * 1e3:7.2f} ms")
     print(f"  the same through freezeout.api.fit_file:"
           f"                   median {file_med * 1e3:7.2f} ms   min {file_min * 1e3:7.2f} ms")
+    print(f"  its level spectrum (fit_spectrum, part of fit_file):"
+          f"       median {spec_med * 1e3:7.2f} ms   min {spec_min * 1e3:7.2f} ms")
     print(f"      E_D = {lv[0].energy.value * 1e3:.3f} meV, N_D = "
           f"{lv[0].concentration.value:.4e}, N_A = {lv[1].concentration.value:.4e} cm^-3, "
           f"chi2 = {si.chi2:.4f}")
