@@ -314,8 +314,8 @@ def solve_levels(
     concentration up to 1e22 cm^-3, density-of-states masses of at least 0.05 m0, gaps up
     to 3.6 eV) W is below 7e5 (6.7e5 at 2 K with the lightest masses), so with tol = 1e-11
     N_max + 1 <= 40 + 56 + 2 + 1 = 99 (:data:`MAX_ITERATIONS_DOCUMENTED`). An infinite
-    warm start is clipped into the bracket first (a NaN one raises). A cold start is the majority density's
-    compensated single-level freeze-out estimate (Boltzmann;
+    warm start is clipped into the bracket first (a NaN one raises). A cold start is the
+    majority density's compensated single-level freeze-out estimate (Boltzmann;
     :func:`freezeout.physics.neutrality_terms.extrinsic_start`). In practice a cold or far
     start takes 5 to 20 iterations, one from a nearby previous solution 1 to 3.
     """
