@@ -202,6 +202,8 @@ def _bad_solve_inputs():
     rows[3:5] = -np.inf
     unaligned = np.frombuffer(bytearray(rows.nbytes + 1), dtype=np.float64, offset=1,
                               count=rows.size)
+    read_only = np.zeros((3, 4))
+    read_only.flags.writeable = False
     return {
         "negative count": (rows, np.empty((2, 4)), -1, 0, 1e-11),
         "counts summing to no rows": (rows, np.empty((3, 4)), -1, -2, 1e-11),
@@ -210,7 +212,7 @@ def _bad_solve_inputs():
         "int64 rows": (np.zeros((6, 4), dtype=np.int64), np.empty((3, 4)), 0, 0, 1e-11),
         "big-endian rows": (rows.astype(">f8"), np.empty((3, 4)), 0, 0, 1e-11),
         "unaligned rows": (unaligned, np.empty((3, 4)), 0, 0, 1e-11),
-        "read-only out": (rows, np.zeros((3, 4)), 0, 0, 1e-11),
+        "read-only out": (rows, read_only, 0, 0, 1e-11),
         "short rows": (rows[:5].copy(), np.empty((3, 4)), 0, 0, 1e-11),
         "zero tolerance": (rows, np.empty((3, 4)), 0, 0, 0.0),
         "NaN tolerance": (rows, np.empty((3, 4)), 0, 0, float("nan")),
@@ -223,8 +225,6 @@ def test_bad_arguments_raise_instead_of_crashing(case):
     or TypeError; none reads or writes out of bounds (project choice, no source)."""
     neutrality_kernel._hand_over_tables()
     rows, out, nd, na, tol = _bad_solve_inputs()[case]
-    if case == "read-only out":
-        out.flags.writeable = False
     with pytest.raises((ValueError, BufferError, TypeError)):
         neutrality_kernel._compiled.solve(rows, out, nd, na, True, tol, False)
 
@@ -237,13 +237,10 @@ def test_tables_are_checked_before_they_are_set():
 
     code = """
 import numpy as np
-from scipy import special
-from freezeout.physics import _neutrality_kernel as k, fermi
-t = fermi.chebyshev_tables()
-half, minus = np.ascontiguousarray(t["1/2"].T), np.ascontiguousarray(t["-1/2"].T)
-a = (np.ascontiguousarray(fermi.asymptotic_coefficients(0.5)),
-     np.ascontiguousarray(fermi.asymptotic_coefficients(-0.5)))
-g = (float(special.gammaln(2.5)), float(special.gammaln(1.5)))
+from freezeout.physics import _neutrality_kernel as k
+from freezeout.physics.neutrality_kernel import table_arguments
+half, minus, lower, width, *a, g1, g2 = table_arguments()
+g = (g1, g2)
 rows = np.array([[40.0], [40.0], [1.0], [-np.inf], [-np.inf], [1.0]])
 out = np.empty((3, 1))
 def refused(f, *args):
@@ -257,7 +254,7 @@ assert refused(k.set_tables, np.zeros(15), np.zeros(15), -2.0, 1.0, *a, *g)
 assert refused(k.set_tables, np.zeros(0), np.zeros(0), -2.0, 1.0, *a, *g)
 assert refused(k.set_tables, half, minus, 0.0, 1.0, *a, *g)
 assert refused(k.set_tables, half.astype(np.int64), minus, -2.0, 1.0, *a, *g)
-k.set_tables(half, minus, t["lower"], t["width"], *a, *g)
+k.set_tables(half, minus, lower, width, *a, *g)
 k.solve(rows, out, 0, 0, True, 1e-11, False)
 assert abs(out[0, 0] - 0.5) < 1e-9  # equal bands, no dopants: mid-gap, E_g/2kT
 print("ok")

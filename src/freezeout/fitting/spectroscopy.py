@@ -204,9 +204,8 @@ def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: f
     """
     dist = np.abs(np.log(x)[None, :] - np.log(x0)[:, None])  # (x0, points)
     count = np.maximum(min_points, np.sum(dist <= half_width, axis=1))
-    rank = np.empty(dist.shape, dtype=np.intp)  # of each point by distance (ties: in order)
-    np.put_along_axis(rank, np.argsort(dist, axis=1, kind="stable"),
-                      np.broadcast_to(np.arange(x.size), dist.shape), axis=1)
+    # each point's rank by distance from each centre (ties: in order), as the nearest first
+    rank = np.argsort(np.argsort(dist, axis=1, kind="stable"), axis=1, kind="stable")
     near = rank < count[:, None]
     # tricube weights out to 1.2 times the farthest neighbour: the fit moves smoothly
     # as points enter and leave the window

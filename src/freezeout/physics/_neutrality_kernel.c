@@ -383,14 +383,14 @@ static PyObject *set_tables(PyObject *self, PyObject *args)
     }
     PyObject *result = NULL;
     Py_ssize_t count = half.len / (Py_ssize_t)sizeof(double);
-    if (count == 0 || count % N_CHEB || !has_length(&minus, count, "minus")
-        || !has_length(&a_half, N_ASYMPTOTIC, "asymptotic half")
-        || !has_length(&a_minus, N_ASYMPTOTIC, "asymptotic minus")) {
-        if (!PyErr_Occurred())
-            PyErr_Format(PyExc_ValueError, "half: expected a positive multiple of %d values",
-                         N_CHEB);
+    if (count == 0 || count % N_CHEB) {
+        PyErr_Format(PyExc_ValueError, "half: expected a positive multiple of %d values", N_CHEB);
         goto done;
     }
+    if (!has_length(&minus, count, "minus")
+        || !has_length(&a_half, N_ASYMPTOTIC, "asymptotic half")
+        || !has_length(&a_minus, N_ASYMPTOTIC, "asymptotic minus"))
+        goto done;
     /* the tables must cover the span between the series and the asymptotic expansion */
     if (!(lower == SERIES_MAX && width > 0.0 && isfinite(width)
           && lower + (double)(count / N_CHEB) * width >= ASYMPTOTIC_MIN)) {

@@ -81,16 +81,24 @@ def use_kernel(name: str) -> Iterator[None]:
         _kernel = before
 
 
+def table_arguments() -> tuple:
+    """The arguments of the kernel's ``set_tables``: the numpy path's Fermi-Dirac tables.
+
+    Chebyshev rows of ln F_1/2 and ln F_-1/2 (interval by interval), the grid's start and
+    width, the asymptotic coefficients of both, and ln Gamma(j + 2) of both.
+    """
+    tables = fermi.chebyshev_tables()
+    return (np.ascontiguousarray(tables["1/2"].T), np.ascontiguousarray(tables["-1/2"].T),
+            tables["lower"], tables["width"],
+            np.ascontiguousarray(fermi.asymptotic_coefficients(0.5)),
+            np.ascontiguousarray(fermi.asymptotic_coefficients(-0.5)),
+            float(special.gammaln(2.5)), float(special.gammaln(1.5)))
+
+
 def _hand_over_tables() -> None:
     """Give the kernel the Fermi-Dirac tables and coefficients the numpy path uses."""
     global _tables_ready
-    tables = fermi.chebyshev_tables()
-    _compiled.set_tables(
-        np.ascontiguousarray(tables["1/2"].T), np.ascontiguousarray(tables["-1/2"].T),
-        tables["lower"], tables["width"],
-        np.ascontiguousarray(fermi.asymptotic_coefficients(0.5)),
-        np.ascontiguousarray(fermi.asymptotic_coefficients(-0.5)),
-        float(special.gammaln(2.5)), float(special.gammaln(1.5)))
+    _compiled.set_tables(*table_arguments())
     _tables_ready = True
 
 
