@@ -162,3 +162,64 @@ def test_distinct_means_another_basin_not_a_flat_valley():
     wide = {"E_D1": 0.02, "log10_N_A": 0.1}
     assert not distinct(signature(model, base, low, wide),
                         signature(model, base | {"E_D1": 0.06}, low, wide))
+
+
+def _followers_one_by_one(model, theta, names, fixed, cost, active, low):
+    """The merge rule of the global stage written start by start (project choice, no
+    source): the reference the vectorized ``freezeout.fitting.guess._followers`` must match."""
+    ms = model.major_symbol
+    rows = []
+    for row in theta:
+        v = dict(zip(names, row, strict=True)) | fixed
+        levels = sorted((v[f"E_{ms}{i}"], v[f"log10_N_{ms}{i}"])
+                        for i in range(1, model.n_levels + 1))
+        vec = [x for e, c in levels for x in (math.log10(max(e, 1e-6)), c)]
+        if model.compensated:
+            vec.append(max(v[model.compensation_name], math.log10(low)))
+        rows.append(vec)
+    rows = np.array(rows)
+    out = np.zeros(len(theta), dtype=bool)
+    leaders = []
+    for i in (int(k) for k in np.argsort(cost) if np.isfinite(cost[k])):
+        if active[i] and any(np.max(np.abs(rows[i] - rows[j])) < 0.01 for j in leaders):
+            out[i] = True
+        else:
+            leaders.append(i)
+    return out
+
+
+@pytest.mark.parametrize("n_levels, fix_first", [(1, False), (3, False), (2, True)])
+def test_merged_starts_are_those_of_the_rule_start_by_start(n_levels, fix_first):
+    from freezeout.fitting.guess import _followers
+    from freezeout.fitting.model import CarrierModel
+
+    model = CarrierModel(get_material("4H-SiC"), np.linspace(40.0, 600.0, 12), "n", n_levels,
+                         True)
+    names = [sp.internal for sp in model.specs]
+    fixed = {}
+    if fix_first:
+        fixed = {names[0]: 16.0}
+        names = names[1:]
+    rng = np.random.default_rng(11)
+    merged = kept = 0
+    for trial in range(40):
+        base = rng.uniform([14.0 if n.startswith("log10") else 0.02 for n in names],
+                           [17.0 if n.startswith("log10") else 0.3 for n in names])
+        # clusters of near-identical starts (some within 0.01 dex of each other), a copy
+        # with two levels swapped, a NaN row, and energies at or below zero
+        theta = base + rng.normal(0.0, 0.004, (9, len(names))) * rng.integers(0, 3, (9, 1))
+        if n_levels > 1 and not fix_first:
+            theta[1, [0, 2]], theta[1, [1, 3]] = theta[0, [2, 0]], theta[0, [3, 1]]
+        theta[2, 0] = math.nan if trial % 5 == 0 else theta[2, 0]
+        e_col = [k for k, n in enumerate(names) if n.startswith("E_")][0]
+        theta[3, e_col] = -0.01 if trial % 3 == 0 else 0.0
+        cost = rng.uniform(0.0, 10.0, 9)
+        cost[rng.integers(0, 9)] = math.inf if trial % 4 == 0 else cost[0]
+        active = rng.random(9) < 0.8
+        low = 10.0 ** rng.uniform(13.0, 16.0)
+        expected = _followers_one_by_one(model, theta, names, fixed, cost, active, low)
+        got = _followers(model, theta, names, fixed, cost, active, low)
+        assert np.array_equal(got, expected), trial
+        merged += int(got.sum())
+        kept += int((~got).sum())
+    assert merged > 20 and kept > 100  # the trials exercise both outcomes

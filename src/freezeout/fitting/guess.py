@@ -165,20 +165,26 @@ def _followers(model: CarrierModel, theta: np.ndarray, names: list[str], fixed: 
     measured [cm^-3]), agree within 0.01: from there they descend as one.
     """
     ms = model.major_symbol
-    rows = []
-    for row in theta:
-        v = dict(zip(names, row, strict=True)) | fixed
-        levels = sorted((v[f"E_{ms}{i}"], v[f"log10_N_{ms}{i}"])
-                        for i in range(1, model.n_levels + 1))
-        vec = [x for e, c in levels for x in (math.log10(max(e, 1e-6)), c)]
-        if model.compensated:
-            vec.append(max(v[model.compensation_name], math.log10(low)))
-        rows.append(vec)
-    rows = np.array(rows)
+    where = {n: k for k, n in enumerate(names)}
+
+    def column(name: str) -> np.ndarray:
+        return theta[:, where[name]] if name in where else np.full(len(theta), fixed[name])
+
+    levels = range(1, model.n_levels + 1)
+    energy = np.stack([column(f"E_{ms}{i}") for i in levels], axis=1)
+    conc = np.stack([column(f"log10_N_{ms}{i}") for i in levels], axis=1)
+    order = np.lexsort((conc, energy), axis=1)  # by energy, then concentration
+    parts = [np.log10(np.maximum(np.take_along_axis(energy, order, axis=1), 1e-6)),
+             np.take_along_axis(conc, order, axis=1)]
+    if model.compensated:
+        parts.append(np.maximum(column(model.compensation_name), math.log10(low))[:, None])
+    rows = np.concatenate(parts, axis=1)
+    with np.errstate(invalid="ignore"):
+        near = np.max(np.abs(rows[:, None, :] - rows[None, :, :]), axis=2) < 0.01
     out = np.zeros(len(theta), dtype=bool)
     leaders: list[int] = []
     for i in (int(k) for k in np.argsort(cost) if np.isfinite(cost[k])):
-        if active[i] and any(np.max(np.abs(rows[i] - rows[j])) < 0.01 for j in leaders):
+        if active[i] and leaders and near[i, leaders].any():
             out[i] = True
         else:
             leaders.append(i)
