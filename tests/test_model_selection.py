@@ -77,10 +77,13 @@ def test_one_compensated_donor_level_is_chosen(one_comp):
     # 2 and 3 levels fail to lower the BIC by more than 2: the search stops before 4
     assert max(c.majority_levels for c in sel.candidates) == 3
     assert len(sel.candidates) == 6 and "stopped after 3 levels" in sel.stopped
-    # the extra levels are refused: their concentrations reach the floor
+    # the extra levels are refused: their concentrations reach the floor, and the species
+    # named is the candidate's emptiest (the real donor's interval may reach it too)
     for c in sel.candidates:
         if c.majority_levels > 1:
             assert not c.kept and "floor" in c.reason
+            emptiest = min(c.result.levels, key=lambda lv: lv.concentration.value)
+            assert c.reason.startswith(f"the 95 % interval of N_{emptiest.name} ")
 
 
 def test_one_uncompensated_donor_level_is_chosen(runs):
@@ -326,3 +329,17 @@ def test_cli_refuses_a_bad_word(runs, tmp_path, monkeypatch, capsys):
     assert code == 2
     assert "--donors: expected a number of levels or 'auto', got 'many'" in err
     assert not (tmp_path / "x").exists()
+
+
+def test_the_floor_reason_names_the_emptiest_of_the_species_at_the_floor():
+    """A real level whose interval reaches the floor only because an empty one can take its
+    place is not the species named (project choice, no source)."""
+    floor = 10.0 ** ms.LOG10_CONCENTRATION_BOUNDS[0]
+    real = _level("D1", 1.0e16, floor, energy=Estimate(0.045, 0.001, (0.043, 0.047)))
+    empty = _level("D2", 1.2 * floor, floor, energy=Estimate(1.05, math.nan, (0.5, 1.1)))
+    reason = ms.concentration_at_floor([real, empty])
+    assert reason.startswith("the 95 % interval of N_D2 (fitted 1.2e+08 cm^-3)")
+    assert "of N_D1 reaches the floor too" in reason
+    # one species at the floor: named alone
+    only = ms.concentration_at_floor([_level("D1", 1e16, 9e15), empty])
+    assert "N_D2" in only and "N_D1" not in only

@@ -189,19 +189,33 @@ def _reaches_floor(lower) -> bool:
 def concentration_at_floor(levels: Sequence[LevelEstimate], fixed=()) -> str | None:
     """The refusal reason when a fitted concentration's 95 % interval reaches the floor.
 
-    Held concentrations (names in ``fixed``) have no interval and are not checked.
+    Held concentrations (names in ``fixed``) have no interval and are not checked. Where
+    several reach the floor (a level the data do not need lets a real one trade places with
+    it along the interval), the reason names the one of lowest fitted value, the species the
+    data do not show, and says which others reach the floor with it.
     """
-    for lv in levels:
-        name = f"N_{lv.name}"
-        if name in fixed:
-            continue
-        lo = lv.concentration.ci95[0]
-        if _reaches_floor(lo):
-            where = ("is not determined" if lo is None or not np.isfinite(lo)
-                     else f"reaches {lo:.3g} cm^-3, the floor of the fit's range")
-            return (f"the 95 % interval of {name} {where}: the data do not show that "
-                    "species")
-    return None
+    hits = [lv for lv in levels if f"N_{lv.name}" not in fixed
+            and _reaches_floor(lv.concentration.ci95[0])]
+    if not hits:
+        return None
+
+    def fitted(lv) -> float:
+        v = lv.concentration.value
+        return float(v) if v is not None and np.isfinite(v) else math.inf
+
+    emptiest = min(hits, key=fitted)
+    lo, value = emptiest.concentration.ci95[0], fitted(emptiest)
+    where = ("is not determined" if lo is None or not np.isfinite(lo)
+             else f"reaches {lo:.3g} cm^-3, the floor of the fit's range")
+    at = f" (fitted {value:.3g} cm^-3)" if np.isfinite(value) else ""
+    reason = (f"the 95 % interval of N_{emptiest.name}{at} {where}: the data do not show "
+              "that species")
+    others = [f"N_{lv.name}" for lv in hits if lv is not emptiest]
+    if others:
+        reason += (f"; the interval{'s' if len(others) > 1 else ''} of "
+                   f"{', '.join(others)} reach{'' if len(others) > 1 else 'es'} the floor "
+                   "too, with that species in the model")
+    return reason
 
 
 def _bounds(est) -> tuple[float, float]:
