@@ -21,7 +21,7 @@ a parabolic band), (2) becomes, exactly (derived here)::
     D = T du_F/dT = u_F + s kT - E_a,        S = n E_a / D                        (3)
 
 For levels i of concentration N_i, depth E_i below E_c and degeneracy g, occupancy
-f_i = 1 / (1 + exp((E_i - u_F) / kT) / g), neutrality n = sum N_i (1 - f_i) - N_comp gives
+f_i = 1 / (1 + exp((u_F - E_i) / kT) / g), neutrality n = sum N_i (1 - f_i) - N_comp gives
 along the measured path (derived here; the isothermal part is [1]_'s relation)::
 
     S = sum_i N_i f_i (1 - f_i) (1 - (u_F - E_i) / D)                              (4)
@@ -53,10 +53,14 @@ round at low T in a compensated sample, where D passes through 0 and S through a
 spectrum is left undefined there (NaN; project choice, no source). A gap of the run wider
 than 0.4 in ln T (:data:`MAX_GAP`) splits it into stretches: each local fit takes points of
 its own stretch only, and the spectrum is undefined inside the gap (and on a stretch of
-fewer than 5 temperatures), which a fit across would only bridge. A peak is an interior
-maximum of a defined stretch whose prominence is at least 10 % of the largest defined signal
-(project choice). Intrinsic conduction at the hot end raises n without a level: a rise at the
-end of the spectrum there is not a level.
+fewer than 5 temperatures), which a fit across would only bridge. The peaks and the
+rule that picks them are :mod:`freezeout.fitting.spectrum_peaks`: a maximum must rise
+above its surroundings by several standard errors of S, which come from the run's own
+scatter (:func:`scatter`) through the local fits' slopes, and by 2 % of the largest signal;
+weaker maxima, a peak read from a widened window, and a cold end where the sweep rule cuts
+a high signal (a level may be cut off there) are reported in the notes. Intrinsic
+conduction at the hot end raises n without a level: a rise at the end of the spectrum
+there is not a level.
 
 References
 ----------
@@ -69,10 +73,20 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
+from freezeout.fitting.spectrum_peaks import (
+    MIN_PROMINENCE,
+    PEAK_Z,
+    SpectrumPeak,
+    defined_stretches,
+    peak_indices,
+    read_peak,
+)
 from freezeout.numbers import finite_or_none
 from freezeout.physics.bands import thermal_energy
 from freezeout.physics.constants import K_B_EV
@@ -99,47 +113,18 @@ MIN_SWEEP_KT = 2.0
 #: ln T), so a gap that wide can hide one, and the local fits only bridge it (project
 #: choice, no source).
 MAX_GAP = 4.0
-#: A peak's prominence, as a fraction of the largest defined signal (project choice).
-MIN_PROMINENCE = 0.1
-
-
-@dataclass(frozen=True)
-class SpectrumPeak:
-    """One peak of the spectrum, read as a level.
-
-    Attributes
-    ----------
-    energy
-        Ionization energy from the majority band edge, path-corrected, Eq. (5). [eV]
-    concentration
-        Level concentration, path-corrected, Eq. (6). [cm^-3]
-    temperature
-        Temperature at the peak. [K]
-    fermi_level
-        u_F at the peak: E_c - E_F (n-type) or E_F - E_v (p-type). [eV]
-    height
-        S at the peak. [cm^-3]
-    raw_energy, raw_concentration
-        The plain reading u_F,peak - kT ln g and 4 S_peak. [eV], [cm^-3]
-    """
-
-    energy: float
-    concentration: float
-    temperature: float
-    fermi_level: float
-    height: float
-    raw_energy: float
-    raw_concentration: float
-
-    def to_dict(self) -> dict:
-        """JSON form, canonical units in the keys."""
-        return {"energy_eV": finite_or_none(self.energy),
-                "concentration_cm3": finite_or_none(self.concentration),
-                "temperature_K": finite_or_none(self.temperature),
-                "fermi_level_eV": finite_or_none(self.fermi_level),
-                "height_cm3": finite_or_none(self.height),
-                "raw_energy_eV": finite_or_none(self.raw_energy),
-                "raw_concentration_cm3": finite_or_none(self.raw_concentration)}
+#: Where the spectrum starts at a cut of the sweep rule with a signal at least this fraction
+#: of its largest and no peak read within a bell's width (3.5 kT) of that edge, a note says
+#: a level may be cut off there (project choice, no source).
+EDGE_FRACTION = 0.5
+#: Median of chi^2 with one degree of freedom (computed here with scipy.stats.chi2.median).
+CHI2_1_MEDIAN = 0.454936423119572
+#: A read peak whose local fits reach beyond this many half-widths (too few points near it)
+#: gets a note: at the default 0.1 that is a window 0.6 wide in ln T, as wide as a level's
+#: bell (0.35-0.7, see MAX_GAP), which it then flattens (project choice, no source).
+WIDE_WINDOW = 3.0
+#: Weak maxima named in the notes, most prominent first, at most (project choice).
+WEAK_NOTES = 2
 
 
 @dataclass(frozen=True)
@@ -161,6 +146,12 @@ class LevelSpectrum:
         u_F on the grid: depth of the Fermi level below E_c (n) or above E_v (p). [eV]
     signal
         S = kT dn/du_F on the grid, NaN where undefined (D < 2 kT). [cm^-3]
+    signal_se
+        Standard error of S from the run's scatter (E_a's share; NaN where undefined).
+        [cm^-3]
+    scatter
+        Standard deviation of the scatter of ln n about a smooth curve (:func:`scatter`).
+        [1]
     peaks
         The peaks, shallowest first.
     notes
@@ -178,6 +169,8 @@ class LevelSpectrum:
     notes: tuple[str, ...] = ()
     method: str = METHOD
     reference: str = REFERENCE
+    signal_se: np.ndarray | None = None
+    scatter: float = math.nan
 
     def to_dict(self) -> dict:
         """The ``spectroscopy`` member of the fit JSON."""
@@ -188,13 +181,30 @@ class LevelSpectrum:
                 "temperature_K": [finite_or_none(x) for x in self.temperature],
                 "energy_eV": [finite_or_none(x) for x in self.energy],
                 "signal": [finite_or_none(x) for x in self.signal],
+                "signal_stderr": ([] if self.signal_se is None
+                                  else [finite_or_none(x) for x in self.signal_se]),
+                "scatter_ln_n": finite_or_none(self.scatter),
                 "peaks": [p.to_dict() for p in self.peaks],
                 "notes": list(self.notes)}
 
 
+class LocalFits(NamedTuple):
+    """The local quadratics of :func:`_local_quadratic` at each centre."""
+
+    value: np.ndarray  # ln n
+    slope: np.ndarray  # d ln n / d(1/T)
+    half_curv: np.ndarray  # half of d2 ln n / d(1/T)2
+    span: np.ndarray  # distance in ln T of the farthest neighbour
+    slope_gain: np.ndarray  # standard error of the slope per unit scatter of ln n
+
+
 def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: float,
-                     min_points: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Value, slope and half the curvature at each x0 of quadratics in x over its neighbours.
+                     min_points: int) -> LocalFits:
+    """Quadratics in x over the neighbours of each x0 (:class:`LocalFits`).
+
+    Value, slope and half the curvature at each x0, the distance in ln x of its farthest
+    neighbour, and the slope's standard error for independent scatter of unit standard
+    deviation in y.
 
     The neighbours of x0 are the points within ``half_width`` of it in ln x, or the nearest
     ``min_points`` in ln x where fewer are that close, tricube-weighted in their distance.
@@ -217,105 +227,41 @@ def _local_quadratic(x: np.ndarray, y: np.ndarray, x0: np.ndarray, half_width: f
     u, sv, vt = np.linalg.svd(a, full_matrices=False)
     kept = sv > np.finfo(float).eps * count[:, None] * sv[:, :1]
     ub = np.einsum("jnk,jn->jk", u, y[None, :] * w) / np.where(kept, sv, 1.0) * kept
-    return tuple(np.einsum("jkl,jk->lj", vt, ub))
+    value, slope, half_curv = np.einsum("jkl,jk->lj", vt, ub)
+    # the slope is sum_i p_i w_i y_i, p the slope row of the pseudo-inverse V S^-1 U^T
+    p_slope = np.einsum("jl,jl,jil->ji", vt[:, :, 1], kept / np.where(kept, sv, 1.0), u)
+    gain = np.sqrt(np.sum((p_slope * w) ** 2, axis=1))
+    return LocalFits(value, slope, half_curv, np.max(np.where(near, dist, 0.0), axis=1), gain)
+
+
+def scatter(x: np.ndarray, y: np.ndarray) -> float:
+    """Standard deviation of the scatter of y about a smooth curve in x, from the data alone.
+
+    The pseudo-residuals of T. Gasser, L. Sroka and C. Jennen-Steinmetz, Biometrika 73,
+    625-633 (1986) (from memory): each point against the line through its two neighbours
+    (in order of x), scaled to unit variance. Their estimate is the mean of the squares;
+    here it is the median over 0.4549, the median of chi^2 with one degree of freedom, so
+    that a few triples across a sharp bend of the curve (or one outlying point) do not
+    count as scatter (project choice). Ties in x (no line) are left out; NaN with fewer
+    than three distinct x.
+    """
+    order = np.argsort(x, kind="stable")
+    x, y = x[order], y[order]
+    if x.size < 3:
+        return math.nan
+    span = x[2:] - x[:-2]
+    ok = span > 0
+    a = np.where(ok, (x[2:] - x[1:-1]) / np.where(ok, span, 1.0), 0.0)
+    b = 1.0 - a
+    e = a * y[:-2] + b * y[2:] - y[1:-1]
+    c2 = 1.0 / (a * a + b * b + 1.0)
+    return float(math.sqrt(np.median(c2[ok] * e[ok] ** 2) / CHI2_1_MEDIAN)) if ok.any() \
+        else math.nan
 
 
 def _log_slope(func, t: np.ndarray, h: float = 1e-4) -> np.ndarray:
     """d ln func / d ln T by a central difference in ln T."""
     return (np.log(func(t * (1 + h))) - np.log(func(t * (1 - h)))) / np.log((1 + h) / (1 - h))
-
-
-def _solve_offset(kt: float, ln_g: float, d: float, d_prime: float) -> float | None:
-    """u of Eq. (5) by bisection between kT ln g - 12 kT and kT ln g; None without a root."""
-    def h(u: float) -> float:
-        return np.tanh((u / kt - ln_g) / 2) + kt * (1 / d - u * d_prime / d**2) / (1 - u / d)**2
-
-    hi = kt * ln_g
-    lo = min(hi - 12 * kt, 0.99 * d)
-    if not (h(lo) < 0 < h(hi)):
-        return None
-    for _ in range(80):
-        mid = 0.5 * (lo + hi)
-        if h(mid) > 0:
-            hi = mid
-        else:
-            lo = mid
-    return 0.5 * (lo + hi)
-
-
-def _read_peak(i: int, u: np.ndarray, s: np.ndarray, t: np.ndarray, d: np.ndarray,
-               dp: np.ndarray, g: float) -> tuple[SpectrumPeak, bool]:
-    """The peak at grid index i: vertex of the parabola through three points, then (5)-(6)."""
-    du = u[i + 1] - u[i - 1]
-    den = s[i - 1] - 2 * s[i] + s[i + 1]
-    shift = 0.0 if den >= 0 or du <= 0 else 0.5 * (s[i - 1] - s[i + 1]) / den
-    shift = float(np.clip(shift, -1.0, 1.0))
-    k = i + 1 if shift > 0 else i - 1
-    w = abs(shift)
-
-    def at(a):
-        return (1 - w) * a[i] + w * a[k]
-
-    u_pk, t_pk, d_pk, dp_pk = at(u), at(t), at(d), at(dp)
-    s_pk = s[i] - 0.25 * (s[i - 1] - s[i + 1]) * shift
-    kt = K_B_EV * t_pk
-    ln_g = float(np.log(g))
-    raw_e, raw_n = u_pk - kt * ln_g, 4.0 * s_pk
-    off = _solve_offset(kt, ln_g, d_pk, dp_pk)
-    if off is None:
-        return SpectrumPeak(raw_e, raw_n, t_pk, u_pk, s_pk, raw_e, raw_n), False
-    z = off / kt - ln_g
-    conc = s_pk / (0.25 / np.cosh(z / 2) ** 2 * (1 - off / d_pk))
-    return SpectrumPeak(u_pk - off, float(conc), t_pk, u_pk, s_pk, raw_e, raw_n), True
-
-
-def _prominent_maxima(x: np.ndarray, floor: float) -> list[int]:
-    """Interior local maxima of ``x`` whose topographic prominence is at least ``floor``.
-
-    The rule of ``scipy.signal.find_peaks(x, prominence=floor)`` (same peaks, checked against
-    it in the tests), written out because scipy.signal costs a command ~0.06 s to import: a
-    flat top counts once, at its middle (the lower middle of an even run); a peak's
-    prominence is its height above the higher of the lowest points on either side before
-    the signal rises above the peak (or ends).
-    """
-    n = len(x)
-    found = []
-    i = 1
-    while i < n - 1:
-        if x[i - 1] < x[i]:
-            ahead = i + 1
-            while ahead < n - 1 and x[ahead] == x[i]:
-                ahead += 1
-            if x[ahead] < x[i]:
-                peak = (i + ahead - 1) // 2
-                sides = []
-                for step in (-1, 1):
-                    j, low = peak, x[peak]
-                    while 0 <= j < n and x[j] <= x[peak]:
-                        low = min(low, x[j])
-                        j += step
-                    sides.append(low)
-                if x[peak] - max(sides) >= floor:
-                    found.append(peak)
-                i = ahead
-        i += 1
-    return found
-
-
-def _peak_indices(signal: np.ndarray) -> list[int]:
-    """Interior maxima of each defined stretch with the prominence rule."""
-    ok = np.isfinite(signal)
-    if not ok.any():
-        return []
-    floor = MIN_PROMINENCE * float(np.nanmax(signal))
-    if not floor > 0:
-        return []
-    found = []
-    edges = np.flatnonzero(np.diff(np.concatenate([[0], ok.astype(int), [0]])))
-    for start, stop in zip(edges[::2], edges[1::2], strict=True):
-        idx = _prominent_maxima(signal[start:stop], floor)
-        found.extend(int(start + i) for i in idx if signal[start + i] > 0)
-    return found
 
 
 def level_spectrum(temperature, density, carrier: str, material: Material, *,
@@ -371,7 +317,8 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
     cuts = np.flatnonzero(np.diff(np.log(t)) > gap) + 1
     notes = [f"spectrum undefined from {t[i - 1]:.4g} K to {t[i]:.4g} K: no points there, "
              f"a gap wider than {gap:g} in ln T" for i in cuts]
-    ln_n, slope, half_curv = np.full((3, grid_t.size), np.nan)
+    ln_n, slope, half_curv, span, gain = np.full((5, grid_t.size), np.nan)
+    sigma = scatter(x, np.log(n))
     for seg in np.split(np.arange(t.size), cuts):
         lo_t, hi_t = t[seg[0]], t[seg[-1]]
         if np.unique(t[seg]).size < min_points:
@@ -381,7 +328,7 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
                          "between gaps")
             continue
         on = (grid_t >= lo_t) & (grid_t <= hi_t)
-        ln_n[on], slope[on], half_curv[on] = _local_quadratic(
+        ln_n[on], slope[on], half_curv[on], span[on], gain[on] = _local_quadratic(
             x[seg], np.log(n[seg]), grid_x[on], half_width, min_points)
     kt = thermal_energy(grid_t)
     s_dos = _log_slope(band_dos, grid_t)
@@ -391,20 +338,66 @@ def level_spectrum(temperature, density, carrier: str, material: Material, *,
     with np.errstate(divide="ignore", invalid="ignore"):
         signal = np.exp(ln_n) * e_a / d                   # Eq. (3)
         d_prime = 1 + (s_dos * kt - 2 * K_B_EV * half_curv * grid_x) / d
+        # the standard error of S from that of E_a (the slope's), dS/dE_a = n (D + E_a)/D^2
+        signal_se = np.abs(np.exp(ln_n) * (d + e_a) / d**2) * K_B_EV * sigma * gain
     signal = np.where(d >= MIN_SWEEP_KT * kt, signal, np.nan)
     if not np.isfinite(signal).any():
         notes.append("the Fermi level does not sweep (T dE_F/dT < 2 kT everywhere): "
                      "no spectrum")
+    signal_se = np.where(np.isfinite(signal), signal_se, np.nan)
+    found, weak = peak_indices(signal, signal_se)
     peaks = []
-    for i in _peak_indices(signal):
-        peak, corrected = _read_peak(i, u_f, signal, grid_t, d, d_prime, g)
+    for i in found:
+        peak, corrected = read_peak(i, u_f, signal, grid_t, d, d_prime, g)
         peaks.append(peak)
         if not corrected:
             notes.append(f"peak at {peak.temperature:.4g} K: the path correction has no "
                          "solution; the plain reading is given")
+        if span[i] > WIDE_WINDOW * half_width:
+            notes.append(f"peak at {peak.temperature:.4g} K: fewer than {min_points} points "
+                         f"lie within {half_width:g} in ln T of it, so its local fits reach "
+                         f"{span[i]:.2g}; the wider smoothing flattens the bell, and its "
+                         "reading is less certain (denser points there sharpen it)")
+    notes += _weak_notes(weak, u_f, signal, grid_t, d, d_prime, g)
+    notes += _edge_notes(signal, ln_n, u_f, kt, grid_t, found)
     peaks.sort(key=lambda p: p.energy)
     return LevelSpectrum(carrier, g, half_width, min_points, grid_t, u_f, signal, tuple(peaks),
-                         tuple(notes))
+                         tuple(notes), signal_se=signal_se, scatter=sigma)
+
+
+def _weak_notes(weak, u_f, signal, grid_t, d, d_prime, g) -> list[str]:
+    """Notes on the most prominent weak maxima, with the level each would give."""
+    notes = []
+    for i, fraction, z in sorted(weak, key=lambda w: -w[1])[:WEAK_NOTES]:
+        pk, _ = read_peak(i, u_f, signal, grid_t, d, d_prime, g)
+        notes.append(f"a weak maximum at {pk.temperature:.4g} K (read as a level: "
+                     f"{pk.energy:.4g} eV, {pk.concentration:.3g} cm^-3) rises "
+                     f"{100 * fraction:.2g} % of the largest signal ({z:.2g} standard "
+                     f"errors) above its surroundings, short of what a peak needs ({PEAK_Z:g} "
+                     f"standard errors and {100 * MIN_PROMINENCE:g} % of the largest): a "
+                     "level whose bell merges with a neighbour's, or noise; a fit of the "
+                     "levels decides")
+    return notes
+
+
+def _edge_notes(signal, ln_n, u_f, kt, grid_t, found) -> list[str]:
+    """Notes where a stretch starts, at the sweep rule's cut, with a high signal and no peak.
+
+    There the Fermi level stops sweeping on the cold side (compensation pins it near a
+    level), so the cold half of a level's bell may be cut off and its maximum never formed.
+    """
+    top = float(np.nanmax(signal)) if np.isfinite(signal).any() else math.nan
+    notes = []
+    for start, _ in defined_stretches(signal):
+        cut = start > 0 and np.isfinite(ln_n[start - 1])
+        near = [k for k in found if 0 <= u_f[k] - u_f[start] <= 3.5 * kt[start]]
+        if cut and signal[start] >= EDGE_FRACTION * top and not near:
+            notes.append(f"the spectrum starts at {grid_t[start]:.4g} K, where the Fermi "
+                         "level stops sweeping (T dE_F/dT < 2 kT below it, as where "
+                         "compensation pins it near a level), with a signal already "
+                         f"{100 * signal[start] / top:.0f} % of its largest: a level near "
+                         f"u_F = {u_f[start]:.3g} eV may be cut off there, unread as a peak")
+    return notes
 
 
 def fit_spectrum(result, *, degeneracy: float | None = None) -> LevelSpectrum:

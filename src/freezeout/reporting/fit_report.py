@@ -105,7 +105,8 @@ def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
     )
     from freezeout.reporting import posterior_figure as pf
     from freezeout.reporting.mobility_figure import mobility_figure
-    from freezeout.reporting.spectroscopy_figure import CAPTION, spectroscopy_figure
+    from freezeout.reporting.spectroscopy_figure import caption as spectrum_caption
+    from freezeout.reporting.spectroscopy_figure import spectroscopy_figure
 
     optional = (  # stem, drawing (None when the fit has nothing to draw), caption
         ("transport", fg.transport_figure, "Resistivity and Hall mobility versus temperature "
@@ -114,7 +115,7 @@ def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
          "points and the model of the named scattering mechanisms, each mechanism's own "
          "drift mobility dashed; below, the Hall factor the model applied to the density and "
          "the mobility (" + hall_factor_label(r) + ")."),
-        ("spectroscopy", spectroscopy_figure, CAPTION),
+        ("spectroscopy", spectroscopy_figure, spectrum_caption),
         ("posterior", pf.posterior_figure, pf.CAPTION),
         ("hall_sign", hall_sign_figure, "Two-carrier fit: |R_H| against temperature with its "
          "sign (filled circles and one colour where holes dominate, open squares and the "
