@@ -59,3 +59,20 @@ def test_permissions_follow_the_umask(tmp_path):
     finally:
         os.umask(old)
     assert (target.stat().st_mode & 0o777) == 0o640
+
+
+def test_a_failure_names_the_path_given_not_the_temporary(tmp_path):
+    """An error about our own temporary file or folder is reported as one about the path
+    the user named (project choice, no source)."""
+    from freezeout.io.atomic import atomic_folder, atomic_write_bytes
+
+    folder = tmp_path / "run.csv"
+    folder.mkdir()  # a folder where a file is to go
+    with pytest.raises(OSError) as info:
+        atomic_write_bytes(folder, b"x")
+    assert info.value.filename == str(folder)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["run.csv"]  # no temporary left
+    if os.path.isdir("/proc/self"):  # a parent where nothing can be created (Linux)
+        with pytest.raises(OSError) as info, atomic_folder("/proc/freezeout-report"):
+            pass
+        assert info.value.filename == "/proc/freezeout-report"

@@ -234,3 +234,23 @@ def test_history_figure_onto_the_database(monkeypatch, capsys, tmp_path):
     refused(monkeypatch, capsys, [db], "history", "--db", url, "--out", "hist.png")
     monkeypatch.setenv("FREEZEOUT_DB", url)  # the default database, from the environment
     refused(monkeypatch, capsys, [db], "history", "--out", db)
+
+
+@pytest.mark.parametrize("args", [
+    ("fit", RUN, "--no-history"),
+    ("simulate", "-t", "20:400:10", "--donor", "1e16,0.045"),
+    ("reduce", RAW),
+    ("qualify", ROOT / "sample_data" / "lot_kestrel_2026-09" / "lot.toml"),
+    ("history",),
+    ("plan", "-m", "Si", "--donor", "1e16,0.045", "--range", "20:400", "-n", "8"),
+])
+@pytest.mark.parametrize("empty", ["", "  "])
+def test_an_empty_out_is_refused_and_writes_nothing(args, empty, tmp_path, monkeypatch,
+                                                     capsys):
+    """``--out ""`` (an unset shell variable) is refused, not read as the current folder
+    (project choice, no source)."""
+    monkeypatch.chdir(tmp_path)
+    code, _, err = cli(monkeypatch, capsys, *args, "--out", empty)
+    assert code == 2 and "an empty path names no file or folder" in err
+    assert list(tmp_path.iterdir()) == [] or all(p.name.endswith(".db") for p in
+                                                 tmp_path.iterdir())

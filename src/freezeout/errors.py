@@ -54,10 +54,12 @@ class InputError(ValueError, FreezeoutError):
 
 
 class FitError(RuntimeError, FreezeoutError):
-    """A fit that could not be completed; carries the optimizer's message."""
+    """A fit that could not be completed; carries the optimizer's message and the run's file."""
 
-    def __init__(self, message: str, *, optimizer_message: str | None = None) -> None:
+    def __init__(self, message: str, *, optimizer_message: str | None = None,
+                 file: str | None = None) -> None:
         self.message = message
         self.optimizer_message = optimizer_message
+        self.file = file
         text = message if optimizer_message is None else f"{message} ({optimizer_message})"
-        super().__init__(text)
+        super().__init__(text if file is None else f"{file}: {text}")

@@ -13,11 +13,12 @@ from freezeout.records.limits import DEFAULT_GROUPING_TOLERANCE_K, HALL_FACTOR_R
 
 _BATCH = frozenset({"BatchFit", "default_comparison_folder", "fit_files", "write_comparison"})
 _FITS = frozenset({
-    "FIT_REPORT_FILES", "check_history_url", "default_report_folder", "fit_file",
+    "FIT_REPORT_FILES", "default_report_folder", "fit_file",
     "fit_report_outputs", "record_fit", "write_fit_report"
 })
 _GUARD = frozenset({"refuse_overwrite", "same_file", "sqlite_file"})
-_HISTORY = frozenset({"HistoryResult", "history", "parse_since", "trend_file_name"})
+_HISTORY = frozenset({"HistoryResult", "check_history_url", "history", "parse_since",
+                      "trend_file_name"})
 _MATERIALS = frozenset({"list_materials", "load_material"})
 _PLAN = frozenset({"PLAN_FILES", "PlanResult", "plan_csv", "plan_temperatures", "write_plan"})
 _QUALIFICATION = frozenset({
@@ -56,6 +57,9 @@ def __getattr__(name: str):
         import freezeout.api.history  # noqa: F401  (the module, taken from sys.modules)
 
         module = sys.modules["freezeout.api.history"]
+        # the import bound the package's name "history" to the module, over the function of
+        # that name: the function again, whichever name of the module came first
+        globals()["history"] = module.history
     elif name in _MATERIALS:
         import freezeout.api.materials  # noqa: F401  (the module, taken from sys.modules)
 

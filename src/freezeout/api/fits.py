@@ -11,7 +11,7 @@ from freezeout.api.level_physics import LevelPhysics, check_fit_use, level_physi
 from freezeout.api.materials import load_material
 from freezeout.api.runs import load_run
 from freezeout.api.simulation import check_statistics
-from freezeout.errors import InputError
+from freezeout.errors import FitError, InputError
 from freezeout.reporting.report_files import REPORT_FILES as FIT_REPORT_FILES
 
 if TYPE_CHECKING:
@@ -104,16 +104,21 @@ def fit_file(
     run = load_run(path, hall_factor=reader_hall_factor(hall_factor, mobility),
                    include_mixed=include_mixed,
                    thickness=thickness)
-    return fit_run_record(run, input_name=Path(path).name, input_path=str(path),
-                          material=material, material_file=material_file, donors=donors,
-                          acceptors=acceptors, statistics=statistics, hall_factor=hall_factor,
-                          degeneracy=degeneracy, fix=fix, bounds=bounds,
-                          include_mixed=include_mixed, include_flagged=include_flagged,
-                          mobility=mobility, lattice_mu300=lattice_mu300,
-                          lattice_exponent=lattice_exponent, carriers=carriers,
-                          posterior=posterior, posterior_steps=posterior_steps,
-                          posterior_progress=posterior_progress, physics=level_physics(
-                              excited_states, energy_vs_density, dos_mass))
+    try:
+        return fit_run_record(
+            run, input_name=Path(path).name, input_path=str(path), material=material,
+            material_file=material_file, donors=donors, acceptors=acceptors,
+            statistics=statistics, hall_factor=hall_factor, degeneracy=degeneracy, fix=fix,
+            bounds=bounds, include_mixed=include_mixed, include_flagged=include_flagged,
+            mobility=mobility, lattice_mu300=lattice_mu300, lattice_exponent=lattice_exponent,
+            carriers=carriers, posterior=posterior, posterior_steps=posterior_steps,
+            posterior_progress=posterior_progress,
+            physics=level_physics(excited_states, energy_vs_density, dos_mass))
+    except FitError as exc:  # the message names the run
+        if exc.file is not None:
+            raise
+        raise FitError(exc.message, optimizer_message=exc.optimizer_message,
+                       file=str(path)) from exc
 
 
 def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
@@ -173,12 +178,17 @@ def fit_run_record(run: RunData, *, input_name: str, input_path: str | None,
         models = check_mechanisms(mobility)
     source = joint_hall_factor(hall_factor, models, run)
     notes = []
+    stated = run.metadata.get("material")
     if material is None and material_file is None:
-        stated = run.metadata.get("material")
         if stated:
             material = stated
         else:
             notes.append(f"no material given and none stated in {where}: assumed Si")
+    elif stated and material is not None:
+        asked = str(getattr(material, "name", material))
+        if asked.strip().lower() != str(stated).strip().lower():
+            notes.append(f"{where} says '# material: {stated}' but {asked} was asked for: "
+                         f"the run is fitted as {asked}")
     physics = physics or level_physics()
     check_fit_use(physics, run.carrier, joint=bool(models), posterior=posterior,
                   majority_levels=donors if run.carrier == "n" else acceptors)
@@ -340,31 +350,6 @@ def check_gap_open(mat: Material, temperature, file: str | None = None) -> None:
             "check the material's band gap and Varshni parameters", file=file)
 
 
-def check_history_url(db: str | None) -> None:
-    """Refuse, before any work, a ``--db`` URL the history cannot use (not opened here).
-
-    Raises
-    ------
-    InputError
-        ``--db: history database: ...`` for a URL that is neither a SQLite file nor
-        ``postgresql://`` (the message :func:`freezeout.storage.open_history` gives).
-    """
-    if db is None:
-        return
-    from sqlalchemy.engine import make_url
-
-    from freezeout.storage.engine import normalize_url
-
-    try:
-        url = make_url(normalize_url(db))
-    except Exception as exc:  # noqa: BLE001 - any unreadable URL is bad input
-        raise InputError(f"--db: history database: cannot read the URL {db!r}: {exc}") from None
-    if url.get_backend_name() not in ("sqlite", "postgresql"):
-        raise InputError(f"--db: history database: unsupported database "
-                         f"{url.render_as_string(hide_password=True)!r}: use a SQLite file or "
-                         "a postgresql:// URL")
-
-
 def fit_report_outputs(folder: str | Path) -> list[Path]:
     """The report folder and every file the report may write in it."""
     folder = Path(folder)
@@ -402,7 +387,10 @@ def write_fit_report(result: FitResult, folder: str | Path, *, svg: bool = False
 
 def history_failure(exc: Exception, report: str | Path | None) -> InputError:
     """The error for a history database that failed, saying whether a report was kept."""
-    msg = getattr(exc, "message", None) or str(exc) or type(exc).__name__
+    msg = getattr(exc, "message", None)
+    if not msg:  # a driver's error: its first line, without the SQL and the link
+        orig = getattr(exc, "orig", None)
+        msg = (str(orig if orig is not None else exc) or type(exc).__name__).splitlines()[0]
     if not msg.startswith("--db: history database") and not msg.startswith("history database"):
         msg = f"history database: {msg}"
     if report is not None:

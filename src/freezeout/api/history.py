@@ -168,3 +168,28 @@ def _default_store_exists() -> bool:
     url = default_url()
     path = url.removeprefix("sqlite:///") if url.startswith("sqlite:///") else None
     return path is None or os.path.isfile(path)
+
+
+def check_history_url(db: str | None) -> None:
+    """Refuse, before any work, a ``--db`` URL the history cannot use (not opened here).
+
+    Raises
+    ------
+    InputError
+        ``--db: history database: ...`` for a URL that is neither a SQLite file nor
+        ``postgresql://`` (the message :func:`freezeout.storage.open_history` gives).
+    """
+    if db is None:
+        return
+    from sqlalchemy.engine import make_url
+
+    from freezeout.storage.engine import normalize_url
+
+    try:
+        url = make_url(normalize_url(db))
+    except Exception as exc:  # noqa: BLE001 - any unreadable URL is bad input
+        raise InputError(f"--db: history database: cannot read the URL {db!r}: {exc}") from None
+    if url.get_backend_name() not in ("sqlite", "postgresql"):
+        raise InputError(f"--db: history database: unsupported database "
+                         f"{url.render_as_string(hide_password=True)!r}: use a SQLite file or "
+                         "a postgresql:// URL")

@@ -28,6 +28,17 @@ DbOpt = Annotated[str | None, typer.Option(
     "file in the user data folder, or $FREEZEOUT_DB.")]
 
 
+def output_path(text: str) -> Path:
+    """The path of an ``--out`` option, refusing an empty one.
+
+    An empty path (an unset shell variable) would otherwise mean the current folder.
+    """
+    if not str(text).strip():
+        raise typer.BadParameter("an empty path names no file or folder (an unset "
+                                 "variable?); give a path, or '.' for this folder")
+    return Path(text)
+
+
 def parse_number(text: str, what: str) -> float:
     """A float from the command line, or an InputError naming the option."""
     try:

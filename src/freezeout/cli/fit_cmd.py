@@ -16,6 +16,7 @@ from freezeout.cli.common import (
     MaterialFileOpt,
     MaterialOpt,
     StatisticsOpt,
+    output_path,
     parse_assignments,
     parse_hall_factor,
     parse_level_count,
@@ -51,9 +52,10 @@ def fit_command(
         "--mobility): r_H(T) from the mechanisms at every point, for the density and the "
         "mobility alike. Default: the file's own '# hall_factor:' line, else 1; with "
         "--mobility and no such line, scattering.")] = None,
-    out: Annotated[Path | None, typer.Option("--out", "-o", help="Report folder (default: "
-                                             "reports/<run name>/; with --json, no report "
-                                             "unless --out is given).")] = None,
+    out: Annotated[Path | None, typer.Option("--out", "-o", parser=output_path, metavar="PATH",
+                                             help="Report folder (default: "
+                                                  "reports/<run name>/; with --json, no report "
+                                                  "unless --out is given).")] = None,
     json_output: JsonOpt = False,
     fix: Annotated[list[str] | None, typer.Option(
         "--fix", help="Hold a parameter: NAME=VALUE, e.g. E_D1=0.045 or N_A=1e14 "
@@ -199,12 +201,16 @@ def _fit_runs(runs: list[Path], out, json_output: bool, svg: bool, db, no_histor
             print_json(result.to_dict())
         return 0
     batch = api.fit_files(runs, **options)  # refuses a run named twice before any fit
+    for _path, message, code in batch.failures:  # each named; the other runs are reported
+        typer.echo(f"freezeout: {'error' if code == 2 else 'fit failed'}: {message}", err=True)
+    if not batch.results:
+        return max(code for _, _, code in batch.failures)
     folder = None
     if out is not None or not json_output:
         folder = out if out is not None else api.default_comparison_folder()
         api.refuse_overwrite([folder / "comparison.csv", folder / "overlay.png"],
                              [*runs, material_file])
-    for path, result in zip(runs, batch.results, strict=True):
+    for path, result in zip(batch.paths, batch.results, strict=True):
         _report_one(path, result, None if folder is None else folder / path.stem,
                     json_output, svg, db, no_history, material_file)
     compared = {} if folder is None else api.write_comparison(batch, folder)
@@ -213,7 +219,7 @@ def _fit_runs(runs: list[Path], out, json_output: bool, svg: bool, db, no_histor
     else:
         for name, where in compared.items():
             typer.echo(f"{name}: {where}")
-    return 0
+    return max((code for _, _, code in batch.failures), default=0)
 
 
 def _fit_one(run: Path, out: Path | None, json_output: bool, svg: bool, db, no_history: bool,

@@ -8,7 +8,7 @@ from typing import Annotated
 import typer
 
 from freezeout import api
-from freezeout.cli.common import DbOpt, JsonOpt, print_json
+from freezeout.cli.common import DbOpt, JsonOpt, output_path, print_json
 from freezeout.cli.render import console, num, say, show, text
 
 HELP = ("List the fits and lot qualifications stored in the history database, and draw the "
@@ -40,9 +40,10 @@ def history_command(
         "--kind", help="Only 'fit' or 'lot' records.")] = None,
     db: DbOpt = None,
     out: Annotated[Path | None, typer.Option(
-        "--out", "-o", help="Where the trend PNGs go: a folder (default reports/history/, "
-        "files trend_<supplier>.png) or, for one supplier, a .png file. With --json, no PNG "
-        "unless --out is given.")] = None,
+        "--out", "-o", parser=output_path, metavar="PATH",
+        help="Where the trend PNGs go: a folder (default reports/history/, "
+             "files trend_<supplier>.png) or, for one supplier, a .png file. With --json, no PNG "
+             "unless --out is given.")] = None,
     json_output: JsonOpt = False,
 ) -> int:
     """List history records and draw trends; see HELP."""

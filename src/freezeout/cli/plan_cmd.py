@@ -13,6 +13,7 @@ from freezeout.cli.common import (
     JsonOpt,
     MaterialFileOpt,
     SimMaterialOpt,
+    output_path,
     parse_level,
     parse_number,
     print_json,
@@ -70,7 +71,8 @@ def plan_command(
     error: Annotated[str, typer.Option(
         "--error", help="Relative error of n per point, e.g. 2% or 0.02.")] = "2%",
     out: Annotated[Path | None, typer.Option(
-        "--out", "-o", help="Folder for plan.json, plan.csv and plan.png.")] = None,
+        "--out", "-o", parser=output_path, metavar="PATH",
+        help="Folder for plan.json, plan.csv and plan.png.")] = None,
     json_output: JsonOpt = False,
 ) -> int:
     """Propose a run plan; see HELP."""

@@ -14,7 +14,7 @@ from typing import Annotated
 import typer
 
 from freezeout import api
-from freezeout.cli.common import DbOpt, JsonOpt, print_json
+from freezeout.cli.common import DbOpt, JsonOpt, output_path, print_json
 from freezeout.cli.render import console, markup_safe, say, show, text
 
 HELP = ("Qualify a wafer lot: fit every wafer's run, decide each certificate claim with the "
@@ -27,8 +27,9 @@ def qualify_command(
     lot: Annotated[Path, typer.Argument(metavar="LOT.toml",
                                         help="Lot file (TOML; see docs/lot_format.md).")],
     out: Annotated[Path | None, typer.Option(
-        "--out", "-o", help="Report folder (default: reports/<lot>/; with --json, no report "
-        "unless --out is given).")] = None,
+        "--out", "-o", parser=output_path, metavar="PATH",
+        help="Report folder (default: reports/<lot>/; with --json, no report "
+             "unless --out is given).")] = None,
     db: DbOpt = None,
     json_output: JsonOpt = False,
     workers: Annotated[int | None, typer.Option(

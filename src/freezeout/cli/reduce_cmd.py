@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING, Annotated
 import typer
 
 from freezeout import api
-from freezeout.cli.common import parse_assignments, parse_number
+from freezeout.cli.common import output_path, parse_assignments, parse_number
 from freezeout.cli.render import clean, console, num, say, show, text
 
 if TYPE_CHECKING:
@@ -76,7 +76,7 @@ def reduce_command(
     raw: Annotated[Path, typer.Argument(help="Raw-readings CSV (see docs/raw_format.md).")],
     out: Annotated[
         Path | None,
-        typer.Option("--out", "-o",
+        typer.Option("--out", "-o", parser=output_path, metavar="PATH",
                      help="Reduced CSV to write (default: <raw stem>_reduced.csv next to RAW)."),
     ] = None,
     thickness: Annotated[

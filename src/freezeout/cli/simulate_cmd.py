@@ -14,6 +14,7 @@ from freezeout.cli.common import (
     MaterialFileOpt,
     SimMaterialOpt,
     StatisticsOpt,
+    output_path,
     parse_level,
     parse_number,
     print_json,
@@ -52,8 +53,9 @@ def simulate_command(
         "together (mixed conduction, Hall sign reversal).")] = None,
     minority_exponent: Annotated[str | None, typer.Option(
         "--minority-exponent", help="Lattice exponent of the minority carrier.")] = None,
-    out: Annotated[Path | None, typer.Option("--out", "-o", help="CSV file to write "
-                                             "(default: stdout).")] = None,
+    out: Annotated[Path | None, typer.Option("--out", "-o", parser=output_path, metavar="PATH",
+                                             help="CSV file to write "
+                                                  "(default: stdout).")] = None,
     json_output: JsonOpt = False,
     excited_states: ExcitedStatesOpt = None,
     energy_vs_density: EnergyVsDensityOpt = None,

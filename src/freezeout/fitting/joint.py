@@ -128,7 +128,7 @@ def fit_run_joint(run: RunData, material, *, mobility: Sequence[str] | str,
     mu_used = mu_all[used]
     m_ok = np.isfinite(mu_used) & (mu_used > 0)
     if m_ok.sum() < 3:
-        raise InputError(f"{run.source}: fewer than 3 usable mobility points for a joint fit",
+        raise InputError("fewer than 3 usable mobility points for a joint fit",
                          file=run.source)
     y_mu = np.log(mu_used[m_ok])
     s_n = None if run.density_err is None else (run.density_err / run.density)[used]

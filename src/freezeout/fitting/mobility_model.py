@@ -70,7 +70,7 @@ def measured_hall_mobility(run: RunData) -> tuple[np.ndarray, np.ndarray | None,
         err = None if run.mobility_err is None else np.asarray(run.mobility_err, dtype=float)
         return mu, err, "mobility column"
     if run.resistivity is None:
-        raise InputError(f"{run.source}: a joint fit with mobility needs a mobility column "
+        raise InputError("a joint fit with mobility needs a mobility column "
                          "(mu_H) or a resistivity column (rho) beside the density", file=run.source)
     rho = np.asarray(run.resistivity, dtype=float)
     rel = [] if run.resistivity_err is None else [np.asarray(run.resistivity_err) / rho]

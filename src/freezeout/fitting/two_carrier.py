@@ -54,7 +54,7 @@ _FLOOR = 0.05  # floor of the R_H weights, as a fraction of rho mu_ref (project 
 
 def _data(run: RunData, include_flagged: bool):
     if run.hall_coefficient is None or run.resistivity is None:
-        raise InputError(f"{run.source}: a two-carrier fit needs the signed Hall coefficient "
+        raise InputError("a two-carrier fit needs the signed Hall coefficient "
                          "(an R_H column, or raw readings) and the resistivity (a rho column)",
                          file=run.source)
     rh = np.asarray(run.hall_coefficient, dtype=float)
@@ -136,7 +136,7 @@ def fit_run_two_carrier(run: RunData, material, *, mobility: Sequence[str] | str
                                           fit_options.get("bounds"), gap)
     free = [s.internal for s in model.specs if s.internal not in fixed] + list(LATTICE_NAMES)
     if 2 * t.size < len(free) + 3:
-        raise InputError(f"{run.source}: too few usable points ({t.size}) for a two-carrier "
+        raise InputError(f"too few usable points ({t.size}) for a two-carrier "
                          f"fit of {len(free)} parameters", file=run.source)
     bounds = [_BOUNDS[k.rsplit("_", 1)[0]] if k in LATTICE_NAMES else user_bounds.get(
         k, LOG10_CONCENTRATION_BOUNDS if k.startswith("log10_") else (1e-4, 0.9 * gap))

@@ -27,6 +27,22 @@ _TMP_FILE = re.compile(r"^\.(?P<name>.+)\.[a-z0-9_]{8}\.tmp$")
 _TMP_DIR = re.compile(r"^\.(?P<name>.+)\.tmp-(?:[a-z0-9_]{8}|(?P<old>old-)[0-9a-f]{12})$")
 
 
+@contextmanager
+def _named_as(target: Path) -> Iterator[None]:
+    """Re-raise an OSError about one of our temporaries as one about ``target``.
+
+    The user named ``target``; a message naming ``.<name>.<random>.tmp`` would send them
+    looking for a file that never existed.
+    """
+    try:
+        yield
+    except OSError as exc:
+        names = [Path(str(n)).name for n in (exc.filename, exc.filename2) if n is not None]
+        if any(_TMP_FILE.match(n) or _TMP_DIR.match(n) for n in names):
+            raise OSError(exc.errno, exc.strerror, str(target)) from exc
+        raise
+
+
 def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
 
@@ -36,6 +52,12 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
     _clean_own_stale(p)
+    with _named_as(p):
+        _write_through_temporary(p, data)
+    return p
+
+
+def _write_through_temporary(p: Path, data: bytes) -> None:
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
     try:
         umask = os.umask(0)
@@ -52,7 +74,6 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
         except FileNotFoundError:
             pass
         raise
-    return p
 
 
 def _clean_own_stale(p: Path) -> None:
@@ -195,7 +216,8 @@ def atomic_folder(target: str | Path,
     if not in_place:
         clean_stale(parent)
         try:
-            tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=parent))
+            with _named_as(target):
+                tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=parent))
         except PermissionError:  # a folder we may write in, in a parent we may not
             in_place = True
     if tmp is None:

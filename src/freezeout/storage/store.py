@@ -430,8 +430,8 @@ def open_history(url: str | None = None, *, read_only: bool = False) -> Store:
     ------
     InputError
         ``--db: history database: ...`` for an unsupported URL or a database newer than this
-        code; with ``read_only``, ``no history database at PATH`` for a missing SQLite file
-        (nothing is created).
+        code; with ``read_only``, ``no history database at PATH`` for a missing SQLite file,
+        and a refusal for an empty one (nothing is created or written).
     """
     if read_only:
         import os
@@ -440,6 +440,8 @@ def open_history(url: str | None = None, *, read_only: bool = False) -> Store:
         if path is not None and not os.path.isfile(path):
             raise InputError(f"no history database at {path} (nothing stored there yet, or a "
                              "mistyped --db or $FREEZEOUT_DB)")
+        if path is not None and os.path.getsize(path) == 0:  # left as it is, not made one
+            raise InputError(f"{path} is an empty file, not a history database")
     try:
         return open_store(url)
     except StorageError as exc:
