@@ -336,7 +336,7 @@ def _synopsis() -> list[list[str]]:
 def test_synopsis_options_exist(words, monkeypatch):
     code, out, err = _cli(monkeypatch, [words[1], "--help"])
     assert code == 0, err
-    for opt in re.findall(r"--[a-z][a-z-]*", " ".join(words)):
+    for opt in re.findall(r"--[a-z][a-z0-9-]*", " ".join(words)):
         assert re.search(rf"{opt}\b", out), (words[1], opt)
 
 

@@ -27,7 +27,9 @@ CAPTION = ("Level spectrum without a fit (Hoffmann's differential evaluation of 
            "S = kT dn/du_F against the Fermi-level depth u_F from the majority band edge, "
            "u_F = kT ln(N/n). Each level gives a bell of height about N/4 a little beyond "
            "its energy; the triangles are the levels read from the peaks (path-corrected "
-           "energy, concentration in the label), the dashed lines the fitted level "
+           "energy, concentration in the label), drawn at the peak's height, and the grey "
+           "tick under each marks the peak itself (about kT ln g beyond the level, more for "
+           "g = 4 and at high temperature); the dashed lines are the fitted level "
            "energies; the shaded band is two standard errors of S from the run's scatter. "
            "Gaps in the curve: where the Fermi level barely moves with T, the spectrum is "
            "undefined.")
