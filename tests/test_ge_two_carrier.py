@@ -69,3 +69,34 @@ def test_reversal_near_the_measured_crossing_and_the_misfit_is_said(fitted):
     # fit says so in words
     assert fitted.two_carrier.rms_percent["hall"] > 10.0
     assert any(w.startswith("the two-carrier model misses the data") for w in fitted.warnings)
+
+
+def test_transport_figure_shows_both_panels_and_says_which_points_were_fitted(fitted):
+    """No mobility column: the Hall mobility is |R_H|/rho; the two-carrier fit used every
+    point, and the legend says so instead of calling the other sign left out."""
+    from freezeout.reporting.transport_figure import transport_figure
+
+    fig = transport_figure(fitted)
+    assert [a.get_ylabel() for a in fig.axes] == ["resistivity [Ω cm]",
+                                                  "Hall mobility |R_H|/ρ [cm²/(V s)]"]
+    labels = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert labels == ["Hall sign of holes", "Hall sign of electrons: used by the two-carrier "
+                      "fit, not the density fit"]
+    d = fitted.data
+    mu = sorted(np.abs(d.hall_coefficient) / d.resistivity)
+    drawn = sorted(np.concatenate([c[0].get_ydata() for c in fig.axes[1].containers]))
+    np.testing.assert_allclose(drawn, mu)
+
+
+def test_console_counts_both_fits_and_shows_no_method_without_an_interval(
+        monkeypatch, capsys, tmp_path):
+    from cli_runner import cli
+
+    code, out, err = cli(monkeypatch, capsys, "fit", CSV, "-m", "Ge", "--carriers", "both",
+                         "--fix", "E_A1=0.0102", "--no-history", "--out", tmp_path / "r")
+    assert code == 0, err
+    assert "p-type Ge, 56 points (40 in the density fit)" in out
+    # the electron lattice exponent sits at its bound: no interval, so no method under it
+    lines = out.splitlines()
+    k = next(i for i, line in enumerate(lines) if "electron lattice exponent" in line)
+    assert "—" in lines[k] and "wald" not in lines[k + 1]

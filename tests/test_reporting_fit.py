@@ -19,6 +19,7 @@ from freezeout.physics.simulation import simulate, temperature_grid
 from freezeout.records.run import RunData
 from freezeout.reporting import figures as fg
 from freezeout.reporting.fit_report import render_html, write_fit_report
+from freezeout.reporting.transport_figure import transport_figure
 
 SI = get_material("Si")
 
@@ -153,12 +154,12 @@ def test_ionization_axes(result, curves):
 
 def test_transport_figure(result):
     """Resistivity and mobility on log axes; None for a run without either."""
-    fig = fg.transport_figure(result)
+    fig = transport_figure(result)
     assert [a.get_ylabel() for a in fig.axes] == ["resistivity [Ω cm]",
                                                   "Hall mobility [cm²/(V s)]"]
     assert all(a.get_yscale() == "log" and a.get_xscale() == "log" for a in fig.axes)
     bare = fit_run(_run(transport=False), SI, provenance=dict(PROVENANCE))
-    assert fg.transport_figure(bare) is None
+    assert transport_figure(bare) is None
 
 
 def test_write_fit_report_files(result, tmp_path):

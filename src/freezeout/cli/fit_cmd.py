@@ -260,8 +260,11 @@ def _print_summary(result, written) -> None:
     con = console()
     d = result.to_dict()
     st = d["statistics"]
+    two = d.get("two_carrier")
+    count = (f"{two['n_points']} points ({st['n_points']} in the density fit)"
+             if two and two.get("n_points") else f"{st['n_points']} points")
     table = Table(title=text(f"{d['provenance']['input']}: {d['carrier']}-type "
-                             f"{d['material']['name']}, {st['n_points']} points"),
+                             f"{d['material']['name']}, {count}"),
                   title_justify="left")
     for col in ("parameter", "value", "std. error", "95 % interval"):
         table.add_column(col, justify="right" if col != "parameter" else "left")
@@ -272,7 +275,7 @@ def _print_summary(result, written) -> None:
         lo, hi = est["ci95"]
         ci = Text("—" if lo is None else f"{num(lo)} … {num(hi)}")
         se = "—" if est["stderr"] is None else num(est["stderr"], 2)
-        if est.get("method"):  # how the interval was computed, under it
+        if est.get("method") and lo is not None:  # how the interval was computed, under it
             ci.append("\n")
             ci.append(clean(est["method"]), style="dim")
         if est.get("fixed"):

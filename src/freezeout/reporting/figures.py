@@ -63,7 +63,7 @@ def _points(result: FitResult):
 _NICE_T = (2, 3, 5, 10, 15, 20, 30, 50, 75, 100, 150, 200, 300, 500, 700, 1000, 1500)
 
 
-def _log_temperature_xaxis(ax, temperature):
+def log_temperature_xaxis(ax, temperature):
     """Log temperature axis with a few round ticks and no crowded minor labels."""
     from matplotlib.ticker import NullFormatter
 
@@ -324,43 +324,6 @@ def ionization_axes(result: FitResult, curves: ModelCurves, ax=None):
         ax.set_ylabel("ionized fraction")
         legend_below(ax, ncols=3)
         return ax
-
-
-def transport_figure(result: FitResult):
-    """Resistivity and Hall mobility versus temperature, or None if the run has neither."""
-    d = result.data
-    rho, mu = d.resistivity, d.mobility
-    if rho is None and mu is None:
-        return None
-    with plt.rc_context(STYLE):
-        fig = Figure(figsize=(7.0, 3.4), layout="constrained")
-        axes = fig.subplots(1, 2)
-        t, _, _, used, _, _ = _points(result)
-        for ax, vals, errs, label in (
-            (axes[0], rho, d.resistivity_err, "resistivity [Ω cm]"),
-            (axes[1], mu, d.mobility_err, "Hall mobility [cm²/(V s)]"),
-        ):
-            if vals is None:
-                ax.set_visible(False)
-                continue
-            v, e = _finite_or_nan(vals), None if errs is None else _finite_or_nan(errs)
-            ok = np.isfinite(v) & (v > 0)
-            ax.errorbar(t[ok & used], v[ok & used], yerr=None if e is None else e[ok & used],
-                        fmt="o", ms=4, color=INK, mfc="white", elinewidth=0.8)
-            bad = ok & ~used
-            if bad.any():
-                ax.plot(t[bad], v[bad], "X", ms=6, color=FLAG)
-            ax.set_yscale("log")
-            _log_temperature_xaxis(ax, t[ok])
-            ax.set_xlabel("temperature [K]")
-            ax.set_ylabel(label)
-        return fig
-
-
-def _finite_or_nan(values) -> np.ndarray:
-    """Float array with NaN for every non-finite value."""
-    a = np.asarray(values, dtype=float)
-    return np.where(np.isfinite(a), a, np.nan)
 
 
 def curve_columns(result: FitResult, curves: ModelCurves) -> dict[str, np.ndarray]:

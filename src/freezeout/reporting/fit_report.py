@@ -107,10 +107,11 @@ def figure_files(result: FitResult, curves=None, svg: dict | None = None, *,
     from freezeout.reporting.mobility_figure import mobility_figure
     from freezeout.reporting.spectroscopy_figure import caption as spectrum_caption
     from freezeout.reporting.spectroscopy_figure import spectroscopy_figure
+    from freezeout.reporting.transport_figure import CAPTION as TRANSPORT_CAPTION
+    from freezeout.reporting.transport_figure import transport_figure
 
     optional = (  # stem, drawing (None when the fit has nothing to draw), caption
-        ("transport", fg.transport_figure, "Resistivity and Hall mobility versus temperature "
-         "(crosses: points left out of the fit)."),
+        ("transport", transport_figure, TRANSPORT_CAPTION),
         ("mobility", mobility_figure, lambda r: "Hall mobility of the joint fit: measured "
          "points and the model of the named scattering mechanisms, each mechanism's own "
          "drift mobility dashed; below, the Hall factor the model applied to the density and "
