@@ -237,3 +237,18 @@ def test_lot_json_has_the_documented_shape():
     assert c["margin_U"] == 2.0 and c["spec"] == {"min": 8.0, "max": 12.0, "nominal": None,
                                                    "unit": "ohm cm"}
     assert d["deference"] == DEFERENCE
+
+
+@pytest.mark.parametrize(("k", "lower", "upper", "verdict"), [
+    (2.0, 0.1, 0.5, "accept"),  # y - U = 0.3 - 0.2 = 0.1, the inclusive lower limit
+    (3.0, 0.6, 0.9, "reject"),  # y + U = 0.3 + 0.3 = 0.6, on the lower limit from below
+    (2.0, 0.1000001, 0.5, "indeterminate"),  # just past it: straddles
+])
+def test_a_guard_that_ends_on_an_inclusive_limit_decides_as_the_rule_says(k, lower, upper,
+                                                                            verdict):
+    """JCGM 106:2012, 8.3.2 (guarded acceptance; the acceptance limits inclusive, as the
+    window): in decimal, 0.3 - 2 x 0.1 is exactly the limit 0.1; in binary floating point it
+    is 0.09999999999999998, which must not turn an accept into indeterminate."""
+    w = SpecWindow(lower, upper, unit="ohm cm")
+    got = decide(0.3, 0.1, w, rule="guarded", coverage_factor=k, quantity="resistivity")
+    assert got.verdict == verdict

@@ -195,3 +195,18 @@ def test_a_quoted_cell_with_the_separator_is_one_cell(tmp_path):
     p = _write(tmp_path, 'T [K],n [cm^-3],flags\n10,1e15,"a, b"\n20,"2e15","say ""x"""\n')
     run = read_reduced_csv(p)
     assert list(run.density) == [1e15, 2e15]
+
+
+@pytest.mark.parametrize(("header", "row"), [
+    ("T [K],n [cm^-3],n_err [cm^-3],rho [ohm cm],rho_err [ohm cm]", "296.15,1e15,1e13,5.0,0"),
+    ("T [K],n [cm^-3],mu [cm^2/Vs],mu_err [cm^2/Vs]", "296.15,1e15,1300,0"),
+])
+def test_a_zero_uncertainty_of_a_transport_value_is_refused(tmp_path, header, row):
+    """A stated uncertainty of exactly zero is no measurement's: under guarded acceptance it
+    would prove conformity by itself (project choice, no source); an empty cell is the way
+    to say "unknown"."""
+    p = _write(tmp_path, f"{header}\n296.0,1e15{row[row.index(',', 7):]}\n{row}\n")
+    with pytest.raises(InputError) as info:
+        read_reduced_csv(p)
+    e = info.value
+    assert e.line == 2 and e.column == header.split(",")[-1] and "is zero" in e.message

@@ -185,3 +185,17 @@ def test_uncertainty_bars_stand_beside_their_markers(mixed):
     assert markers and bars
     for x in bars:
         assert min(abs(x - m - BAR_OFFSET) for m in markers) < 1e-9
+
+
+def test_group_labels_drop_the_shared_prefix_and_stay_short():
+    """Long wafer ids would run into each other under 20 groups (project choice, no
+    source): the prefix all share is named once, each label keeps its end."""
+    from freezeout.reporting.lot_summary_figure import ID_CHARS, id_labels
+
+    prefix, short = id_labels([f"KRW-BIG-120-W{i:03d}" for i in range(1, 121)])
+    assert prefix == "KRW-BIG-120-" and short("KRW-BIG-120-W007") == "W007"
+    prefix, short = id_labels(["W1", "W2"])  # no separator in the shared part: kept whole
+    assert prefix == "" and short("W2") == "W2"
+    prefix, short = id_labels(["alpha-wafer-number-0001", "beta-wafer-number-0002"])
+    assert prefix == "" and short("alpha-wafer-number-0001") == "…mber-0001"
+    assert len(short("alpha-wafer-number-0001")) == ID_CHARS

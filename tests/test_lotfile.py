@@ -179,7 +179,7 @@ def err(lotdir, text) -> InputError:
         (lambda s: s.replace('value = "n"', 'value = "N-type"'), "claim[1].value",
          '"n" or "p"'),
         (lambda s: s.replace('material = "Si"', 'material = "unobtainium"'),
-         "wafer[2].material", "unknown material"),
+         "wafer[2].material", '(or give material_file = "FILE.toml")'),
         (lambda s: s.replace("date = 2026-11-03", "date = 2026-11-03T08:00:00"), "date",
          "must be a date"),
         # missing files
@@ -461,3 +461,15 @@ def test_simple_rule_lot(lotdir):
     assert (v.verdict, v.margin) == ("accept", pytest.approx(0.5))
     assert parse_lot(HEAD.replace("guarded", "simple") + CLAIMS + WAFERS,
                      lotdir / "lot.toml").decision.rule == "simple"
+
+
+def test_a_claim_that_cannot_be_compared_is_located_on_its_line(lotdir):
+    # evaluate_lot names the lot file, and the line of the claim's [[claim]] header
+    cold = lot_of(lotdir, CLAIMS.replace("temperature_K = 296.15", "temperature_K = 77"))
+    wafers = {w.wafer_id: measured() for w in cold.wafers}
+    with pytest.raises(InputError, match="23 degC") as info:
+        evaluate_lot(cold, wafers)
+    e = info.value
+    lines = cold.path.read_text().splitlines()
+    headers = [i + 1 for i, line in enumerate(lines) if line.strip() == "[[claim]]"]
+    assert e.column == "claim[2]" and e.line == headers[1] and e.file == str(cold.path)

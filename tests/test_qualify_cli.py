@@ -205,6 +205,11 @@ def test_failing_wafer_is_indeterminate_not_fatal(monkeypatch, capsys, tmp_path,
         for word in words:
             assert word in reason, reason
         assert reason in w[wid]["notes"]
+        # no claim decided it: the sentence says the wafer was not measured, and why
+        assert w[wid]["decided_by"] == ""
+        assert w[wid]["sentence"] == (f"Wafer {wid} is indeterminate: it was not measured "
+                                      f"({reason}).")
+    assert doc["decided_by"]["claim"] == "" and "which was not measured (" in doc["sentence"]
     assert counts(db_file) == (1, 0)
     # the console summary prints the reason as text (brackets are not taken as markup)
     monkeypatch.setenv("COLUMNS", "400")
@@ -287,3 +292,17 @@ def test_missing_lot_file_and_bad_options(monkeypatch, capsys, tmp_path):
     assert code == 2 and "--workers must be at least 1" in err
     code, _, err = cli(monkeypatch, capsys, "qualify", SAMPLE, "--db", "mysql://h/x")
     assert code == 2 and "--db" in err and "unsupported database" in err
+
+
+def test_a_measured_resistivity_too_far_from_the_claim_is_named_not_dropped_silently(
+        monkeypatch, capsys, tmp_path, db_file):
+    # the claim at the default 300 K, the point measured at 296.15 K: 3.85 K apart, beyond
+    # the 1 K match, so the F723 conversion decides; a note says why the point was not used
+    single_point(tmp_path / "r.csv", 9.0e14, 9.0e12, 5.0, 0.05)
+    head = LOT_HEAD.replace("temperature_K = 296.15\n", "")
+    lot = write_lot(tmp_path, {"W1": "r.csv"}, head=head)
+    code, out, err = cli(monkeypatch, capsys, "qualify", lot, "--json", "--workers", 1)
+    c = claim(json.loads(out)["wafers"][0], "claim[2]")
+    assert c["method"].startswith("ASTM F723"), c
+    assert any("measured resistivity at 296.15 K is 3.85 K from the claim's 300 K" in n
+               for n in c["notes"]), c["notes"]

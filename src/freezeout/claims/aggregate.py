@@ -124,8 +124,11 @@ def aggregate_lot(
     worst = min(wafers, key=lambda w: _rank_key(w.verdict, w.margin))
     n = {v: sum(w.verdict == v for w in wafers) for v in VERDICTS}
     words = {"accept": "accepted", "reject": "rejected", "indeterminate": "indeterminate"}
-    claim = next(c for c in worst.claims if c.claim_key == worst.decided_by)
-    label = _label(claim)
+    claim = next((c for c in worst.claims if c.claim_key == worst.decided_by), None)
+    if worst.decided_by and claim is not None:
+        label = _label(claim)
+    else:  # an unmeasured wafer: no claim decided it
+        label = "which was not measured" + (f" ({worst.notes[0]})" if worst.notes else "")
     head = f"Lot {lot} from {supplier} is {words[worst.verdict]} under the {rule} rule"
     if worst.verdict == "accept":
         head += f": all {len(wafers)} wafers meet every claim; closest: wafer "

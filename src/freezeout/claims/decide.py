@@ -174,11 +174,11 @@ def decide(
         verdict = "indeterminate"
         why = f"{measured}: guarded acceptance cannot prove conformity with {spec}"
     else:
-        inside = (window.lower is None or y - big_u >= window.lower) and (
-            window.upper is None or y + big_u <= window.upper
+        inside = (window.lower is None or _at_most(window.lower, y - big_u)) and (
+            window.upper is None or _at_most(y + big_u, window.upper)
         )
-        outside = (window.lower is not None and y + big_u <= window.lower) or (
-            window.upper is not None and y - big_u >= window.upper
+        outside = (window.lower is not None and _at_most(y + big_u, window.lower)) or (
+            window.upper is not None and _at_most(window.upper, y - big_u)
         )
         if inside:
             verdict = "accept"
@@ -216,6 +216,16 @@ def decide(
         temperature_K=temperature_K,
         notes=tuple(notes),
     )
+
+
+#: Relative tolerance of the comparisons of y +- U with a limit: a limit is inclusive, and
+#: 0.3 - 0.2 is 0.09999999999999998 in binary floating point (project choice, no source).
+LIMIT_TOLERANCE = 1e-12
+
+
+def _at_most(a: float, b: float) -> bool:
+    """a <= b, up to :data:`LIMIT_TOLERANCE` of their size (rounding of y +- U)."""
+    return a <= b + LIMIT_TOLERANCE * max(abs(a), abs(b))
 
 
 def decide_type(

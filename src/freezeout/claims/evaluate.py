@@ -46,13 +46,16 @@ References
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 
 from freezeout.claims import silicon
 from freezeout.claims.aggregate import aggregate_lot, aggregate_wafer
 from freezeout.claims.budget import net_doping_for_claim, with_temperature_term
 from freezeout.claims.decide import decide, decide_type, indeterminate
 from freezeout.claims.dopants import claim_dopant, is_silicon
+from freezeout.claims.lot_locator import KeyLocator, key_index
 from freezeout.errors import InputError
 from freezeout.numbers import finite_or_none
 from freezeout.records.lot import Claim, Decision, LotFile
@@ -76,7 +79,7 @@ COMPENSATION_NOTE_THRESHOLD = 0.1
 
 
 def _nearest_point(measured: Measurement, claim: Claim,
-                   tolerance_K: float) -> ResistivityPoint | None:
+                   tolerance_K: float = math.inf) -> ResistivityPoint | None:
     """The measured resistivity closest to the claim temperature, if within the tolerance."""
     points = [q for p in measured.resistivity
               if (q := ResistivityPoint.usable(p.temperature_K, p.value, p.stderr))]
@@ -84,6 +87,17 @@ def _nearest_point(measured: Measurement, claim: Claim,
         return None
     best = min(points, key=lambda p: abs(p.temperature_K - claim.temperature_K))
     return best if abs(best.temperature_K - claim.temperature_K) <= tolerance_K else None
+
+
+def _unmatched_note(measured: Measurement, claim: Claim, tolerance_K: float) -> str | None:
+    """Why a measured resistivity the run has was not used for the claim, or None."""
+    far = _nearest_point(measured, claim)
+    if far is None or abs(far.temperature_K - claim.temperature_K) <= tolerance_K:
+        return None
+    return (f"the measured resistivity at {far.temperature_K:.2f} K is "
+            f"{abs(far.temperature_K - claim.temperature_K):.2f} K from the claim's "
+            f"{claim.temperature_K:g} K, beyond the {tolerance_K:g} K within which a measured "
+            "point is taken: not used (give the claim's temperature_K to decide on it)")
 
 
 def _converted_resistivity(claim: Claim, measured: Measurement, where: str,
@@ -106,6 +120,9 @@ def _converted_resistivity(claim: Claim, measured: Measurement, where: str,
     method = f"ASTM F723 ({claim.dopant}) from net doping"
     nd = net_doping_for_claim(measured, where, claim, claim.dopant)
     notes = nd.notes
+    unmatched = _unmatched_note(measured, claim, tolerance_K)
+    if unmatched:
+        notes.append(unmatched)
     if nd.reason is not None:
         return indeterminate(claim.quantity, window, nd.reason, method=method,
                              temperature_K=claim.temperature_K, notes=notes, **common)
@@ -218,10 +235,12 @@ def evaluate_claim(
         with_temperature_term(near.value, None, near.temperature_K, claim.temperature_K,
                               "the measured resistivity", notes)
         return decide(near.value, None, window, method=method, notes=notes, **ctx)
+    unmatched = _unmatched_note(measured, claim, temperature_tolerance_K)
     raise InputError(
         f"{where}: {claim.key} (resistivity at {claim.temperature_K:g} K) needs a measured "
         f"resistivity within {temperature_tolerance_K:g} K of that temperature, or a dopant "
-        "(boron or phosphorus, silicon only) for the ASTM F723 conversion", column=claim.key)
+        "(boron or phosphorus, silicon only) for the ASTM F723 conversion"
+        + (f"; {unmatched}" if unmatched else ""), column=claim.key)
 
 
 def evaluate_wafer(
@@ -296,7 +315,22 @@ def unmeasured_wafer(wafer_id: str, reason: str, claims: Sequence[Claim],
                                      rule=decision.rule,
                                      coverage_factor=decision.coverage_factor, claim_key=c.key,
                                      temperature_K=c.temperature_K))
-    return aggregate_wafer(wafer_id, out, notes=[reason])
+    # no claim decided it: the wafer was not measured, and its sentence says why
+    return replace(aggregate_wafer(wafer_id, out, notes=[reason]), decided_by="",
+                   sentence=f"Wafer {wafer_id} is indeterminate: it was not measured "
+                            f"({reason}).")
+
+
+def _line_of(path, column) -> int | None:
+    """The line of a ``claim[2]``-style key path's table in the lot file, or None."""
+    text = str(column or "")
+    if "[" not in text:
+        return None
+    try:
+        source = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return None
+    return KeyLocator(source).line(text[:text.index("[")], key_index(text))
 
 
 def evaluate_lot(
@@ -347,7 +381,8 @@ def evaluate_lot(
                                          lot.decision,
                                          temperature_tolerance_K=temperature_tolerance_K))
         except InputError as exc:
-            raise InputError(exc.message, file=str(lot.path), line=exc.line,
+            line = exc.line if exc.line is not None else _line_of(lot.path, exc.column)
+            raise InputError(exc.message, file=str(lot.path), line=line,
                              column=exc.column) from None
     return aggregate_lot(wafers, lot=lot.lot, supplier=lot.supplier,
                          date=lot.date.isoformat(), rule=lot.decision.rule,

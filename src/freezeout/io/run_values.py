@@ -21,6 +21,10 @@ __all__ = ["density_hall_note", "read_columns"]
 _REQUIRED = {("temperature", False), ("density", False), ("hall_coefficient", False),
              ("density_p", False)}
 
+#: Quantities whose stated uncertainty may not be zero (the density's is refused in
+#: reduced_csv_reader, with the rule "on every row or none"; a temperature may be exact).
+_NO_ZERO_ERROR = frozenset({"resistivity", "conductivity", "mobility", "hall_coefficient"})
+
 #: Coverage factor for "disagree beyond their uncertainties" (common practice, no source).
 AGREEMENT_K = 3.0
 #: Relative tolerance of that comparison when neither column has uncertainties (project
@@ -62,6 +66,11 @@ def _check(values, raw, key, table, column, cells) -> tuple[int, InputError] | N
         i = _first(given & (values < 0))
         if i is not None:
             return err(i, f"uncertainty {cell(i)} is negative")
+        i = _first(given & (values == 0)) if quantity in _NO_ZERO_ERROR else None
+        if i is not None:  # (a guarded decision would take it as proof of conformity)
+            return err(i, f"uncertainty {cell(i)} is zero, which no measured "
+                          f"{quantity.replace('_', ' ')} has; leave the cell empty where it "
+                          "is unknown")
         i = _first(given & ~np.isfinite(values))
         if i is not None:
             return err(i, f"uncertainty {cell(i)} becomes infinite on conversion to "

@@ -39,6 +39,30 @@ def wafer_groups(n: int, max_groups: int = MAX_GROUPS) -> list[range]:
     return [range(a, b) for a, b in zip(edges[:-1], edges[1:], strict=True) if b > a]
 
 
+#: Characters of a wafer id a group label shows at most (about a group's width at 7 pt for
+#: 20 groups; project choice).
+ID_CHARS = 10
+
+
+def id_labels(ids: list[str]):
+    """The prefix every id shares, and a function giving an id without it.
+
+    The prefix is cut after its last '-', '_', '.' or ' '; the short id is at most
+    :data:`ID_CHARS` long (its end kept, after '…').
+    """
+    import os
+
+    common = os.path.commonprefix(ids) if len(ids) > 1 else ""
+    cut = max(common.rfind(c) for c in "-_. ") + 1
+    prefix = common[:cut]
+
+    def short(wid: str) -> str:
+        rest = wid[len(prefix):] or wid
+        return rest if len(rest) <= ID_CHARS else "…" + rest[-(ID_CHARS - 1):]
+
+    return prefix, short
+
+
 def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: dict,
                  window: tuple[float | None, float | None, float | None],
                  labels: dict, ax=None):
@@ -67,6 +91,7 @@ def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: 
     verdicts = np.array([str(c.verdict) for _, c in entries])
     ok = np.isfinite(y) & (y > 0 if log else True)
     groups = wafer_groups(n)
+    prefix, short = id_labels([wid for wid, _ in entries])
     with plt.rc_context(STYLE):
         ax = new_axes(ax, SUMMARY_SIZE)
         span = [v for v in (lower, upper, nominal) if v is not None] + list(y[ok])
@@ -117,7 +142,7 @@ def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: 
                       for v in ("accept", "indeterminate", "reject")]
             missing = int(np.sum(~ok[idx]))
             tail = f"\n{missing} no value" if missing else ""
-            ticks.append(f"{entries[g.start][0]}\n–{entries[g.stop - 1][0]}\n"
+            ticks.append(f"{short(entries[g.start][0])}\n–{short(entries[g.stop - 1][0])}\n"
                          f"{counts[0]}·{counts[1]}·{counts[2]}{tail}")
         if boxes:  # one call for every group's box
             ax.boxplot(boxes, positions=places, widths=0.5, whis=(0, 100),
@@ -130,8 +155,9 @@ def summary_axes(entries: list[tuple[str, ClaimVerdict]], *, log: bool, styles: 
         ax.set_xlim(-0.6, len(groups) - 0.4)
         ax.grid(axis="x", visible=False)
         per = math.ceil(n / len(groups))
+        after = f", ids after '{prefix}'" if prefix else ""
         ax.set_xlabel(f"{n} wafers in lot order, in {len(groups)} groups of up to {per} "
-                      "(first–last wafer; accepted·indeterminate·rejected)")
+                      f"(first–last wafer{after}; accepted·indeterminate·rejected)")
         ax.set_ylabel(labels["ylabel"])
         ax.set_title(labels["title"], loc="left")
         ax.plot([], [], "s", ms=8, mfc="white", mec=INK,
