@@ -55,7 +55,6 @@ from freezeout.claims.aggregate import aggregate_lot, aggregate_wafer
 from freezeout.claims.budget import net_doping_for_claim, with_temperature_term
 from freezeout.claims.decide import decide, decide_type, indeterminate
 from freezeout.claims.dopants import claim_dopant, is_silicon
-from freezeout.claims.lot_locator import KeyLocator, key_index
 from freezeout.errors import InputError
 from freezeout.numbers import finite_or_none
 from freezeout.records.lot import Claim, Decision, LotFile
@@ -321,18 +320,6 @@ def unmeasured_wafer(wafer_id: str, reason: str, claims: Sequence[Claim],
                             f"({reason}).")
 
 
-def _line_of(path, column) -> int | None:
-    """The line of a ``claim[2]``-style key path's table in the lot file, or None."""
-    text = str(column or "")
-    if "[" not in text:
-        return None
-    try:
-        source = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError):
-        return None
-    return KeyLocator(source).line(text[:text.index("[")], key_index(text))
-
-
 def evaluate_lot(
     lot: LotFile,
     measured_by_wafer: Mapping[str, Measurement],
@@ -367,6 +354,7 @@ def evaluate_lot(
         a measurement (see :func:`evaluate_claim`); ``file`` is the lot file.
     """
     unmeasured = unmeasured or {}
+    claim_lines = {c.key: c.line for c in lot.claims}  # for errors that name a claim
     wafers = []
     for w in lot.wafers:
         if w.wafer_id in unmeasured:
@@ -381,7 +369,7 @@ def evaluate_lot(
                                          lot.decision,
                                          temperature_tolerance_K=temperature_tolerance_K))
         except InputError as exc:
-            line = exc.line if exc.line is not None else _line_of(lot.path, exc.column)
+            line = exc.line if exc.line is not None else claim_lines.get(exc.column)
             raise InputError(exc.message, file=str(lot.path), line=line,
                              column=exc.column) from None
     return aggregate_lot(wafers, lot=lot.lot, supplier=lot.supplier,

@@ -83,7 +83,7 @@ def _type_claim(ctx: LotContext, d: dict, i: int, temperature: float, dopant_raw
                         key_path(t, i, "value"), t, i, "value")
     return Claim(key_path(t, i), "type", None, None,
                  _dopant_name(dopant_raw, _TYPE_DOPANT_SPELLINGS), temperature, carrier=value,
-                 note=note)
+                 note=note, line=ctx.loc.line(t, i))
 
 
 def _nominal_window(ctx: LotContext, d: dict, i: int, u, unit: str, nominal: float,
@@ -228,4 +228,4 @@ def parse_claim(ctx: LotContext, d: dict, i: int) -> Claim:
     else:
         dopant = _dopant_name(dopant_raw, _NET_DOPANT_SPELLINGS)
     return Claim(key, quantity, window, unit, dopant, temperature,
-                 tolerance_percent=tolerance_percent, note=note)
+                 tolerance_percent=tolerance_percent, note=note, line=ctx.loc.line(t, i))

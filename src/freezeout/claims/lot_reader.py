@@ -156,12 +156,11 @@ def _material_of(ctx: LotContext, d: dict, i: int, base: Path,
                         "material" if material else None)
     if material_file_s is None:
         try:
-            return get_material(material).name, None
-        except InputError as exc:
             # in a lot file the way out is its material_file key, not the fit's option
-            raise ctx.error(exc.message.replace("(or give --material-file FILE.toml)",
-                                                "(or give material_file = \"FILE.toml\")"),
-                            key_path(t, i, "material"), t, i, "material") from None
+            return get_material(material, other='material_file = "FILE.toml"').name, None
+        except InputError as exc:
+            raise ctx.error(exc.message, key_path(t, i, "material"), t, i,
+                            "material") from None
     material_file = _inside(ctx, (base / material_file_s).resolve(), base, i, "material_file",
                             allow_outside)
     if not material_file.is_file():

@@ -260,17 +260,15 @@ def run_from_table(table: Table, *, hall_factor: float | None = None,
         except ValueError:
             t_val, t_err = 1.0, 0.0
         density_err, scale = split_scale_uncertainty(density, density_err, t_err / t_val)
+    if density_err is not None and np.all(np.isnan(density_err)):
+        density_err = None
     if density_err is not None:
-        if np.all(np.isnan(density_err)):
-            density_err = None
-        elif np.any(np.isnan(density_err)) or np.any(density_err <= 0):
+        if np.any(np.isnan(density_err)) or np.any(density_err <= 0):
             i = int(np.nonzero(np.isnan(density_err) | (density_err <= 0))[0][0])
             raise InputError("density uncertainty must be given (> 0) on every row or none",
                              file=fname, line=int(line_nos[i]),
-                             column=plan.cols.get(("density", True),
-                                                  plan.cols.get(("hall_coefficient", True)))[2])
-        if density_err is not None:
-            _check_relative(density, density_err, fname, line_nos, plan)
+                             column=_error_column(plan))
+        _check_relative(density, density_err, fname, line_nos, plan)
     if plan.unrecognised:
         notes.append("columns not used (not a recognised quantity or uncertainty): "
                      + ", ".join(repr(h) for h in plan.unrecognised))
@@ -332,15 +330,19 @@ def run_from_table(table: Table, *, hall_factor: float | None = None,
 MIN_RELATIVE_UNCERTAINTY = 1e-7
 
 
+def _error_column(plan) -> str:
+    """The header of the column the density uncertainties came from (n_err or R_H_err)."""
+    return plan.cols.get(("density", True), plan.cols.get(("hall_coefficient", True)))[2]
+
+
 def _check_relative(density, density_err, fname, line_nos, plan) -> None:
     """Refuse the first row whose density uncertainty is implausibly small (InputError)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         small = np.flatnonzero(density_err / density < MIN_RELATIVE_UNCERTAINTY)
     if small.size:
         i = int(small[0])
-        col = plan.cols.get(("density", True), plan.cols.get(("hall_coefficient", True)))
         raise InputError(f"the uncertainty is {density_err[i] / density[i]:.2g} of the value "
                          f"({density_err[i]:.4g} of {density[i]:.4g} cm^-3), below the "
                          f"{MIN_RELATIVE_UNCERTAINTY:g} no Hall measurement reaches: check the "
                          "column's unit (or a cell cut short)", file=fname,
-                         line=int(line_nos[i]), column=col[2])
+                         line=int(line_nos[i]), column=_error_column(plan))

@@ -258,17 +258,17 @@ def library() -> dict[str, Material]:
     return out
 
 
-def get_material(name: str) -> Material:
+def get_material(name: str, *, other: str = "--material-file FILE.toml") -> Material:
     """Look up a bundled material by name, case-insensitively.
 
     Raises
     ------
     InputError
-        If no bundled material has that name; the message lists the known ones.
+        If no bundled material has that name; the message lists the known ones and says
+        how to give another (``other``: the command's option by default).
     """
     lib = library()
     for key, mat in lib.items():
         if key.lower() == name.strip().lower():
             return mat
-    raise InputError(f"unknown material {name!r}; known: {', '.join(lib)} "
-                     "(or give --material-file FILE.toml)")
+    raise InputError(f"unknown material {name!r}; known: {', '.join(lib)} (or give {other})")

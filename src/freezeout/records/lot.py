@@ -7,7 +7,7 @@ read by the layers that decide, store and report a qualification.
 from __future__ import annotations
 
 import datetime as _dt
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from freezeout.records.verdicts import SpecWindow
@@ -58,6 +58,9 @@ class Claim:
         The tolerance when it was given in percent, else None. [%]
     note
         Free text from the file.
+    line
+        The line of its ``[[claim]]`` table in the lot file, for errors found later (when it
+        is compared with a measurement); None when not read from a file.
     """
 
     key: str
@@ -69,6 +72,7 @@ class Claim:
     carrier: str | None = None
     tolerance_percent: float | None = None
     note: str | None = None
+    line: int | None = field(default=None, compare=False)
 
     def to_dict(self) -> dict:
         """Plain-JSON form."""

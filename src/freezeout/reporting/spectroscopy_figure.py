@@ -105,7 +105,10 @@ def spectroscopy_figure(result: FitResult) -> Figure | None:
         for _, lv in fitted:
             e = lv.energy.value
             row = next((r for r, end in enumerate(row_ends) if e > end), len(row_ends))
-            row_ends[row:row + 1] = [e + width]
+            if row == len(row_ends):
+                row_ends.append(e + width)
+            else:
+                row_ends[row] = e + width
             rows.append(row)
         for (j, lv), row in zip(fitted, rows, strict=True):
             e = lv.energy.value

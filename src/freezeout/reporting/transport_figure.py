@@ -13,6 +13,7 @@ import matplotlib
 
 matplotlib.use("Agg")
 
+import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 
@@ -67,8 +68,6 @@ def _groups(result: FitResult) -> list[tuple[np.ndarray, dict, str]]:
 
 def transport_figure(result: FitResult) -> Figure | None:
     """Resistivity and Hall mobility versus temperature, or None if the run has neither."""
-    from matplotlib import pyplot as plt
-
     panels = _panels(result)
     if not panels:
         return None
